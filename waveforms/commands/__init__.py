@@ -1,0 +1,1 @@
+"""CLI subcommands, one module each; see `waveforms.cli.COMMAND_MODULES`."""

@@ -1,0 +1,48 @@
+"""One exception hierarchy for the whole package.
+
+Every error the user can cause ends in one line that names the file, the place
+inside it (line, column, dataset, key) and what is wrong.  The CLI prints
+``str(err)`` and exits non-zero; it never shows a traceback for these.
+"""
+
+from __future__ import annotations
+
+from os import PathLike
+
+
+class WaveformsError(Exception):
+    """Base class of every error this package raises on purpose."""
+
+
+class CaptureReadError(WaveformsError):
+    """A capture (or a file that goes with it) cannot be read as asked.
+
+    Parameters
+    ----------
+    path : str or PathLike
+        The file concerned.
+    where : str
+        The place inside the file: ``"line 12, column 'Ib'"``, ``"dataset /ch/Va"``,
+        ``"key channels.Va.ratio"``.  May be empty when the whole file is at fault.
+    problem : str
+        What is wrong, in plain words, ideally with a hint of what would be right.
+    """
+
+    def __init__(self, path: str | PathLike[str], where: str, problem: str) -> None:
+        self.path = str(path)
+        self.where = where
+        self.problem = problem
+        place = f": {where}" if where else ""
+        super().__init__(f"{self.path}{place}: {problem}")
+
+
+class MappingError(CaptureReadError):
+    """A channel-mapping file or option is wrong or does not fit the capture."""
+
+
+class InvalidParameterError(WaveformsError, ValueError):
+    """A parameter given to a computing function or a stage is out of its domain."""
+
+
+class WriteError(WaveformsError):
+    """An output could not be written (nothing partial is left behind)."""

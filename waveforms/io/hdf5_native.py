@@ -1,0 +1,304 @@
+"""The project's own HDF5 capture layout: writer, lazy chunked reader, sniffer.
+
+Layout (format version 1)::
+
+    /                          file attributes
+        format               = "motor-waveforms capture"
+        format_version       = 1
+        sample_rate_hz       float
+        n_samples            int
+        start_time           ISO 8601 with UTC offset, microseconds
+        nominal_frequency_hz float, NaN when unknown
+        nominal_voltage_v    float, NaN when unknown
+        wiring               "3-wire" | "4-wire"
+        provenance           JSON text (see waveforms.capture.Provenance)
+        nameplate            JSON text, or "" when none
+        gaps                 JSON text: [[start_index, stop_index, reason], ...]
+    /channels/<name>           one 1-D dataset per channel, float64 (or float32),
+                               chunked (65536 samples), shuffle + gzip level 1
+        attributes: order (int, position in the capture), kind, conductor,
+                    reference, unit, source_label, scale
+
+Samples are stored in base units (V, A), NaN where missing.  The reader keeps
+the file open read-only and pulls only the requested range, so memory does
+not grow with the capture's length.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import json
+import math
+import os
+from collections.abc import Iterable, Sequence
+from pathlib import Path
+from typing import Any
+
+import h5py
+import numpy as np
+
+from ..atomic import atomic_path, same_file
+from ..capture import Capture, Channel, Gap, Provenance
+from ..errors import CaptureReadError, WriteError
+from ..hashing import sha256_file
+from .registry import Importer, ReadOptions, register
+
+FORMAT_NAME = "motor-waveforms capture"
+FORMAT_VERSION = 1
+CHUNK_SAMPLES = 65536
+
+
+# -- reading ---------------------------------------------------------------------
+class HDF5Source:
+    """Lazy sample source over datasets of an open HDF5 file (read-only).
+
+    Parameters
+    ----------
+    path : Path
+    dataset_paths : sequence of str
+        One 1-D dataset per channel, equal lengths.
+    scales : sequence of float, optional
+        Factor applied to each dataset's raw values on read (generic files).
+    """
+
+    def __init__(self, path: Path, dataset_paths: Sequence[str], scales: Sequence[float] | None = None) -> None:
+        self.path = Path(path)
+        self.dataset_paths = tuple(dataset_paths)
+        self.scales = tuple(scales) if scales is not None else (1.0,) * len(self.dataset_paths)
+        self._fh: h5py.File | None = None
+        fh = self._file()
+        lengths = {fh[p].shape[0] for p in self.dataset_paths}
+        if len(lengths) != 1:
+            raise CaptureReadError(path, "datasets " + ", ".join(self.dataset_paths), f"channels have different lengths {sorted(lengths)}")
+        self._n = lengths.pop()
+
+    def _file(self) -> h5py.File:
+        if self._fh is None or not self._fh.id.valid:
+            self._fh = h5py.File(self.path, "r")
+        return self._fh
+
+    def __getstate__(self) -> dict[str, Any]:  # picklable for worker processes
+        state = self.__dict__.copy()
+        state["_fh"] = None
+        return state
+
+    def close(self) -> None:
+        if self._fh is not None and self._fh.id.valid:
+            self._fh.close()
+        self._fh = None
+
+    @property
+    def n_samples(self) -> int:
+        return int(self._n)
+
+    @property
+    def n_channels(self) -> int:
+        return len(self.dataset_paths)
+
+    def read(self, start: int, stop: int, channel_indices: Sequence[int]) -> np.ndarray:
+        fh = self._file()
+        out = np.empty((len(channel_indices), stop - start), dtype=np.float64)
+        for row, ci in enumerate(channel_indices):
+            ds = fh[self.dataset_paths[ci]]
+            try:
+                if stop > start:
+                    ds.read_direct(out, np.s_[start:stop], np.s_[row, :])
+            except OSError as e:
+                raise CaptureReadError(self.path, f"dataset {self.dataset_paths[ci]}, samples {start}-{stop}", f"cannot be read ({e})") from None
+            if self.scales[ci] != 1.0:
+                out[row] *= self.scales[ci]
+        return out
+
+
+def _attr_str(attrs: Any, key: str, default: str = "") -> str:
+    v = attrs.get(key, default)
+    return v.decode() if isinstance(v, bytes) else str(v)
+
+
+def sniff_native(path: Path) -> bool:
+    """True for an HDF5 file in this project's layout (never raises)."""
+    try:
+        if not h5py.is_hdf5(path):
+            return False
+        with h5py.File(path, "r") as fh:
+            return _attr_str(fh.attrs, "format") == FORMAT_NAME
+    except Exception:
+        return False
+
+
+def read_native(path: Path, options: ReadOptions | None = None) -> Capture:
+    """Open a native HDF5 capture lazily (samples stay on disk until read)."""
+    options = options or ReadOptions()
+    try:
+        fh = h5py.File(path, "r")
+    except OSError as e:
+        raise CaptureReadError(path, "", f"not a readable HDF5 file, truncated or damaged? ({e})") from None
+    with fh:
+        a = fh.attrs
+        if _attr_str(a, "format") != FORMAT_NAME:
+            raise CaptureReadError(path, "attribute /format", f"not a {FORMAT_NAME!r} file; for other HDF5 layouts give a mapping file (format 'hdf5-mapped')")
+        version = int(a.get("format_version", -1))
+        if version != FORMAT_VERSION:
+            raise CaptureReadError(path, "attribute /format_version", f"version {version} is not supported (this program reads {FORMAT_VERSION})")
+        if "channels" not in fh or not len(fh["channels"]):
+            raise CaptureReadError(path, "group /channels", "missing or empty")
+        try:
+            rate = float(a["sample_rate_hz"])
+            start = _dt.datetime.fromisoformat(_attr_str(a, "start_time"))
+        except (KeyError, ValueError) as e:
+            raise CaptureReadError(path, "attributes /sample_rate_hz, /start_time", f"missing or malformed ({e})") from None
+        items = sorted(fh["channels"].items(), key=lambda kv: int(kv[1].attrs.get("order", 0)))
+        channels = []
+        paths = []
+        for name, ds in items:
+            at = ds.attrs
+            try:
+                channels.append(
+                    Channel(
+                        name=name, kind=_attr_str(at, "kind"), conductor=_attr_str(at, "conductor"),  # type: ignore[arg-type]
+                        reference=_attr_str(at, "reference"), unit=_attr_str(at, "unit"),  # type: ignore[arg-type]
+                        source_label=_attr_str(at, "source_label"), scale=float(at.get("scale", 1.0)),
+                    )
+                )
+            except Exception as e:
+                raise CaptureReadError(path, f"dataset /channels/{name}", f"bad channel attributes ({e})") from None
+            if ds.ndim != 1:
+                raise CaptureReadError(path, f"dataset /channels/{name}", f"must be 1-D, has shape {ds.shape}")
+            paths.append(f"/channels/{name}")
+        fnom = float(a.get("nominal_frequency_hz", math.nan))
+        vnom = float(a.get("nominal_voltage_v", math.nan))
+        prov = Provenance.from_dict(json.loads(_attr_str(a, "provenance", "{}") or "{}"))
+        gaps = tuple(Gap(int(g[0]), int(g[1]), str(g[2])) for g in json.loads(_attr_str(a, "gaps", "[]") or "[]"))
+        plate_json = _attr_str(a, "nameplate", "")
+        wiring = _attr_str(a, "wiring", "4-wire")
+    nameplate = None
+    if plate_json:
+        from ..motor.nameplate import Nameplate
+
+        nameplate = Nameplate.from_dict({k: v for k, v in json.loads(plate_json).items() if k != "warnings"}, f"{path}:/nameplate")
+    source = HDF5Source(path, paths)
+    prov = Provenance(
+        source_path=str(path), sha256=sha256_file(path), importer="hdf5-native",
+        mapping=prov.mapping, notes=prov.notes,
+        history=prov.history + ((f"imported from {prov.source_path} ({prov.importer}, sha256 {prov.sha256[:12]}...)",) if prov.source_path else ()),
+    )
+    return Capture(
+        channels=tuple(channels), source=source, sample_rate_hz=rate, start_time=start,
+        nominal_frequency_hz=options.nominal_frequency_hz or (None if math.isnan(fnom) else fnom),
+        nominal_voltage_v=options.nominal_voltage_v or (None if math.isnan(vnom) else vnom),
+        wiring=options.wiring or wiring,  # type: ignore[arg-type]
+        provenance=prov, nameplate=nameplate, gaps=gaps,
+    )
+
+
+# -- writing ---------------------------------------------------------------------
+def _write_header(fh: h5py.File, capture_meta: dict[str, Any]) -> None:
+    a = fh.attrs
+    a["format"] = FORMAT_NAME
+    a["format_version"] = FORMAT_VERSION
+    for k, v in capture_meta.items():
+        a[k] = v
+
+
+def _meta_of(capture: Capture) -> dict[str, Any]:
+    return {
+        "sample_rate_hz": float(capture.sample_rate_hz),
+        "n_samples": int(capture.n_samples),
+        "start_time": capture.start_time.isoformat(timespec="microseconds"),
+        "nominal_frequency_hz": math.nan if capture.nominal_frequency_hz is None else float(capture.nominal_frequency_hz),
+        "nominal_voltage_v": math.nan if capture.nominal_voltage_v is None else float(capture.nominal_voltage_v),
+        "wiring": capture.wiring,
+        "provenance": json.dumps(capture.provenance.to_dict()),
+        "nameplate": "" if capture.nameplate is None else json.dumps(capture.nameplate.to_dict()),
+        "gaps": json.dumps([[g.start_index, g.stop_index, g.reason] for g in capture.gaps]),
+    }
+
+
+def write_native(
+    capture: Capture,
+    path: str | os.PathLike[str],
+    dtype: str = "float64",
+    compression: str | None = "gzip",
+    chunk_samples: int = 1 << 18,
+) -> Path:
+    """Write a capture in the native layout, atomically, streaming chunk by chunk.
+
+    Parameters
+    ----------
+    capture : Capture
+    path : path-like
+        Target file; must not be the capture's own source file.
+    dtype : {"float64", "float32"}
+        Storage type of the samples.
+    compression : {"gzip", "lzf", None}
+        ``"gzip"`` (level 1, portable to every HDF5 reader) by default.
+    chunk_samples : int
+        Samples read from the capture per step (memory bound).
+    """
+    target = Path(path)
+    if capture.provenance.source_path and same_file(capture.provenance.source_path, target):
+        raise WriteError(f"{target}: refusing to overwrite the input capture")
+    blocks = (c.owned for c in capture.iter_chunks(chunk_samples))
+    return write_native_blocks(target, capture.channels, _meta_of(capture), blocks, capture.n_samples, dtype, compression)
+
+
+def write_native_blocks(
+    target: Path,
+    channels: Sequence[Channel],
+    meta: dict[str, Any],
+    blocks: Iterable[np.ndarray],
+    n_samples: int | None,
+    dtype: str = "float64",
+    compression: str | None = "gzip",
+) -> Path:
+    """Write blocks of samples (each ``(n_channels, n)``) as a native capture, atomically.
+
+    ``n_samples`` may be None when the length is not known in advance (a
+    streamed CSV); datasets then grow as blocks arrive and ``meta['n_samples']``
+    is set at the end.
+    """
+    comp_opts: dict[str, Any] = {}
+    if compression == "gzip":
+        comp_opts = {"compression": "gzip", "compression_opts": 1, "shuffle": True}
+    elif compression == "lzf":
+        comp_opts = {"compression": "lzf", "shuffle": True}
+    with atomic_path(target) as tmp:
+        with h5py.File(tmp, "w") as fh:
+            _write_header(fh, {k: v for k, v in meta.items() if k != "n_samples"})
+            grp = fh.create_group("channels")
+            dsets = []
+            for order, ch in enumerate(channels):
+                shape = (n_samples,) if n_samples is not None else (0,)
+                maxshape = (n_samples,) if n_samples is not None else (None,)
+                chunks = (min(CHUNK_SAMPLES, max(1, n_samples)),) if n_samples is not None else (CHUNK_SAMPLES,)
+                ds = grp.create_dataset(ch.name, shape=shape, maxshape=maxshape, dtype=dtype, chunks=chunks, **comp_opts)
+                ds.attrs.update({
+                    "order": order, "kind": ch.kind, "conductor": ch.conductor, "reference": ch.reference,
+                    "unit": ch.unit, "source_label": ch.source_label, "scale": float(ch.scale),
+                })
+                dsets.append(ds)
+            pos = 0
+            for block in blocks:
+                block = np.asarray(block)
+                n = block.shape[1]
+                for row, ds in enumerate(dsets):
+                    if n_samples is None:
+                        ds.resize((pos + n,))
+                    ds[pos : pos + n] = block[row]
+                pos += n
+            if n_samples is not None and pos != n_samples:
+                raise WriteError(f"{target}: wrote {pos} samples, expected {n_samples}")
+            fh.attrs["n_samples"] = pos
+    return target
+
+
+register(
+    Importer(
+        name="hdf5-native",
+        description="this project's own HDF5 layout (see waveforms/io/hdf5_native.py)",
+        extensions=(".h5", ".hdf5"),
+        sniff=sniff_native,
+        read=read_native,
+        priority=100,
+    )
+)

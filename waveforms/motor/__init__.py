@@ -1,0 +1,1 @@
+"""Motor nameplate, machine model and simulator, thermal model."""
