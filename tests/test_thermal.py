@@ -1,0 +1,118 @@
+"""Thermal model checks against IEC 60255-149, IEC 60947-4-1 and IEEE C37.96 values."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from waveforms.errors import InvalidParameterError
+from waveforms.motor import thermal as th
+
+
+def _cycles(i_line_a: np.ndarray, f_hz: float = 50.0, i2_a: np.ndarray | None = None) -> pd.DataFrame:
+    n = len(i_line_a)
+    t0 = np.arange(n) / f_hz
+    i2 = np.zeros(n) if i2_a is None else i2_a
+    return pd.DataFrame({
+        "t_s": t0 + 0.5 / f_hz, "t_start_s": t0, "t_end_s": t0 + 1 / f_hz,
+        "Ia_rms": i_line_a, "Ib_rms": i_line_a, "Ic_rms": i_line_a, "I1": i_line_a, "I2": i2,
+    })
+
+
+class TestTripTime:
+    def test_cold_and_hot_published_values(self):
+        # IEC 60255-149 thermal equation; tau = 10 min, k IB = 1.05, I = 2 IB:
+        # cold 3.224 min, hot (Ip = 1) 0.348 min (REFERENCES.md [calc] from the equation)
+        cold = th.trip_time_s(2.0, 600.0, k=1.05, ip_pu=0.0)
+        hot = th.trip_time_s(2.0, 600.0, k=1.05, ip_pu=1.0)
+        assert float(cold) / 60 == pytest.approx(3.224, abs=5e-4)
+        assert float(hot) / 60 == pytest.approx(0.348, abs=5e-4)
+
+    def test_below_pickup_never_trips(self):
+        # IEC 60255-149: no operation for I <= k IB
+        assert np.isinf(th.trip_time_s(1.04, 600.0, k=1.05))
+
+    def test_discrete_model_matches_closed_form(self):
+        # first_order_state integrated at 20 ms steps must reach (k IB)^2 when the
+        # IEC 60255-149 closed form says (cold 3.224 min at 2 x, tau 10 min)
+        n = int(4 * 60 / 0.02)
+        u = np.full(n, 4.0)
+        theta = th.first_order_state(u, 0.02, 600.0)
+        t_end = (np.arange(n) + 1) * 0.02
+        t = th.crossing_time_s(t_end, u, theta, 0.02, 600.0, 1.05**2)
+        assert t is not None and t / 60 == pytest.approx(3.224, abs=5e-4)
+
+    def test_bad_tau(self):
+        with pytest.raises(InvalidParameterError, match="tau_s"):
+            th.trip_time_s(2.0, 0.0)
+
+
+class TestTripClasses:
+    @pytest.mark.parametrize("cls", ["10A", "10", "20", "30"])
+    def test_inside_iec_60947_4_1_band_at_7_2x(self, cls):
+        # IEC 60947-4-1 trip classes at 7.2 x setting, cold: 10A 2-10 s, 10 4-10 s,
+        # 20 6-20 s, 30 9-30 s (REFERENCES.md [pub])
+        lo, hi = {"10A": (2, 10), "10": (4, 10), "20": (6, 20), "30": (9, 30)}[cls]
+        t = float(th.trip_time_s(7.2, th.class_tau_s(cls), k=th.RELAY_PICKUP_PU))
+        assert lo <= t <= hi
+
+    @pytest.mark.parametrize("cls", ["10", "20", "30"])
+    def test_1_05_and_1_2_limits(self, cls):
+        # IEC 60947-4-1: 1.05 x no trip within 2 h (cold), 1.2 x trip within 2 h
+        # (from the 1.05 x hot state) -- from memory (REFERENCES.md [mem])
+        tau = th.class_tau_s(cls)
+        assert th.trip_time_s(1.05, tau, k=th.RELAY_PICKUP_PU) > 7200
+        assert th.trip_time_s(1.2, tau, k=th.RELAY_PICKUP_PU, ip_pu=1.05) < 7200
+
+    def test_assess_relay_trip_instant_at_locked_rotor(self):
+        # 6 x FLA from t = 1 s: class 10 trips first, class 30 last, each at the
+        # IEC 60255-149 closed-form time after the step (relay pick-up 1.125)
+        i = np.r_[np.zeros(50), np.full(50 * 40, 6.0 * 10.0)]
+        res = th.assess_thermal(_cycles(i), fla_a=10.0, locked_rotor_a=60.0)
+        r = res.summary["relays"]
+        for cls in ("10", "20", "30"):
+            expect = 1.0 + float(th.trip_time_s(6.0, th.class_tau_s(cls), k=th.RELAY_PICKUP_PU))
+            assert r[cls]["trip_s"] == pytest.approx(expect, abs=1e-6)
+        assert r["10"]["trip_s"] < r["20"]["trip_s"] < r["30"]["trip_s"]
+
+
+class TestHeating:
+    def test_negative_sequence_k(self):
+        # IEEE C37.96: K ~ 175 / I_LR^2 (from memory); I_LR = 6 pu -> 4.86
+        assert th.negative_sequence_k(6.0) == pytest.approx(175 / 36)
+
+    def test_equivalent_current(self):
+        # I_eq^2 = I1^2 + K I2^2 (IEEE C37.96, from memory): 1 pu + 0.1 pu at K = 4.86
+        ieq = th.equivalent_heating_current(np.array([1.0]), np.array([0.1]), 175 / 36)
+        assert ieq[0] == pytest.approx(math.sqrt(1 + 175 / 36 * 0.01))
+
+    def test_delta_single_phased_two_thirds(self):
+        # Delta single-phased (line C open, Ia = -Ib): windings carry 2/3 and 1/3
+        # of the line current (REFERENCES.md [derived], ideal case)
+        ph = np.array([[10.0 + 0j], [-10.0 + 0j], [0j]])
+        w = np.abs(th.delta_winding_currents(ph))[:, 0]
+        assert sorted(w) == pytest.approx([10 / 3, 10 / 3, 20 / 3])
+
+    def test_delta_balanced_winding_is_line_over_sqrt3(self):
+        # balanced delta: winding current = line current / sqrt(3) (common practice, no source)
+        a = np.exp(-2j * np.pi / 3)
+        ph = np.array([[10.0], [10.0 * a], [10.0 * a * a]])
+        w = np.abs(th.delta_winding_currents(ph))[:, 0]
+        assert w == pytest.approx([10 / math.sqrt(3)] * 3)
+
+    def test_time_above_fla_and_sf(self):
+        # 2 s at 1.1 x FLA, 1 s at 1.2 x, then 1 s at 0.9 x; SF 1.15 -> 3 s above FLA, 1 s above SF
+        i = np.r_[np.full(100, 11.0), np.full(50, 12.0), np.full(50, 9.0)]
+        s = th.assess_thermal(_cycles(i), fla_a=10.0, service_factor=1.15).summary
+        assert s["time_above_fla_s"] == pytest.approx(3.0, abs=1e-9)
+        assert s["time_above_sf_current_s"] == pytest.approx(1.0, abs=1e-9)
+
+    def test_negative_sequence_raises_capacity(self):
+        # same line currents, with and without 20 % negative sequence: I2 must add heat (IEEE C37.96)
+        i = np.full(500, 10.0)
+        a = th.assess_thermal(_cycles(i), fla_a=10.0).summary["thermal_capacity_used_pct"]
+        b = th.assess_thermal(_cycles(i, i2_a=np.full(500, 2.0)), fla_a=10.0).summary["thermal_capacity_used_pct"]
+        assert b > a > 0
