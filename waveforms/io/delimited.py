@@ -1,0 +1,545 @@
+"""CSV / delimited-text importer (registry name ``"csv"``).
+
+Takes the exports loggers actually write: optional metadata lines above a
+header row; ``,`` ``;`` or tab separators; decimal point or decimal comma;
+a time column in seconds (or ms, us), ISO 8601 stamps with a UTC offset, or
+no time column and a given rate.  Columns are recognised from common header
+spellings or mapped by a mapping file (`waveforms.io.mapping`).
+
+Parsing is done by the pyarrow CSV reader (C++, multithreaded); there is no
+Python loop over rows.  Bad input ends in a `CaptureReadError` naming the
+file, the line and column, and the problem.
+
+Metadata lines of the form ``# key: value`` with keys ``start_time``,
+``sample_rate_hz``, ``nominal_frequency_hz``, ``nominal_voltage_v`` and
+``wiring`` (as written by `waveforms.io.csv_writer`) are read; other leading
+lines are kept as notes.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import datetime as _dt
+import re
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pyarrow.csv as pacsv
+
+from ..capture import ArraySource, Capture, Provenance
+from ..errors import CaptureReadError, InvalidParameterError, MappingError
+from ..hashing import sha256_file
+from .. import timebase
+from .mapping import (
+    Mapping, is_time_header, mapping_record, parse_mapping, resolve_channels, suggest, time_header_unit, time_unit_factor,
+)
+from .registry import Importer, ReadOptions, register
+
+HEAD_BYTES = 1 << 16
+DELIMITERS = ("\t", ";", ",")
+META_KEYS = ("start_time", "sample_rate_hz", "nominal_frequency_hz", "nominal_voltage_v", "wiring")
+_NUM_RE = {
+    ".": re.compile(r"^\s*[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?\s*$|^\s*$|^\s*[+-]?(nan|NaN|inf|Inf)\s*$"),
+    ",": re.compile(r"^\s*[+-]?(\d+,?\d*|,\d+)([eE][+-]?\d+)?\s*$|^\s*$|^\s*[+-]?(nan|NaN|inf|Inf)\s*$"),
+}
+_ISO_RE = re.compile(r"^\s*\d{4}-\d{2}-\d{2}[T ]\d{2}:\d{2}(:\d{2}(\.\d+)?)?\s*(Z|[+-]\d{2}:?\d{2})?\s*$")
+_OFFSET_RE = re.compile(r"(Z|[+-]\d{2}:?\d{2})\s*$")
+_META_RE = re.compile(r"^\s*#?\s*(?P<key>[A-Za-z_][A-Za-z0-9_ ]*?)\s*[:=]\s*(?P<value>.*?)\s*$")
+EPOCH = _dt.datetime(1970, 1, 1, tzinfo=_dt.timezone.utc)
+
+
+@dataclasses.dataclass(frozen=True)
+class Layout:
+    """How a delimited file is laid out (found from its first lines, or given)."""
+
+    encoding: str
+    delimiter: str
+    decimal: str
+    header_index: int  # 0-based physical line of the header row
+    headers: tuple[str, ...]
+    metadata_lines: tuple[str, ...]
+    first_data: tuple[tuple[str, ...], ...]  # a few parsed data rows (for type guesses)
+
+
+# -- layout -----------------------------------------------------------------------------
+def _head_text(path: Path, encoding: str | None) -> tuple[str, str, bool]:
+    """First bytes of the file decoded; (text, encoding, whole_file_read)."""
+    with open(path, "rb") as fh:
+        raw = fh.read(HEAD_BYTES)
+        whole = len(fh.read(1)) == 0
+    if b"\x00" in raw:
+        raise CaptureReadError(path, "", "contains NUL bytes: a binary file, not delimited text (use --format)")
+    if not whole:
+        cut = raw.rfind(b"\n")
+        raw = raw[: cut + 1] if cut > 0 else raw
+    if encoding:
+        try:
+            return raw.decode(encoding), encoding, whole
+        except (LookupError, UnicodeDecodeError) as e:
+            raise CaptureReadError(path, "", f"cannot be decoded as {encoding!r} ({e})") from None
+    try:
+        return raw.decode("utf-8-sig"), "utf-8", whole
+    except UnicodeDecodeError:
+        return raw.decode("latin-1"), "latin-1", whole
+
+
+def _cells(line: str, delim: str) -> list[str]:
+    return [c.strip().strip('"').strip() for c in line.split(delim)]
+
+
+def _numeric_row(cells: list[str], decimal: str) -> bool:
+    """True when every cell but possibly the first (a time stamp) is a number or empty."""
+    pat = _NUM_RE[decimal]
+    first_ok = bool(pat.match(cells[0])) or bool(_ISO_RE.match(cells[0]))
+    return first_ok and all(pat.match(c) for c in cells[1:])
+
+
+def detect_layout(path: Path, mapping: Mapping) -> Layout:
+    """Find encoding, delimiter, decimal mark, header row and metadata lines.
+
+    Given values (``[csv]`` table of the mapping) win; the rest is recognised
+    from the first 64 KiB: the delimiter is the one (tab, ``;``, ``,`` in that
+    order of preference) that splits every line from the header on into the
+    same number of fields; the header is the last non-numeric line before the
+    first all-numeric one.
+    """
+    opts = mapping.csv
+    text, encoding, _ = _head_text(path, opts.get("encoding"))
+    lines = text.splitlines()
+    if not any(ln.strip() for ln in lines):
+        raise CaptureReadError(path, "", "no text lines: the file is blank")
+    delim = opts.get("delimiter")
+    if delim is not None:
+        delim = {"\\t": "\t", "tab": "\t"}.get(delim, delim)
+        if delim not in DELIMITERS:
+            raise MappingError(mapping.source, "key csv.delimiter", f"{delim!r} is not one of ',', ';', '\\t'")
+    nonblank = [i for i, ln in enumerate(lines) if ln.strip()]
+    if delim is None:
+        tail = nonblank[len(nonblank) // 2 :]
+        for d in DELIMITERS:
+            counts = {i: lines[i].count(d) for i in nonblank}
+            tail_counts = [counts[i] for i in tail]
+            mode = max(set(tail_counts), key=tail_counts.count)
+            if mode > 0 and tail_counts.count(mode) == len(tail_counts):
+                delim = d
+                break
+        else:
+            delim = ","  # one column, or irregular: let the parser report the bad line
+    decimal = opts.get("decimal")
+    if decimal is not None and decimal not in (".", ","):
+        raise MappingError(mapping.source, "key csv.decimal", f"{decimal!r} must be '.' or ','")
+    if decimal is None:
+        decimal = "."
+        if delim != ",":
+            body = [c for i in nonblank[1:40] for c in _cells(lines[i], delim)]
+            if any(_NUM_RE[","].match(c) and "," in c for c in body) and not any(
+                re.match(r"^\s*[+-]?\d*\.\d+\s*$", c) for c in body
+            ):
+                decimal = ","
+    if delim == "," and decimal == ",":
+        raise MappingError(mapping.source, "keys csv.delimiter, csv.decimal", "',' cannot be both the delimiter and the decimal mark")
+    hl = opts.get("header_line")
+    if hl is not None:
+        if not isinstance(hl, int) or not (1 <= hl <= len(lines)):
+            raise MappingError(mapping.source, "key csv.header_line", f"{hl!r} is not a line number within the first {len(lines)} lines")
+        header_index = hl - 1
+    else:
+        first_numeric = next((i for i in nonblank if _numeric_row(_cells(lines[i], delim), decimal)), None)
+        if first_numeric is None:
+            raise CaptureReadError(path, "", "no numeric data rows found in the first lines (is this a waveform export?)")
+        before = [i for i in nonblank if i < first_numeric]
+        if not before:
+            raise CaptureReadError(path, f"line {first_numeric + 1}", "no header row above the data (the first line must name the columns)")
+        header_index = before[-1]
+    headers = tuple(_cells(lines[header_index], delim))
+    if any(h == "" for h in headers):
+        col = headers.index("") + 1
+        raise CaptureReadError(path, f"line {header_index + 1}, field {col}", "empty column name in the header row")
+    dup = sorted({h for h in headers if headers.count(h) > 1})
+    if dup:
+        raise CaptureReadError(path, f"line {header_index + 1}", f"column names repeated in the header: {dup}")
+    data = tuple(tuple(_cells(lines[i], delim)) for i in nonblank if i > header_index)[:50]
+    meta = tuple(ln for ln in lines[:header_index] if ln.strip())
+    return Layout(encoding, delim, decimal, header_index, headers, meta, data)
+
+
+def _metadata(layout: Layout, path: Path) -> tuple[dict[str, str], list[str]]:
+    found: dict[str, str] = {}
+    other: list[str] = []
+    for ln in layout.metadata_lines:
+        m = _META_RE.match(ln)
+        key = m.group("key").strip().lower().replace(" ", "_") if m else ""
+        if m and key in META_KEYS:
+            found[key] = m.group("value").strip().strip('"')
+        else:
+            other.append(ln.strip())
+    return found, other
+
+
+# -- parsing ----------------------------------------------------------------------------
+def _read_table(path: Path, layout: Layout, columns: list[str], types: dict[str, pa.DataType], threads: bool = True) -> pa.Table:
+    return pacsv.read_csv(
+        path,
+        read_options=pacsv.ReadOptions(
+            skip_rows=layout.header_index + 1, column_names=list(layout.headers),
+            encoding=layout.encoding, use_threads=threads, block_size=1 << 24,
+        ),
+        parse_options=pacsv.ParseOptions(delimiter=layout.delimiter, ignore_empty_lines=True),
+        convert_options=pacsv.ConvertOptions(
+            include_columns=columns, column_types=types, decimal_point=layout.decimal,
+            strings_can_be_null=True, quoted_strings_can_be_null=True,
+        ),
+    )
+
+
+def _locate_bad_number(path: Path, layout: Layout, column: str) -> tuple[int, str]:
+    """First row of ``column`` that is not a number: (file line, text)."""
+    tbl = _read_table(path, layout, [column], {column: pa.string()})
+    s = pd.Series(tbl.column(column).to_numpy(zero_copy_only=False), dtype=object)
+    txt = s.where(s.notna(), "").astype(str).str.strip()
+    conv = txt.str.replace(",", ".", regex=False) if layout.decimal == "," else txt
+    num = pd.to_numeric(conv, errors="coerce")
+    bad = np.flatnonzero(num.isna().to_numpy() & (txt != "").to_numpy() & ~txt.str.lower().isin(["nan", "-nan", "na", "n/a", "null"]).to_numpy())
+    row = int(bad[0]) if bad.size else 0
+    return _line_of_row(path, layout, row), str(txt.iloc[row]) if bad.size else ""
+
+
+def _line_of_row(path: Path, layout: Layout, row: int) -> int:
+    """1-based file line of data row ``row`` (blank lines after the header are skipped by the parser)."""
+    # Count blank lines only when there may be some: read the region once, vectorised.
+    with open(path, "rb") as fh:
+        for _ in range(layout.header_index + 1):
+            fh.readline()
+        offset = fh.tell()
+    data = np.memmap(path, dtype=np.uint8, mode="r", offset=offset) if path.stat().st_size > offset else np.zeros(0, np.uint8)
+    nl = np.flatnonzero(data == 10)
+    starts = np.concatenate(([0], nl + 1))
+    ends = np.concatenate((nl, [data.size]))
+    nonempty = np.flatnonzero((ends - starts) > np.where(ends > starts, (data[np.maximum(ends - 1, 0)] == 13).astype(np.int64), 0))
+    line = int(nonempty[row]) if row < nonempty.size else int(starts.size - 1)
+    return layout.header_index + 2 + line
+
+
+def _parse(path: Path, layout: Layout, columns: list[str], types: dict[str, pa.DataType], time_col: str | None) -> pa.Table:
+    try:
+        return _read_table(path, layout, columns, types)
+    except pa.ArrowInvalid as e:
+        msg = str(e)
+    except (OSError, UnicodeDecodeError, pa.ArrowException) as e:
+        raise CaptureReadError(path, "", f"cannot be read as delimited text ({e})") from None
+    if "Expected" in msg and "columns" in msg:
+        try:
+            _read_table(path, layout, columns, types, threads=False)
+        except pa.ArrowInvalid as e2:
+            msg = str(e2)
+        m = re.search(r"Row #(\d+): Expected (\d+) columns, got (\d+)", msg)
+        if m:
+            raise CaptureReadError(path, f"line {m.group(1)}", f"{m.group(3)} fields, but the header row (line {layout.header_index + 1}) has {m.group(2)}") from None
+        raise CaptureReadError(path, "", f"rows of different lengths ({msg})") from None
+    m = re.search(r"column #(\d+): CSV conversion error to (\w+): invalid value '(.*)'", msg)
+    if m:
+        col = layout.headers[int(m.group(1))]
+        line, text = _locate_bad_number(path, layout, col)
+        what = "a time stamp in seconds" if col == time_col else "a number"
+        raise CaptureReadError(path, f"line {line}, column {col!r}", f"{(text or m.group(3))!r} is not {what}") from None
+    raise CaptureReadError(path, "", f"cannot be parsed ({msg})")
+
+
+def _parse_offset(text: str, source: str, where: str) -> _dt.timezone:
+    if text in ("Z", "UTC", "utc"):
+        return _dt.timezone.utc
+    m = re.fullmatch(r"([+-])(\d{2}):?(\d{2})", text.strip())
+    if not m:
+        raise MappingError(source, where, f"{text!r} is not a UTC offset like '+01:00'")
+    sign = 1 if m.group(1) == "+" else -1
+    return _dt.timezone(sign * _dt.timedelta(hours=int(m.group(2)), minutes=int(m.group(3))))
+
+
+def parse_start_time(text: str, source: str, where: str) -> _dt.datetime:
+    """An ISO 8601 start time with offset (``2024-03-01T10:00:00+01:00``)."""
+    try:
+        t = _dt.datetime.fromisoformat(str(text).strip().replace("Z", "+00:00"))
+    except ValueError:
+        raise CaptureReadError(source, where, f"{text!r} is not an ISO 8601 time") from None
+    if t.tzinfo is None:
+        raise CaptureReadError(source, where, f"{text!r} has no UTC offset (write e.g. '+01:00' or 'Z')")
+    return t
+
+
+def _iso_stamps(path: Path, layout: Layout, col: str, arr: pa.ChunkedArray, mapping: Mapping) -> tuple[np.ndarray, _dt.datetime]:
+    """ISO 8601 text stamps -> seconds from the first stamp, and the first stamp (tz-aware)."""
+    s = pd.Series(arr.to_numpy(zero_copy_only=False), dtype=object)
+    first = str(s.iloc[0]).strip()
+    has_offset = bool(_OFFSET_RE.search(first))
+    try:
+        if has_offset:
+            ts = pd.to_datetime(s, format="ISO8601", utc=True)
+            tz = _dt.datetime.fromisoformat(first.replace("Z", "+00:00")).tzinfo
+        else:
+            off = mapping.time.get("utc_offset")
+            if off is None:
+                raise CaptureReadError(path, f"line {layout.header_index + 2}, column {col!r}",
+                                       f"time stamp {first!r} has no UTC offset; set [time] utc_offset = '+01:00' in a mapping file")
+            tz = _parse_offset(str(off), mapping.source, "key time.utc_offset")
+            ts = pd.to_datetime(s, format="ISO8601").dt.tz_localize(tz).dt.tz_convert("UTC")
+    except (ValueError, TypeError):
+        bad = pd.to_datetime(s, format="ISO8601", errors="coerce", utc=has_offset)
+        rows = np.flatnonzero(bad.isna().to_numpy())
+        row = int(rows[0]) if rows.size else 0
+        raise CaptureReadError(path, f"line {_line_of_row(path, layout, row)}, column {col!r}",
+                               f"{s.iloc[row]!r} is not an ISO 8601 time stamp") from None
+    if ts.isna().any():
+        row = int(np.flatnonzero(ts.isna().to_numpy())[0])
+        raise CaptureReadError(path, f"line {_line_of_row(path, layout, row)}, column {col!r}", "time stamp missing")
+    naive = ts.dt.tz_convert("UTC").dt.tz_localize(None).to_numpy().astype("datetime64[ns]")
+    ns = naive.view(np.int64)
+    t_s = (ns - ns[0]).astype(np.float64) * 1e-9
+    start = (EPOCH + _dt.timedelta(microseconds=int(ns[0] // 1000))).astimezone(tz)
+    return t_s, start
+
+
+def _choose_time_column(layout: Layout, mapping: Mapping, path: Path) -> str | None:
+    tm = mapping.time
+    if tm.get("none"):
+        return None
+    col = tm.get("column")
+    if col:
+        if col not in layout.headers:
+            raise MappingError(path, f"column {col!r} (mapping time.column)", f"not found in the file{suggest(col, layout.headers)}")
+        return str(col)
+    for h in layout.headers:
+        if is_time_header(h):
+            return h
+    return None
+
+
+def _float_opt(value: Any, source: str, where: str) -> float:
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        raise CaptureReadError(source, where, f"{value!r} is not a number") from None
+    if not (np.isfinite(v) and v > 0):
+        raise CaptureReadError(source, where, f"{value!r} must be a positive number")
+    return v
+
+
+def read_csv(path: Path, options: ReadOptions | None = None) -> Capture:
+    """Read a delimited-text capture.
+
+    Parameters
+    ----------
+    path : Path
+        Opened read-only.
+    options : ReadOptions
+        Mapping, rate (when there is no time column), start time, nominal values,
+        ``resample`` for irregular stamps.
+
+    Raises
+    ------
+    CaptureReadError, MappingError
+        One line naming the file, line/column and problem.
+    """
+    options = options or ReadOptions()
+    path = Path(path)
+    mapping = parse_mapping(options.mapping, options.mapping_source or "mapping")
+    layout = detect_layout(path, mapping)
+    meta, other_meta = _metadata(layout, path)
+    notes: list[str] = []
+    if other_meta:
+        notes.append(f"{len(other_meta)} metadata line(s) above the header kept as text: " + " | ".join(other_meta[:5])[:300])
+    time_col = _choose_time_column(layout, mapping, path)
+    channel_headers = [h for h in layout.headers if h != time_col]
+    specs, map_notes = resolve_channels(channel_headers, mapping, path, "column",
+                                        where_of=lambda h: f"line {layout.header_index + 1}, column {h!r}")
+    notes += map_notes
+
+    # time column type: numeric seconds or ISO text
+    time_format = mapping.time.get("format")
+    if time_col is not None and time_format is None:
+        j = layout.headers.index(time_col)
+        sample = [r[j] for r in layout.first_data if len(r) > j and r[j]]
+        time_format = "iso8601" if sample and all(_ISO_RE.match(c) for c in sample[:10]) else "seconds"
+    if time_format not in (None, "seconds", "iso8601"):
+        raise MappingError(mapping.source, "key time.format", f"{time_format!r} must be 'seconds' or 'iso8601'")
+    columns = ([time_col] if time_col else []) + [s.source_label for s in specs]
+    types: dict[str, pa.DataType] = {s.source_label: pa.float64() for s in specs}
+    if time_col:
+        types[time_col] = pa.float64() if time_format == "seconds" else pa.string()
+    tbl = _parse(path, layout, columns, types, time_col)
+    if tbl.num_rows == 0:
+        raise CaptureReadError(path, f"line {layout.header_index + 1}", "header row but no data rows")
+    values = np.vstack([tbl.column(s.source_label).to_numpy(zero_copy_only=False).astype(np.float64) for s in specs])
+    scales = np.array([s.scale for s in specs])
+    if np.any(scales != 1.0):
+        values *= scales[:, None]
+    for s in specs:
+        if s.scale != 1.0:
+            notes.append(f"{s.name}: raw numbers x {s.scale:g} ({s.unit}" + (f", ratio {s.ratio:g}" if s.ratio != 1.0 else "") + ")")
+
+    # start time and rate
+    src = options.mapping_source or "mapping"
+    start: _dt.datetime | None = options.start_time
+    if start is None and "start_time" in mapping.capture:
+        start = parse_start_time(str(mapping.capture["start_time"]), src, "key capture.start_time")
+    if start is None and "start_time" in meta:
+        start = parse_start_time(meta["start_time"], str(path), "metadata start_time")
+    given_rate = options.sample_rate_hz
+    if given_rate is None and "sample_rate_hz" in mapping.capture:
+        given_rate = _float_opt(mapping.capture["sample_rate_hz"], src, "key capture.sample_rate_hz")
+    history: list[str] = []
+    gaps: tuple = ()
+    timebase_record: dict[str, Any] = {}
+    if time_col is None:
+        rate = given_rate
+        if rate is None and "sample_rate_hz" in meta:
+            rate = _float_opt(meta["sample_rate_hz"], str(path), "metadata sample_rate_hz")
+        if rate is None:
+            raise CaptureReadError(path, f"line {layout.header_index + 1}", "no time column and no sample rate; give --rate HZ (or [capture] sample_rate_hz)")
+        notes.append(f"no time column; samples taken as uniform at {rate:g} Hz")
+        if start is None:
+            start = EPOCH
+            notes.append("absolute start time not given; start set to 1970-01-01T00:00:00+00:00 (times are relative)")
+    else:
+        where_t = f"column {time_col!r}"
+        arr = tbl.column(time_col)
+        if time_format == "iso8601":
+            t_s, first = _iso_stamps(path, layout, time_col, arr, mapping)
+            if start is None:
+                start = first
+            timebase_record["time"] = {"column": time_col, "format": "iso8601"}
+        else:
+            raw = arr.to_numpy(zero_copy_only=False).astype(np.float64)
+            if np.isnan(raw).any():
+                row = int(np.flatnonzero(np.isnan(raw))[0])
+                raise CaptureReadError(path, f"line {_line_of_row(path, layout, row)}, {where_t}", "time stamp missing")
+            unit = mapping.time.get("unit", time_header_unit(time_col))
+            t_s = raw * time_unit_factor(unit, path, f"line {layout.header_index + 1}, {where_t}")
+            timebase_record["time"] = {"column": time_col, "format": "seconds", "unit": unit or "s"}
+            if start is None:
+                start = EPOCH + _dt.timedelta(seconds=float(t_s[0]))
+                notes.append("absolute start time not given; start set to 1970-01-01T00:00:00+00:00 plus the first time stamp (times are relative)")
+            else:
+                start = start + _dt.timedelta(seconds=float(t_s[0]))
+        if t_s.size < 2:
+            raise CaptureReadError(path, f"line {layout.header_index + 2}", "only one data row; cannot find a sample rate")
+        rep = timebase.analyse_stamps(t_s)
+        if rep.first_backwards is not None:
+            r = rep.first_backwards
+            raise CaptureReadError(path, f"line {_line_of_row(path, layout, r)}, {where_t}",
+                                   f"time goes backwards (from {t_s[r - 1]:.9g} s to {t_s[r]:.9g} s after the first stamp)")
+        if rep.first_duplicate is not None:
+            r = rep.first_duplicate
+            raise CaptureReadError(path, f"line {_line_of_row(path, layout, r)}, {where_t}",
+                                   f"time stamp repeats the one on line {_line_of_row(path, layout, r - 1)}")
+        rate = rep.sample_rate_hz
+        timebase_record["timebase"] = rep.to_dict()
+        if given_rate is not None:
+            if abs(given_rate - rate) > 1e-3 * given_rate and not options.resample:
+                raise CaptureReadError(path, where_t, f"time stamps give {rate:.6g} Hz but {given_rate:g} Hz was given; drop --rate or add --resample")
+            rate = given_rate
+        if rep.irregular:
+            if not options.resample:
+                raise CaptureReadError(
+                    path, where_t,
+                    f"irregular time stamps: jitter up to {rep.jitter_max_s * 1e6:.3g} us ({100 * rep.jitter_fraction:.3g} % of the "
+                    f"{rep.period_s * 1e6:.4g} us sample period); re-run with --resample to interpolate onto a uniform grid",
+                )
+            values, gaps = timebase.resample_uniform(t_s, values, rate)
+            history.append(f"resampled linearly onto a uniform {rate:g} Hz grid (stamp jitter up to {rep.jitter_max_s * 1e6:.3g} us)")
+            notes.append(f"irregular time stamps resampled to {rate:g} Hz (linear interpolation, as asked)")
+        elif options.resample and given_rate is not None and given_rate != rep.sample_rate_hz:
+            values, gaps = timebase.resample_uniform(t_s, values, rate)
+            history.append(f"resampled linearly from {rep.sample_rate_hz:g} Hz to {rate:g} Hz")
+        else:
+            if rep.jitter_fraction > 0.01:
+                notes.append(f"time stamps jitter by up to {rep.jitter_max_s * 1e6:.3g} us ({100 * rep.jitter_fraction:.2g} % of a sample period); samples placed on the nearest point of a uniform {rate:g} Hz grid")
+            values, gaps = timebase.place_on_grid(values, rep)
+            notes.append(f"sample rate {rate:g} Hz from the time stamps")
+        if gaps:
+            total = sum(g.n_samples for g in gaps)
+            notes.append(f"{len(gaps)} gap(s) in the time stamps, {total} missing samples kept as NaN (first at t = {gaps[0].start_index / rate:.6f} s)")
+
+    capture_meta = _system_values(options, mapping, meta, src, path, specs, values, rate, notes)
+    record = mapping_record(specs, {
+        "csv": {"delimiter": layout.delimiter, "decimal": layout.decimal, "header_line": layout.header_index + 1, "encoding": layout.encoding},
+        **timebase_record,
+        "source": mapping.source if options.mapping else "recognised from the header",
+    })
+    prov = Provenance(source_path=str(path), sha256=sha256_file(path), importer="csv", mapping=record,
+                      notes=tuple(notes), history=tuple(history))
+    return Capture(
+        channels=tuple(s.channel() for s in specs), source=ArraySource(values), sample_rate_hz=float(rate),
+        start_time=start, provenance=prov, gaps=tuple(gaps), **capture_meta,
+    )
+
+
+def _system_values(options: ReadOptions, mapping: Mapping, meta: dict[str, str], src: str, path: Path,
+                   specs: list, values: np.ndarray, rate: float, notes: list[str]) -> dict[str, Any]:
+    """Nominal frequency, nominal voltage and wiring: given, from metadata, or inferred (with a note)."""
+    fnom = options.nominal_frequency_hz
+    if fnom is None and "nominal_frequency_hz" in mapping.capture:
+        fnom = _float_opt(mapping.capture["nominal_frequency_hz"], src, "key capture.nominal_frequency_hz")
+    if fnom is None and meta.get("nominal_frequency_hz", "") not in ("", "none", "None", "nan"):
+        fnom = _float_opt(meta["nominal_frequency_hz"], str(path), "metadata nominal_frequency_hz")
+    if fnom is not None and fnom not in (50.0, 60.0):
+        raise CaptureReadError(src, "nominal frequency", f"{fnom:g} Hz must be 50 or 60")
+    if fnom is None:
+        fnom, note = infer_nominal_frequency_of(specs, values, rate)
+        notes.append(note)
+    vnom = options.nominal_voltage_v
+    if vnom is None and "nominal_voltage_v" in mapping.capture:
+        vnom = _float_opt(mapping.capture["nominal_voltage_v"], src, "key capture.nominal_voltage_v")
+    if vnom is None and meta.get("nominal_voltage_v", "") not in ("", "none", "None", "nan"):
+        vnom = _float_opt(meta["nominal_voltage_v"], str(path), "metadata nominal_voltage_v")
+    wiring = options.wiring or mapping.capture.get("wiring") or meta.get("wiring")
+    if wiring is None:
+        has_neutral = any(s.reference in ("LN", "neutral") for s in specs)
+        has_ll = any(s.reference == "LL" for s in specs)
+        wiring = "3-wire" if has_ll and not has_neutral else "4-wire"
+        notes.append(f"wiring taken as {wiring} ({'line-to-line voltages only' if wiring == '3-wire' else 'line-to-neutral or neutral channels present' if has_neutral else 'default'})")
+    if wiring not in ("3-wire", "4-wire"):
+        raise CaptureReadError(src, "wiring", f"{wiring!r} must be '3-wire' or '4-wire'")
+    return {"nominal_frequency_hz": fnom, "nominal_voltage_v": vnom, "wiring": wiring}
+
+
+def infer_nominal_frequency_of(specs: list, values: np.ndarray, rate: float) -> tuple[float | None, str]:
+    """Infer 50/60 Hz from the first phase voltage (else the first current); returns (value, note)."""
+    order = sorted(range(len(specs)), key=lambda i: (specs[i].kind != "voltage", specs[i].reference not in ("LN", "LL")))
+    for i in order:
+        f, peak = timebase.infer_nominal_frequency(values[i], rate)
+        if f is not None:
+            return f, f"nominal frequency inferred as {f:g} Hz (dominant component at {peak:.2f} Hz in {specs[i].name}); give --nominal-frequency to override"
+    return None, "nominal frequency unknown: no dominant component near 50 or 60 Hz (give --nominal-frequency)"
+
+
+def sniff_csv(path: Path) -> bool:
+    """True for delimited text that looks like a waveform export (never raises)."""
+    try:
+        with open(path, "rb") as fh:
+            raw = fh.read(8192)
+        if not raw or b"\x00" in raw:
+            return False
+        try:
+            raw.decode("utf-8")
+        except UnicodeDecodeError as e:
+            if e.start < len(raw) - 4:  # not just a character cut at the end of the block
+                raw.decode("latin-1")
+        layout = detect_layout(path, Mapping())
+        return len(layout.headers) >= 1 and len(layout.first_data) >= 1
+    except Exception:
+        return False
+
+
+register(
+    Importer(
+        name="csv",
+        description="delimited text (, ; tab; decimal point or comma) with a header row",
+        extensions=(".csv", ".txt", ".tsv", ".dat"),
+        sniff=sniff_csv,
+        read=read_csv,
+        priority=10,
+    )
+)
