@@ -1,0 +1,566 @@
+"""Time-resolved rotor speed from the stator current spectrum alone (no tachometer).
+
+`track_speed` cuts the current into overlapping windows and, in each, looks for
+speed-dependent components (rotor-slot harmonics when the rotor bar count is
+known, otherwise mixed-eccentricity sidebands; see `waveforms.speed.signatures`)
+only where the nameplate makes them plausible: slips between ``min_slip`` and a
+bound derived from the rated slip.
+
+Acceptance rule (designed so that a stalled or de-energised rotor gives no
+estimate, never a made-up number):
+
+1. a component peak must stand ``threshold_db`` above the median of the
+   local spectrum, outside guard zones around DC and every supply harmonic,
+   and be as wide as the window's main lobe (sidelobe ripples are rejected);
+2. at least ``min_components`` *different* components (for example the lower
+   and the upper eccentricity sideband, or the ``R-1`` and ``R+1`` slot
+   harmonics) must give the same slip within ``pair_tol_bins`` of a natural
+   frequency bin.  Random noise peaks almost never satisfy both.
+
+Windows that fail say why in ``status``: ``no_current``, ``gap`` (missing
+samples), ``no_supply_frequency``, ``unconfirmed`` (one component only) or
+``no_signature``.
+
+References
+----------
+.. [1] K. D. Hurst and T. G. Habetler, "Sensorless speed measurement using
+   current harmonic spectral estimation in induction machine drives", IEEE
+   Trans. Power Electronics 11(1), 1996 (cited from memory).
+.. [2] W. T. Thomson and M. Fenger, "Current signature analysis to detect
+   induction motor faults", IEEE Industry Applications Magazine 7(4), 2001
+   (cited from memory).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from ..capture import Capture, Channel, from_arrays
+from ..errors import InvalidParameterError
+from . import signatures as sg
+from .spectrum import (
+    Candidates,
+    Spectrum,
+    decimate,
+    decimation_factor,
+    decimation_filter,
+    find_candidates,
+    refine_peak,
+    space_vector,
+    window_spectrum,
+)
+
+TRACK_COLUMNS: tuple[str, ...] = (
+    "t_s", "t_start_s", "t_end_s", "f_supply_hz", "slip", "rpm", "f_rotor_hz", "component",
+    "confidence_db", "status", "n_components", "f_component_hz", "i_rms_a",
+)
+
+STATUS_ESTIMATE = "estimate"
+
+
+@dataclasses.dataclass(frozen=True)
+class SpeedSettings:
+    """Parameters of the speed search (all optional; defaults in brackets).
+
+    Parameters
+    ----------
+    window_s : float
+        Window length [s] (10).
+    hop_s : float or None
+        Step between window starts [s] (half the window).
+    min_slip : float
+        Lowest slip searched [-] (0).
+    max_slip : float or None
+        Highest slip searched [-]; default ``max_slip_factor`` x rated slip, capped at 0.5.
+    max_slip_factor : float
+        Multiple of the rated slip used when ``max_slip`` is not given [-] (5).
+    threshold_db : float
+        Least prominence of an accepted component over the local median floor [dB] (12).
+    min_components : int
+        Least number of different components that must agree on the slip (2).
+    pair_tol_bins : float
+        Agreement tolerance in natural frequency bins of the less sensitive component (0.5).
+    components : {"auto", "slot", "eccentricity"}
+        ``auto``: slot harmonics when the rotor bar count is known and the band is
+        unambiguous, else (or when they are not found) eccentricity sidebands.
+    eccentricity_orders : tuple of int
+        Orders ``m`` of the sidebands ``f1 (1 +/- m (1-s)/p)`` ((1,)).
+    slot_nus : tuple of int
+        Signed odd ``nu`` of the slot harmonics ``f1 (R (1-s)/p + nu)`` ((-1, 1)).
+    guard_bins : float
+        Half-width of the guard zone around DC and each supply harmonic [natural bins] (5).
+    pad : int
+        Zero-padding factor of the coarse spectrum (4).
+    min_current_a : float or None
+        Below this RMS the window is ``no_current`` [A]; default 2 % of the nameplate FLA, else 0.01 A.
+    """
+
+    window_s: float = 10.0
+    hop_s: float | None = None
+    min_slip: float = 0.0
+    max_slip: float | None = None
+    max_slip_factor: float = 5.0
+    threshold_db: float = 12.0
+    min_components: int = 2
+    pair_tol_bins: float = 0.5
+    components: str = "auto"
+    eccentricity_orders: tuple[int, ...] = (1,)
+    slot_nus: tuple[int, ...] = (-1, 1)
+    guard_bins: float = 5.0
+    pad: int = 4
+    min_current_a: float | None = None
+
+    def __post_init__(self) -> None:
+        if not (0.05 <= self.window_s <= 600):
+            raise InvalidParameterError(f"window_s={self.window_s!r} must be between 0.05 and 600 s")
+        if self.hop_s is not None and not (0 < self.hop_s):
+            raise InvalidParameterError(f"hop_s={self.hop_s!r} must be positive")
+        if not (-0.1 <= self.min_slip < 1.0):
+            raise InvalidParameterError(f"min_slip={self.min_slip!r} must be in [-0.1, 1)")
+        if self.max_slip is not None and not (self.min_slip < self.max_slip <= 1.0):
+            raise InvalidParameterError(f"max_slip={self.max_slip!r} must be above min_slip={self.min_slip!r} and at most 1")
+        if self.components not in ("auto", "slot", "eccentricity"):
+            raise InvalidParameterError(f"components={self.components!r} must be 'auto', 'slot' or 'eccentricity'")
+        if self.min_components < 1:
+            raise InvalidParameterError(f"min_components={self.min_components!r} must be >= 1")
+        if not (self.threshold_db > 0):
+            raise InvalidParameterError(f"threshold_db={self.threshold_db!r} must be positive")
+
+    @property
+    def hop(self) -> float:
+        return self.window_s / 2.0 if self.hop_s is None else self.hop_s
+
+
+@dataclasses.dataclass(frozen=True)
+class MotorSpec:
+    """What the search needs from the nameplate."""
+
+    pole_pairs: int
+    rotor_bars: int | None
+    rated_slip: float | None
+    nominal_frequency_hz: float
+    fla_a: float | None
+
+    @classmethod
+    def build(cls, nameplate: Any, pole_pairs: int | None, rotor_bars: int | None,
+              nominal_frequency_hz: float | None) -> MotorSpec:
+        if nameplate is None and pole_pairs is None:
+            raise InvalidParameterError("give a nameplate (or pole_pairs) so the speed search knows the pole count")
+        p = pole_pairs if pole_pairs is not None else nameplate.pole_pairs
+        if not (isinstance(p, (int, np.integer)) and p >= 1):
+            raise InvalidParameterError(f"pole_pairs={p!r} must be a whole number >= 1")
+        bars = rotor_bars if rotor_bars is not None else (None if nameplate is None else nameplate.rotor_bars)
+        fn = nominal_frequency_hz or (None if nameplate is None else nameplate.rated_frequency_hz) or 50.0
+        return cls(
+            pole_pairs=int(p), rotor_bars=bars,
+            rated_slip=None if nameplate is None else float(nameplate.rated_slip),
+            nominal_frequency_hz=float(fn), fla_a=None if nameplate is None else float(nameplate.fla_a),
+        )
+
+
+@dataclasses.dataclass(frozen=True)
+class WindowResult:
+    """Everything found in one window (what the plot shows).
+
+    ``bands`` maps a signature label to its one-sided search band (lo, hi) [Hz];
+    ``candidates`` maps it to the peaks found there; ``used`` lists
+    ``(label, f_hz, prominence_db, slip)`` of the components that agreed.
+    """
+
+    t_start_s: float
+    t_end_s: float
+    f_supply_hz: float
+    slip: float
+    component: str
+    confidence_db: float
+    status: str
+    spectrum: Spectrum | None
+    bands: dict[str, tuple[float, float]]
+    candidates: dict[str, Candidates]
+    used: tuple[tuple[str, float, float, float], ...]
+    f1_power: float
+    i_rms_a: float
+    pole_pairs: int
+
+
+def slip_search_range(settings: SpeedSettings, motor: MotorSpec) -> tuple[float, float]:
+    """``(min_slip, max_slip)`` searched: the configured bound, or ``max_slip_factor`` x rated slip (<= 0.5)."""
+    if settings.max_slip is not None:
+        return settings.min_slip, settings.max_slip
+    rated = motor.rated_slip if motor.rated_slip is not None else 0.03
+    hi = min(0.5, settings.max_slip_factor * rated)
+    return settings.min_slip, max(hi, settings.min_slip + 0.01)
+
+
+def _families(settings: SpeedSettings, motor: MotorSpec, s_lo: float, s_hi: float) -> list[tuple[str, tuple[sg.Signature, ...]]]:
+    fams: list[tuple[str, tuple[sg.Signature, ...]]] = []
+    slot_ok = motor.rotor_bars is not None
+    if slot_ok and settings.components == "auto":
+        # nu and nu+2 coincide for slips 2p/R apart: a wider band would be ambiguous
+        slot_ok = (s_hi - s_lo) < 2.0 * motor.pole_pairs / motor.rotor_bars
+    if settings.components == "slot" and motor.rotor_bars is None:
+        raise InvalidParameterError("components='slot' needs the rotor bar count (nameplate rotor_bars)")
+    if settings.components in ("auto", "slot") and slot_ok:
+        fams.append((sg.COMPONENT_SLOT, sg.slot_signatures(motor.rotor_bars, settings.slot_nus)))
+    if settings.components in ("auto", "eccentricity"):
+        fams.append((sg.COMPONENT_ECCENTRICITY, sg.eccentricity_signatures(settings.eccentricity_orders)))
+    return fams
+
+
+def highest_frequency_hz(settings: SpeedSettings, motor: MotorSpec) -> float:
+    """Highest component frequency searched, with 10 % margin on the supply frequency [Hz]."""
+    s_lo, s_hi = slip_search_range(settings, motor)
+    f1 = 1.1 * motor.nominal_frequency_hz
+    top = f1 * 1.1
+    for _, sigs in _families(settings, motor, s_lo, s_hi):
+        for sig in sigs:
+            top = max(top, sg.signature_band_hz(sig, s_lo, s_hi, f1, motor.pole_pairs)[1])
+    return top + 10.0 * 1.0 / settings.window_s
+
+
+def _agree(sigs, cands: list[Candidates], f1: float, p: int, bin_hz: float, settings: SpeedSettings,
+           s_lo: float, s_hi: float, signs: list[int]):
+    """Pick the slip that most different components agree on; None when fewer than min_components."""
+    sig_i, slip, prom, tol, fhz = [], [], [], [], []
+    for j, (sig, c, sign) in enumerate(zip(sigs, cands, signs, strict=True)):
+        if len(c) == 0 or sign == 0:
+            continue
+        ok = c.prominence_db >= settings.threshold_db
+        s = sg.slip_from_frequency(sig, sign * c.f_hz[ok], f1, p)
+        t = settings.pair_tol_bins * bin_hz * p / (f1 * abs(sig.a))
+        inb = (s >= s_lo - t) & (s <= s_hi + t)
+        sig_i.append(np.full(inb.sum(), j))
+        slip.append(s[inb])
+        prom.append(c.prominence_db[ok][inb])
+        tol.append(np.full(inb.sum(), t))
+        fhz.append(c.f_hz[ok][inb])
+    if not sig_i:
+        return None, False
+    sig_i, slip, prom, tol, fhz = (np.concatenate(a) for a in (sig_i, slip, prom, tol, fhz))
+    if slip.size == 0:
+        return None, False
+    # agreement matrix between candidates of different signatures
+    close = np.abs(slip[:, None] - slip[None, :]) <= np.maximum(tol[:, None], tol[None, :])
+    close &= sig_i[:, None] != sig_i[None, :]
+    n_sig = len(sigs)
+    best_prom = np.full((slip.size, n_sig), -np.inf)
+    best_idx = np.full((slip.size, n_sig), -1)
+    for j in range(n_sig):  # per signature (2-4), not per sample
+        m = close & (sig_i[None, :] == j)
+        pj = np.where(m, prom[None, :], -np.inf)
+        best_idx[:, j] = np.argmax(pj, axis=1)
+        best_prom[:, j] = pj[np.arange(slip.size), best_idx[:, j]]
+    best_prom[np.arange(slip.size), sig_i] = prom
+    best_idx[np.arange(slip.size), sig_i] = np.arange(slip.size)
+    found = np.isfinite(best_prom)
+    n_comp = found.sum(axis=1)
+    score = np.where(found, best_prom, 0.0).sum(axis=1)
+    anchor = int(np.lexsort((score, n_comp))[-1])
+    if n_comp[anchor] < settings.min_components:
+        return None, True
+    used = best_idx[anchor][found[anchor]]
+    a2 = np.array([sigs[k].a ** 2 for k in sig_i[used]])
+    w = a2 * 10.0 ** (prom[used] / 10.0)  # slip variance ~ 1 / (SNR a^2): inverse-variance weights
+    s_est = float(np.sum(w * slip[used]) / np.sum(w))
+    rows = tuple((sigs[sig_i[k]].label, float(fhz[k]), float(prom[k]), float(slip[k])) for k in used)
+    return (s_est, float(prom[used].min()), rows), True
+
+
+def analyse_window(
+    x: np.ndarray,
+    sample_rate_hz: float,
+    motor: MotorSpec,
+    settings: SpeedSettings,
+    *,
+    f1_hz: float = math.nan,
+    t_start_s: float = 0.0,
+    phase_rms: bool = False,
+) -> WindowResult:
+    """Search one window of (decimated) current for the speed signature.
+
+    Parameters
+    ----------
+    x : ndarray, shape (n_signals, N)
+        Real line currents or one complex space vector [A].
+    sample_rate_hz : float
+        Rate of ``x`` [Hz].
+    motor : MotorSpec
+    settings : SpeedSettings
+    f1_hz : float
+        Supply frequency for this window [Hz]; NaN to estimate it from the
+        current's fundamental in the same window.
+    t_start_s : float
+        Start of the window, for the record [s].
+    phase_rms : bool
+        ``x`` is a space vector: report the phase RMS ``sqrt(mean |x|^2 / 2)``.
+    """
+    x = np.atleast_2d(x)
+    n = x.shape[-1]
+    t_end = t_start_s + n / sample_rate_hz
+    p = motor.pole_pairs
+
+    def result(status, spec=None, f1=math.nan, slip=math.nan, comp="", conf=math.nan, bands=None,
+               cands=None, used=(), f1p=math.nan, irms=math.nan):
+        return WindowResult(t_start_s, t_end, f1, slip, comp, conf, status, spec, bands or {}, cands or {},
+                            used, f1p, irms, p)
+
+    if not np.all(np.isfinite(x)):
+        return result("gap")
+    ms = np.mean(np.abs(x) ** 2, axis=-1)
+    irms = float(np.sqrt(ms.max() / 2.0) if phase_rms else np.sqrt(ms.max()))
+    i_min = settings.min_current_a
+    if i_min is None:
+        i_min = 0.02 * motor.fla_a if motor.fla_a else 0.01
+    if irms < i_min:
+        return result("no_current", irms=irms)
+    spec = window_spectrum(x, sample_rate_hz, pad=settings.pad)
+    fn = motor.nominal_frequency_hz
+    sel = (spec.f_hz > 0.9 * fn) & (spec.f_hz < 1.1 * fn)
+    if not sel.any():
+        return result("no_supply_frequency", spec=spec, irms=irms)
+    k = np.flatnonzero(sel)[np.argmax(spec.power[sel])]
+    f1_loc, f1_pow = refine_peak(spec, float(spec.f_hz[k]))
+    f1 = f1_hz if np.isfinite(f1_hz) else f1_loc
+    if not (0.9 * fn < f1 < 1.1 * fn):
+        return result("no_supply_frequency", spec=spec, irms=irms)
+    s_lo, s_hi = slip_search_range(settings, motor)
+    bands: dict[str, tuple[float, float]] = {}
+    cands: dict[str, Candidates] = {}
+    saw_any = False
+    nyq = 0.5 * sample_rate_hz
+    for family, sigs in _families(settings, motor, s_lo, s_hi):
+        fam_c, signs = [], []
+        for sig in sigs:
+            lo, hi, sign = sg.signature_band_hz(sig, s_lo, s_hi, f1, p)
+            signs.append(sign if hi < 0.8 * nyq else 0)
+            pad_hz = 2.0 * spec.bin_hz
+            bands[sig.label] = (lo, hi)
+            c = find_candidates(spec, lo - pad_hz, hi + pad_hz, f1, guard_bins=settings.guard_bins,
+                                min_prominence_db=settings.threshold_db) if signs[-1] else \
+                Candidates(*(np.empty(0) for _ in range(5)))
+            cands[sig.label] = c
+            fam_c.append(c)
+        est, saw = _agree(sigs, fam_c, f1, p, spec.bin_hz, settings, s_lo, s_hi, signs)
+        saw_any |= saw
+        if est is not None:
+            s_est, conf, used = est
+            return result(STATUS_ESTIMATE, spec, f1, s_est, family, conf, bands, cands, used, f1_pow, irms)
+    return result("unconfirmed" if saw_any else "no_signature", spec, f1, bands=bands, cands=cands,
+                  f1p=f1_pow, irms=irms)
+
+
+# -- supply frequency over time ------------------------------------------------------
+def _supply_function(supply_hz: Any):
+    """Turn the accepted forms of ``supply_hz`` into ``f(t0, t1) -> mean f1 [Hz] or NaN``."""
+    if supply_hz is None:
+        return lambda t0, t1: math.nan
+    if isinstance(supply_hz, (int, float, np.floating)):
+        v = float(supply_hz)
+        if not (20.0 < v < 500.0):
+            raise InvalidParameterError(f"supply_hz={v!r} is not a plausible supply frequency")
+        return lambda t0, t1: v
+    if isinstance(supply_hz, pd.DataFrame):
+        for col in ("t_s", "frequency_hz"):
+            if col not in supply_hz.columns:
+                raise InvalidParameterError(f"supply_hz table has no column {col!r}; columns are {list(supply_hz.columns)}")
+        t = supply_hz["t_s"].to_numpy(float)
+        f = supply_hz["frequency_hz"].to_numpy(float)
+    elif isinstance(supply_hz, tuple) and len(supply_hz) == 2:
+        t, f = (np.asarray(a, dtype=float) for a in supply_hz)
+    else:
+        arr = np.asarray(supply_hz, dtype=float)
+        if arr.ndim != 2 or arr.shape[1] != 2:
+            raise InvalidParameterError(f"supply_hz array must have shape (n, 2) of (t_s, f_hz), got {arr.shape}")
+        t, f = arr[:, 0], arr[:, 1]
+    if t.shape != f.shape or t.size == 0:
+        raise InvalidParameterError("supply_hz: t_s and frequency_hz must be non-empty and of equal length")
+    ok = np.isfinite(t) & np.isfinite(f)
+    t, f = t[ok], f[ok]
+    order = np.argsort(t)
+    t, f = t[order], f[order]
+    cs = np.concatenate(([0.0], np.cumsum(f)))
+
+    def mean_in(t0: float, t1: float) -> float:
+        i0, i1 = np.searchsorted(t, [t0, t1])
+        return float((cs[i1] - cs[i0]) / (i1 - i0)) if i1 > i0 else math.nan
+
+    return mean_in
+
+
+# -- the track -----------------------------------------------------------------------
+def _as_capture(currents: Any, sample_rate_hz: float | None) -> Capture:
+    if isinstance(currents, Capture):
+        return currents
+    if sample_rate_hz is None:
+        raise InvalidParameterError("sample_rate_hz is needed when currents are given as an array")
+    arr = np.atleast_2d(np.asarray(currents, dtype=float))
+    if arr.shape[0] > 3:
+        raise InvalidParameterError(f"currents must have shape (n_phases <= 3, n_samples), got {arr.shape}")
+    chans = tuple(Channel(f"I{c.lower()}", "current", c, "line", "A") for c in "ABC"[: arr.shape[0]])
+    return from_arrays(arr, chans, sample_rate_hz)
+
+
+def _decimated(capture: Capture, names: list[str], q: int, use_sv: bool, i0: int, i1: int) -> np.ndarray:
+    """Space vector (or the line currents) of samples [i0, i1), low-passed and down-sampled by q."""
+    taps = decimation_filter(q) if q > 1 else None
+    overlap = 0 if q == 1 else int(math.ceil(len(taps) / q)) * q
+    chunk = q * (1 << 16)
+    out = []
+    for ch in capture.iter_chunks(chunk, overlap, names, i0, i1):
+        sig = space_vector(*ch.data)[None, :] if use_sv else ch.data
+        y = decimate(sig, q, taps)
+        a = ch.lead // q
+        b = int(math.ceil((ch.data.shape[1] - ch.trail) / q))
+        out.append(y[:, a:b])
+    return np.concatenate(out, axis=1) if out else np.empty((1 if use_sv else len(names), 0))
+
+
+def track_speed(
+    currents: Any,
+    sample_rate_hz: float | None = None,
+    nameplate: Any = None,
+    *,
+    supply_hz: Any = None,
+    pole_pairs: int | None = None,
+    rotor_bars: int | None = None,
+    start_s: float = 0.0,
+    stop_s: float | None = None,
+    settings: SpeedSettings | None = None,
+    **options: Any,
+) -> pd.DataFrame:
+    """Slip and speed per window, from the stator currents only.
+
+    Parameters
+    ----------
+    currents : Capture or array_like
+        A `Capture` (its line currents Ia/Ib/Ic are used; with all three, the
+        complex space vector), or an array of shape (n_phases <= 3, n) or (n,) [A].
+    sample_rate_hz : float, optional
+        Needed for an array [Hz].
+    nameplate : Nameplate, optional
+        Pole count, rated slip, rotor bars, FLA.  Defaults to ``capture.nameplate``.
+    supply_hz : None, float, DataFrame, (t_s, f_hz) tuple or (n, 2) array
+        Supply frequency over time, e.g. ``measure(capture).cycles[["t_s", "frequency_hz"]]``;
+        each window uses the mean over its span.  None: estimated from the
+        current fundamental in each window [Hz].
+    pole_pairs, rotor_bars : int, optional
+        Override the nameplate.
+    start_s, stop_s : float
+        Part of the capture to track [s].
+    settings : SpeedSettings, optional
+    **options
+        Fields of `SpeedSettings` (``window_s=2.0``, ``max_slip=0.3`` ...).
+
+    Returns
+    -------
+    DataFrame
+        One row per window with `TRACK_COLUMNS`: ``t_s`` (centre), ``t_start_s``,
+        ``t_end_s``, ``f_supply_hz``, ``slip`` [-], ``rpm``, ``f_rotor_hz`` (shaft
+        rotation frequency), ``component`` ("slot", "eccentricity" or ""),
+        ``confidence_db`` (prominence of the weakest agreeing component over
+        the local median floor), ``status``, ``n_components``,
+        ``f_component_hz`` (strongest agreeing component), ``i_rms_a``
+        (largest phase RMS in the band searched).  ``slip``/``rpm`` are NaN
+        unless ``status == "estimate"``.
+
+    References
+    ----------
+    Hurst & Habetler 1996; Thomson & Fenger 2001 (see module docstring).
+    """
+    if settings is None:
+        settings = SpeedSettings(**options)
+    elif options:
+        settings = dataclasses.replace(settings, **options)
+    cap = _as_capture(currents, sample_rate_hz)
+    if nameplate is None:
+        nameplate = cap.nameplate
+    motor = MotorSpec.build(nameplate, pole_pairs, rotor_bars, cap.nominal_frequency_hz)
+    phases = cap.phase_channels("current")
+    if not phases:
+        raise InvalidParameterError(f"capture has no line current channel; channels are {list(cap.channel_names)}")
+    names = [phases[c].name for c in sorted(phases)]
+    use_sv = len(names) == 3
+    fs = cap.sample_rate_hz
+    i0 = int(round(start_s * fs))
+    i1 = cap.n_samples if stop_s is None else min(cap.n_samples, int(round(stop_s * fs)))
+    if not (0 <= i0 < i1):
+        raise InvalidParameterError(f"start_s={start_s!r}, stop_s={stop_s!r} select no samples of a {cap.duration_s:.3f} s capture")
+    q = decimation_factor(fs, highest_frequency_hz(settings, motor))
+    fsd = fs / q
+    y = _decimated(cap, names, q, use_sv, i0, i1)
+    win = int(round(settings.window_s * fsd))
+    hop = max(1, int(math.floor(settings.hop * fsd + 1e-9)))
+    n_win = 0 if y.shape[1] < win else (y.shape[1] - win) // hop + 1
+    f_supply = _supply_function(supply_hz)
+    rows = []
+    for w in range(n_win):  # per window (tens to hundreds), each vectorised
+        a = w * hop
+        t0 = (i0 + a * q) / fs
+        t1 = t0 + win / fsd
+        r = analyse_window(y[:, a : a + win], fsd, motor, settings, f1_hz=f_supply(t0, t1), t_start_s=t0,
+                           phase_rms=use_sv)
+        rows.append(_row(r))
+    return pd.DataFrame(rows, columns=list(TRACK_COLUMNS)).astype(
+        {"slip": float, "rpm": float, "f_rotor_hz": float, "confidence_db": float, "n_components": int}
+    )
+
+
+def _row(r: WindowResult) -> dict[str, Any]:
+    est = r.status == STATUS_ESTIMATE
+    slip = r.slip if est else math.nan
+    best = max(r.used, key=lambda u: u[2]) if r.used else None
+    return {
+        "t_s": 0.5 * (r.t_start_s + r.t_end_s), "t_start_s": r.t_start_s, "t_end_s": r.t_end_s,
+        "f_supply_hz": r.f_supply_hz, "slip": slip,
+        "rpm": float(sg.speed_rpm(slip, r.f_supply_hz, r.pole_pairs)) if est else math.nan,
+        "f_rotor_hz": float(sg.rotor_frequency_hz(slip, r.f_supply_hz, r.pole_pairs)) if est else math.nan,
+        "component": r.component if est else "", "confidence_db": r.confidence_db if est else math.nan,
+        "status": r.status, "n_components": len(r.used),
+        "f_component_hz": best[1] if best else math.nan, "i_rms_a": r.i_rms_a,
+    }
+
+
+def window_detail(
+    currents: Any,
+    t_start_s: float,
+    sample_rate_hz: float | None = None,
+    nameplate: Any = None,
+    *,
+    supply_hz: Any = None,
+    pole_pairs: int | None = None,
+    rotor_bars: int | None = None,
+    settings: SpeedSettings | None = None,
+    **options: Any,
+) -> WindowResult:
+    """The full `WindowResult` (spectrum, bands, candidates) of the window starting at ``t_start_s``; for plots."""
+    if settings is None:
+        settings = SpeedSettings(**options)
+    elif options:
+        settings = dataclasses.replace(settings, **options)
+    cap = _as_capture(currents, sample_rate_hz)
+    if nameplate is None:
+        nameplate = cap.nameplate
+    motor = MotorSpec.build(nameplate, pole_pairs, rotor_bars, cap.nominal_frequency_hz)
+    phases = cap.phase_channels("current")
+    if not phases:
+        raise InvalidParameterError(f"capture has no line current channel; channels are {list(cap.channel_names)}")
+    names = [phases[c].name for c in sorted(phases)]
+    use_sv = len(names) == 3
+    fs = cap.sample_rate_hz
+    q = decimation_factor(fs, highest_frequency_hz(settings, motor))
+    i0 = int(round(t_start_s / (q / fs))) * q
+    n = int(round(settings.window_s * fs / q)) * q
+    if not (0 <= i0 and i0 + n <= cap.n_samples):
+        raise InvalidParameterError(f"window {t_start_s} s + {settings.window_s} s is outside the {cap.duration_s:.3f} s capture")
+    margin = 0 if q == 1 else int(math.ceil((40 * q + 1) / q)) * q
+    lo, hi = max(0, i0 - margin), min(cap.n_samples, i0 + n + margin)
+    y = _decimated(cap, names, q, use_sv, lo, hi)
+    a = (i0 - lo) // q
+    t0 = i0 / fs
+    f1 = _supply_function(supply_hz)(t0, t0 + settings.window_s)
+    return analyse_window(y[:, a : a + n // q], fs / q, motor, settings, f1_hz=f1, t_start_s=t0, phase_rms=use_sv)

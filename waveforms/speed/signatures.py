@@ -1,0 +1,153 @@
+"""Rotor-speed signatures in the stator current: where they sit for a given slip.
+
+Every component used here has a frequency that is an affine function of the
+per-unit speed ``1 - s``::
+
+    f = f1 * (a * (1 - s) / p + b)                                  (1)
+
+with ``p`` pole pairs and ``f1`` the supply frequency.
+
+* mixed-eccentricity sidebands, ``a = +/-m``, ``b = 1``:
+  ``f_ecc = f1 (1 +/- m (1 - s) / p)``  (Thomson & Fenger [1]_; Benbouzid [2]_);
+* rotor-slot harmonics with static eccentricity order ``n_d = 0``,
+  ``a = k R``, ``b = nu`` (odd, signed):
+  ``f_sh = f1 (k R (1 - s) / p +/- nu)``  (Hurst & Habetler [3]_).
+
+Because (1) is affine in ``1 - s`` it is inverted exactly:
+``1 - s = p (f / f1 - b) / a``.
+
+References
+----------
+.. [1] W. T. Thomson and M. Fenger, "Current signature analysis to detect
+   induction motor faults", IEEE Industry Applications Magazine 7(4), 2001
+   (eccentricity sideband formula; cited from memory).
+.. [2] M. E. H. Benbouzid, "A review of induction motors signature analysis as
+   a medium for faults detection", IEEE Trans. Industrial Electronics 47(5),
+   2000 (cited from memory).
+.. [3] K. D. Hurst and T. G. Habetler, "Sensorless speed measurement using
+   current harmonic spectral estimation in induction machine drives", IEEE
+   Trans. Power Electronics 11(1), 1996 (slot-harmonic formula; cited from
+   memory).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+
+import numpy as np
+
+from ..errors import InvalidParameterError
+
+COMPONENT_SLOT = "slot"
+COMPONENT_ECCENTRICITY = "eccentricity"
+
+
+@dataclasses.dataclass(frozen=True)
+class Signature:
+    """One speed-dependent current component, ``f = f1 (a (1 - s) / p + b)``.
+
+    Parameters
+    ----------
+    family : {"slot", "eccentricity"}
+    label : str
+        Short name, e.g. ``"f1-fr"`` or ``"R-1"``.
+    a : float
+        Coefficient of the per-unit rotor frequency ``(1 - s) / p`` [-].
+    b : float
+        Offset in multiples of the supply frequency [-].
+    """
+
+    family: str
+    label: str
+    a: float
+    b: float
+
+
+def eccentricity_signatures(orders: tuple[int, ...] = (1,)) -> tuple[Signature, ...]:
+    """Lower and upper mixed-eccentricity sidebands ``f1 (1 -/+ m (1 - s)/p)`` for each order ``m``.
+
+    References
+    ----------
+    Thomson & Fenger, IEEE Industry Applications Magazine 7(4), 2001.
+    """
+    out = []
+    for m in orders:
+        if m < 1:
+            raise InvalidParameterError(f"eccentricity order {m=} must be >= 1")
+        # Thomson & Fenger 2001: f_ecc = f1 [1 +/- m (1 - s)/p]
+        out.append(Signature(COMPONENT_ECCENTRICITY, f"f1-{m}fr", -float(m), 1.0))
+        out.append(Signature(COMPONENT_ECCENTRICITY, f"f1+{m}fr", float(m), 1.0))
+    return tuple(out)
+
+
+def slot_signatures(rotor_bars: int, nus: tuple[int, ...] = (-3, -1, 1, 3), k: int = 1) -> tuple[Signature, ...]:
+    """Principal rotor-slot harmonics ``f1 (k R (1 - s)/p + nu)`` for the given signed odd ``nu``.
+
+    References
+    ----------
+    Hurst & Habetler, IEEE Trans. Power Electronics 11(1), 1996 (with ``n_d = 0``).
+    """
+    if rotor_bars < 4:
+        raise InvalidParameterError(f"{rotor_bars=} must be >= 4")
+    out = []
+    for nu in nus:
+        if nu % 2 == 0:
+            raise InvalidParameterError(f"slot harmonic order {nu=} must be odd")
+        # Hurst & Habetler 1996: f_sh = f1 [(k R +/- n_d)(1 - s)/p +/- nu], n_d = 0
+        out.append(Signature(COMPONENT_SLOT, f"{k}R{nu:+d}", float(k * rotor_bars), float(nu)))
+    return tuple(out)
+
+
+def component_frequency_hz(sig: Signature, slip, f1_hz, pole_pairs: int) -> np.ndarray:
+    """Signed frequency [Hz] of a signature at slip ``s``: ``f1 (a (1 - s)/p + b)``.
+
+    A negative value means the component sits at ``|f|`` in a one-sided
+    spectrum (it rotates against the fundamental in the space-vector spectrum).
+
+    References
+    ----------
+    Eq. (1) of this module; Thomson & Fenger 2001; Hurst & Habetler 1996.
+    """
+    s = np.asarray(slip, dtype=float)
+    f1 = np.asarray(f1_hz, dtype=float)
+    return f1 * (sig.a * (1.0 - s) / pole_pairs + sig.b)  # eq. (1)
+
+
+def slip_from_frequency(sig: Signature, f_hz, f1_hz, pole_pairs: int) -> np.ndarray:
+    """Invert eq. (1): ``s = 1 - p (f / f1 - b) / a`` for a signed component frequency ``f`` [Hz]."""
+    f = np.asarray(f_hz, dtype=float)
+    f1 = np.asarray(f1_hz, dtype=float)
+    return 1.0 - pole_pairs * (f / f1 - sig.b) / sig.a  # eq. (1) solved for s
+
+
+def rotor_frequency_hz(slip, f1_hz, pole_pairs: int) -> np.ndarray:
+    """Mechanical rotation frequency ``fr = f1 (1 - s) / p`` [Hz] (common practice, no source)."""
+    return np.asarray(f1_hz, dtype=float) * (1.0 - np.asarray(slip, dtype=float)) / pole_pairs
+
+
+def speed_rpm(slip, f1_hz, pole_pairs: int) -> np.ndarray:
+    """Shaft speed ``n = 60 f1 (1 - s) / p`` [rpm] (common practice, no source)."""
+    return 60.0 * rotor_frequency_hz(slip, f1_hz, pole_pairs)
+
+
+def slip_from_speed(speed_rpm_, f1_hz, pole_pairs: int) -> np.ndarray:
+    """Slip ``s = (n_s - n) / n_s`` with ``n_s = 60 f1 / p`` (common practice, no source)."""
+    ns = 60.0 * np.asarray(f1_hz, dtype=float) / pole_pairs
+    return (ns - np.asarray(speed_rpm_, dtype=float)) / ns
+
+
+def signature_band_hz(sig: Signature, slip_min: float, slip_max: float, f1_hz: float, pole_pairs: int) -> tuple[float, float, int]:
+    """One-sided search band ``(lo, hi)`` [Hz] of a signature for slips in ``[slip_min, slip_max]``, and its sign.
+
+    The sign is +1 when the signed frequency stays positive over the band, -1
+    when it stays negative, 0 when it crosses zero (the band is then unusable).
+    """
+    f = component_frequency_hz(sig, np.array([slip_min, slip_max]), f1_hz, pole_pairs)
+    if np.all(f > 0):
+        sign = 1
+    elif np.all(f < 0):
+        sign = -1
+    else:
+        sign = 0
+    af = np.abs(f)
+    return float(af.min()), float(af.max()), sign
