@@ -1,0 +1,15 @@
+"""Event detectors: one module per kind of event, run through one registry.
+
+Each detector reads the per-cycle measurement table (and, where it needs them,
+the half-cycle table, the speed track, the nameplate and -- for point-on-wave
+refinement only -- the capture's samples) and returns `Event` objects.
+"""
+
+from .context import DetectionInput, DetectParams
+from .event import EVENT_KINDS, Event, events_frame
+from .registry import DETECTORS, detector_names, register, run_detectors
+
+__all__ = [
+    "DETECTORS", "DetectParams", "DetectionInput", "EVENT_KINDS", "Event",
+    "detector_names", "events_frame", "register", "run_detectors",
+]

@@ -1,0 +1,329 @@
+"""What the detectors read: the cycle table plus shared per-cycle derived quantities.
+
+`DetectionInput` gathers the measurement tables, the speed track, the
+nameplate, the declared voltage and the thresholds (`DetectParams`), and
+computes once the per-cycle arrays several detectors share: line-current
+magnitudes, "energised", "dead line" and the supply-voltage ratio.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import functools
+import math
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from ..errors import InvalidParameterError
+
+LINES = ("A", "B", "C")
+
+
+@dataclasses.dataclass(frozen=True)
+class DetectParams:
+    """Thresholds of the detectors (defaults in brackets are our choices unless a source is named).
+
+    Parameters
+    ----------
+    energised_frac_fla : float
+        A line carries current when its fundamental exceeds this fraction of FLA [pu] (0.05).
+    dead_line_frac : float
+        A line is dead when its current is below this fraction of the larger of
+        the other two [-] (0.10).
+    pair_balance : float
+        With one line open the other two carry equal and opposite currents
+        (Kirchhoff); they must agree within this relative difference [-] (0.25).
+    min_open_cycles : int
+        Consecutive dead-line cycles needed for an open phase (3).
+    stall_frac_lr : float
+        Stall / locked-rotor region: largest line current above this fraction
+        of the locked-rotor current scaled by the supply voltage [-] (0.5).
+    min_stall_s : float
+        Shortest stall reported [s] (1.0).
+    stalled_single_phase_frac : float
+        Single-phased and stalled when the current is above this fraction of
+        the locked-rotor current [-] (0.6; ideal single-phase locked-rotor
+        current is sqrt(3)/2 = 0.866 of the three-phase one).
+    dip_threshold_pct, swell_threshold_pct, interruption_threshold_pct, hysteresis_pct : float
+        IEC 61000-4-30 5.4 thresholds on Urms(1/2) in % of the declared voltage
+        (90, 110, 10, 2).
+    unbalance_threshold_pct : float
+        Sustained NEMA line-voltage unbalance above this is an event [%] (1.0:
+        NEMA MG-1 derating starts above 1 %).
+    unbalance_window_s, unbalance_min_s : float
+        Rolling-median window and shortest duration of a sustained unbalance [s] (1.0, 2.0).
+    upstream_mag_tol, upstream_angle_tol_deg, upstream_v2_rise_pct : float
+        Changes of the open line's voltage (relative magnitude, angle) or of
+        V2/V1 (percentage points) beyond which the open point is upstream
+        of the logger (0.07, 8 deg, 3 %).
+    """
+
+    energised_frac_fla: float = 0.05
+    dead_line_frac: float = 0.10
+    pair_balance: float = 0.25
+    min_open_cycles: int = 3
+    stall_frac_lr: float = 0.5
+    min_stall_s: float = 1.0
+    stalled_single_phase_frac: float = 0.6
+    dip_threshold_pct: float = 90.0
+    swell_threshold_pct: float = 110.0
+    interruption_threshold_pct: float = 10.0
+    hysteresis_pct: float = 2.0
+    unbalance_threshold_pct: float = 1.0
+    unbalance_window_s: float = 1.0
+    unbalance_min_s: float = 2.0
+    upstream_mag_tol: float = 0.07
+    upstream_angle_tol_deg: float = 8.0
+    upstream_v2_rise_pct: float = 3.0
+
+    def to_dict(self) -> dict[str, Any]:
+        return dataclasses.asdict(self)
+
+
+@dataclasses.dataclass(eq=False)
+class DetectionInput:
+    """Everything a detector may read.
+
+    Parameters
+    ----------
+    cycles : DataFrame
+        The measurement engine's cycle table (docs/columns.md).
+    half_cycles : DataFrame or None
+        Urms(1/2) table (``t_s``, ``X_rms_half``).
+    speed : DataFrame or None
+        Speed track (docs/speed.md).
+    fla_a : float or None
+        Full-load current [A] (nameplate).
+    locked_rotor_a : float or None
+        Locked-rotor current at rated voltage [A].
+    declared_voltage_ll_v : float or None
+        Declared line-to-line voltage [V].
+    capture : Capture or None
+        For point-on-wave refinement of onsets only.
+    voltage_channels, current_channels : dict
+        Conductor -> channel label (``{"A": "Va", ...}``, ``{"A": "Ia", ...}``).
+    voltage_reference : {"LN", "LL", None}
+    params : DetectParams
+    events : list of Event
+        Filled as the detectors run.
+    notes : list of str
+        What a detector could not do or assumed.
+    """
+
+    cycles: pd.DataFrame
+    half_cycles: pd.DataFrame | None = None
+    speed: pd.DataFrame | None = None
+    fla_a: float | None = None
+    locked_rotor_a: float | None = None
+    declared_voltage_ll_v: float | None = None
+    capture: Any = None
+    voltage_channels: dict[str, str] = dataclasses.field(default_factory=dict)
+    current_channels: dict[str, str] = dataclasses.field(default_factory=dict)
+    voltage_reference: str | None = None
+    params: DetectParams = dataclasses.field(default_factory=DetectParams)
+    events: list = dataclasses.field(default_factory=list)
+    notes: list[str] = dataclasses.field(default_factory=list)
+
+    def __post_init__(self) -> None:
+        if "t_s" not in self.cycles:
+            raise InvalidParameterError("the cycle table has no 't_s' column")
+        if not self.current_channels:
+            self.current_channels = {c: f"I{c.lower()}" for c in LINES if f"I{c.lower()}_rms" in self.cycles or f"I{c.lower()}_mag" in self.cycles}
+        if not self.voltage_channels:
+            ln = {c: f"V{c.lower()}" for c in LINES if f"V{c.lower()}_mag" in self.cycles}
+            ll = {c: n for c, n in zip(LINES, ("Vab", "Vbc", "Vca"), strict=True) if f"{n}_mag" in self.cycles}
+            if len(ln) == 3:
+                self.voltage_channels, self.voltage_reference = ln, "LN"
+            elif len(ll) == 3:
+                self.voltage_channels, self.voltage_reference = ll, "LL"
+
+    # -- time axis ----------------------------------------------------------------
+    @functools.cached_property
+    def t_s(self) -> np.ndarray:
+        return self.cycles["t_s"].to_numpy(float)
+
+    @functools.cached_property
+    def t_start_s(self) -> np.ndarray:
+        if "t_start_s" in self.cycles:
+            return self.cycles["t_start_s"].to_numpy(float)
+        return self.t_s - 0.5 * self.cycle_s
+
+    @functools.cached_property
+    def t_end_s(self) -> np.ndarray:
+        if "t_end_s" in self.cycles:
+            return self.cycles["t_end_s"].to_numpy(float)
+        return self.t_s + 0.5 * self.cycle_s
+
+    @functools.cached_property
+    def cycle_s(self) -> float:
+        if "frequency_hz" in self.cycles:
+            f = float(np.nanmedian(self.cycles["frequency_hz"].to_numpy(float)))
+            if math.isfinite(f) and f > 0:
+                return 1.0 / f
+        d = np.diff(self.t_s)
+        return float(np.nanmedian(d)) if d.size else 0.02
+
+    @property
+    def n(self) -> int:
+        return len(self.cycles)
+
+    def col(self, name: str) -> np.ndarray | None:
+        return self.cycles[name].to_numpy(float) if name in self.cycles else None
+
+    # -- currents -----------------------------------------------------------------
+    @functools.cached_property
+    def has_three_currents(self) -> bool:
+        return len(self.current_channels) == 3
+
+    @functools.cached_property
+    def i_mag(self) -> np.ndarray:
+        """(n, 3) fundamental magnitude of Ia, Ib, Ic [A] (RMS where no phasor; NaN if absent)."""
+        out = np.full((self.n, 3), np.nan)
+        for j, c in enumerate(LINES):
+            lab = self.current_channels.get(c)
+            if lab is None:
+                continue
+            v = self.col(f"{lab}_mag")
+            out[:, j] = v if v is not None else self.col(f"{lab}_rms")
+        return out
+
+    @functools.cached_property
+    def i_rms(self) -> np.ndarray:
+        out = np.full((self.n, 3), np.nan)
+        for j, c in enumerate(LINES):
+            lab = self.current_channels.get(c)
+            if lab is not None:
+                v = self.col(f"{lab}_rms")
+                out[:, j] = v if v is not None else self.col(f"{lab}_mag")
+        return out
+
+    @functools.cached_property
+    def i_max(self) -> np.ndarray:
+        """Largest line RMS current per cycle [A]."""
+        with np.errstate(all="ignore"):
+            m = np.nanmax(np.where(np.isnan(self.i_rms), -np.inf, self.i_rms), axis=1)
+        return np.where(np.isfinite(m), m, np.nan)
+
+    @functools.cached_property
+    def current_ref_a(self) -> float:
+        """FLA, or (no nameplate) the median largest line current over cycles carrying current."""
+        if self.fla_a:
+            return float(self.fla_a)
+        m = self.i_max[np.isfinite(self.i_max)]
+        if m.size == 0:
+            return math.nan
+        on = m[m > 0.05 * np.max(m)]
+        self.notes.append("no nameplate FLA: current thresholds scaled to the capture's median running current")
+        return float(np.median(on)) if on.size else math.nan
+
+    @functools.cached_property
+    def locked_rotor_ref_a(self) -> float:
+        if self.locked_rotor_a:
+            return float(self.locked_rotor_a)
+        self.notes.append("no locked-rotor current: 6 x the reference current assumed")
+        return 6.0 * self.current_ref_a
+
+    @functools.cached_property
+    def energised(self) -> np.ndarray:
+        """Cycles in which at least one line carries current (bool, n)."""
+        thr = self.params.energised_frac_fla * self.current_ref_a
+        m = np.nanmax(np.where(np.isnan(self.i_mag), -np.inf, self.i_mag), axis=1)
+        return np.isfinite(m) & (m > thr)
+
+    @functools.cached_property
+    def dead_line(self) -> np.ndarray:
+        """(n, 3) bool: line j dead while the other two carry equal and opposite current."""
+        out = np.zeros((self.n, 3), dtype=bool)
+        if not self.has_three_currents:
+            return out
+        p = self.params
+        m = np.nan_to_num(self.i_mag, nan=0.0)
+        thr = p.energised_frac_fla * self.current_ref_a
+        for j in range(3):
+            o1, o2 = m[:, (j + 1) % 3], m[:, (j + 2) % 3]
+            big = np.maximum(o1, o2)
+            # one line open: the other two carry equal and opposite currents (Kirchhoff's current law)
+            pair_ok = np.abs(o1 - o2) <= p.pair_balance * np.maximum(big, 1e-12)
+            out[:, j] = (m[:, j] < p.dead_line_frac * big) & (big > thr) & pair_ok
+        return out
+
+    # -- voltages -----------------------------------------------------------------
+    def v_phasor(self, conductor: str) -> np.ndarray | None:
+        lab = self.voltage_channels.get(conductor)
+        if lab is None:
+            return None
+        m, a = self.col(f"{lab}_mag"), self.col(f"{lab}_ang_deg")
+        if m is None or a is None:
+            return None
+        return m * np.exp(1j * np.deg2rad(a))
+
+    @functools.cached_property
+    def v_ll_max_ratio(self) -> np.ndarray:
+        """Largest line-to-line fundamental voltage over the declared one, per cycle (1 when unknown)."""
+        if len(self.voltage_channels) != 3 or not self.declared_voltage_ll_v:
+            return np.ones(self.n)
+        ph = [self.v_phasor(c) for c in LINES]
+        if any(p is None for p in ph):
+            return np.ones(self.n)
+        if self.voltage_reference == "LN":
+            ll = np.abs(np.vstack([ph[0] - ph[1], ph[1] - ph[2], ph[2] - ph[0]]))
+        else:
+            ll = np.abs(np.vstack(ph))
+        r = np.nanmax(ll, axis=0) / self.declared_voltage_ll_v
+        return np.where(np.isfinite(r), r, 1.0)
+
+
+def runs(mask: np.ndarray, min_len: int = 1, max_gap: int = 0) -> list[tuple[int, int]]:
+    """Runs of True in a bool array as ``[start, stop)`` index pairs.
+
+    Runs separated by at most ``max_gap`` False entries are merged; runs shorter
+    than ``min_len`` are dropped.
+    """
+    m = np.asarray(mask, dtype=bool)
+    if m.size == 0:
+        return []
+    d = np.diff(np.r_[0, m.astype(np.int8), 0])
+    starts, stops = np.flatnonzero(d == 1), np.flatnonzero(d == -1)
+    if max_gap > 0 and starts.size > 1:
+        keep = (starts[1:] - stops[:-1]) > max_gap
+        starts = np.r_[starts[0], starts[1:][keep]]
+        stops = np.r_[stops[:-1][keep], stops[-1]]
+    return [(int(a), int(b)) for a, b in zip(starts, stops, strict=True) if b - a >= min_len]
+
+
+def schmitt(set_mask: np.ndarray, reset_mask: np.ndarray) -> np.ndarray:
+    """Hysteresis state: True from a ``set`` sample until the next ``reset`` sample.
+
+    Vectorised latch: the state at each index is the most recent decisive
+    sample (set -> True, reset -> False), False before the first one.
+    """
+    s = np.asarray(set_mask, dtype=bool)
+    r = np.asarray(reset_mask, dtype=bool) & ~s
+    decisive = s | r
+    idx = np.where(decisive, np.arange(s.size), -1)
+    last = np.maximum.accumulate(idx) if s.size else idx
+    return np.where(last >= 0, s[np.maximum(last, 0)], False)
+
+
+def speed_summary(speed: pd.DataFrame | None, t0_s: float, t1_s: float | None) -> dict[str, Any]:
+    """What the speed track says between two instants: windows, estimates, median slip and rpm."""
+    if speed is None or len(speed) == 0 or "t_s" not in speed:
+        return {"speed_windows": 0}
+    t1 = math.inf if t1_s is None else t1_s
+    t = speed["t_s"].to_numpy(float)
+    sel = speed[(t >= t0_s) & (t <= t1)]
+    out: dict[str, Any] = {"speed_windows": int(len(sel))}
+    if len(sel) == 0:
+        return out
+    est = sel[np.isfinite(sel["slip"].to_numpy(float))] if "slip" in sel else sel.iloc[:0]
+    out["speed_estimates"] = int(len(est))
+    if len(est):
+        out["slip_median"] = float(np.median(est["slip"].to_numpy(float)))
+        if "rpm" in est:
+            out["rpm_median"] = float(np.median(est["rpm"].to_numpy(float)))
+    if "status" in sel:
+        vals, cnt = np.unique(sel["status"].astype(str).to_numpy(), return_counts=True)
+        out["speed_status_counts"] = {str(v): int(c) for v, c in zip(vals, cnt, strict=True)}
+    return out

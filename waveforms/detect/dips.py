@@ -1,0 +1,174 @@
+"""Voltage dips, swells and interruptions from Urms(1/2), with the IEEE 1159 category.
+
+Polyphase rules of IEC 61000-4-30 (5.4.2, 5.4.3, 5.5): a dip begins when the
+Urms(1/2) of one channel falls below the dip threshold and ends when every
+channel is at or above the threshold plus the hysteresis; a swell is the
+mirror image; an interruption begins when *all* channels fall below the
+interruption threshold and ends when any channel is back above it plus the
+hysteresis.  The residual voltage of a dip is the lowest Urms(1/2) of any
+channel during it; the duration runs from start to end.
+
+References
+----------
+.. [1] IEC 61000-4-30, Testing and measurement techniques - Power quality
+   measurement methods, 5.4 (dips and swells), 5.5 (interruptions); the
+   thresholds 90 % / 110 % / 10 % and the 2 % hysteresis are recalled (from memory).
+.. [2] IEEE Std 1159, Recommended Practice for Monitoring Electric Power
+   Quality, Table 2 (categories of short- and long-duration variations).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from .context import LINES, DetectionInput, runs, schmitt
+from .event import Event
+from .registry import register
+
+#: IEEE 1159 Table 2 duration bands (in cycles, then seconds) [2].
+_CYCLES_INSTANT = 30.0
+_MOMENTARY_S = 3.0
+_TEMPORARY_S = 60.0
+
+
+def ieee1159_category(kind: str, duration_s: float | None, magnitude_pu: float, cycle_s: float) -> str:
+    """IEEE 1159 Table 2 category of a dip ("sag"), swell or interruption.
+
+    Parameters
+    ----------
+    kind : {"dip", "swell", "interruption"}
+    duration_s : float or None
+        None = still present at the end of the capture (at least as long as seen).
+    magnitude_pu : float
+        Residual (dip, interruption) or peak (swell) voltage [pu].
+    cycle_s : float
+        Length of one fundamental cycle [s].
+
+    References
+    ----------
+    .. [1] IEEE Std 1159, Table 2: instantaneous 0.5-30 cycles, momentary
+       30 cycles-3 s, temporary 3 s-1 min, long duration over 1 min;
+       interruption below 0.1 pu (momentary 0.5 cycle-3 s).
+    """
+    d = math.inf if duration_s is None else duration_s
+    if kind == "interruption":
+        if d <= _MOMENTARY_S:
+            return "momentary interruption"
+        return "temporary interruption" if d <= _TEMPORARY_S else "sustained interruption"
+    if d > _TEMPORARY_S:  # IEEE 1159 Table 2, long-duration variations
+        return "sustained undervoltage" if kind == "dip" else "sustained overvoltage"
+    if d <= _CYCLES_INSTANT * cycle_s:
+        band = "instantaneous"
+    elif d <= _MOMENTARY_S:
+        band = "momentary"
+    else:
+        band = "temporary"
+    if kind == "dip":
+        # a "sag" in IEEE 1159 is 0.1-0.9 pu; momentary and temporary sags too
+        return f"{band} sag"
+    return f"{band} swell"
+
+
+def _half_cycle_matrix(inp: DetectionInput) -> tuple[np.ndarray, np.ndarray, list[str]] | None:
+    labels = [inp.voltage_channels[c] for c in LINES if c in inp.voltage_channels]
+    if not labels:
+        return None
+    hc = inp.half_cycles
+    if hc is not None and all(f"{lab}_rms_half" in hc for lab in labels) and len(hc):
+        return hc["t_s"].to_numpy(float), np.vstack([hc[f"{lab}_rms_half"].to_numpy(float) for lab in labels]), labels
+    if all(f"{lab}_rms" in inp.cycles for lab in labels):
+        inp.notes.append("no Urms(1/2) table: dips assessed on one-cycle RMS values (IEC 61000-4-30 asks for Urms(1/2))")
+        return inp.t_end_s, np.vstack([inp.cycles[f"{lab}_rms"].to_numpy(float) for lab in labels]), labels
+    return None
+
+
+def declared_voltage(inp: DetectionInput, urms: np.ndarray) -> tuple[float, str]:
+    """Declared voltage of the channels [V] and where it came from."""
+    if inp.declared_voltage_ll_v:
+        u = inp.declared_voltage_ll_v / (math.sqrt(3.0) if inp.voltage_reference == "LN" else 1.0)
+        return float(u), "declared"
+    med = float(np.nanmedian(urms))
+    inp.notes.append(f"no declared voltage: the capture's median Urms(1/2), {med:.1f} V, used as reference")
+    return med, "capture median"
+
+
+def _open_phase_explains(inp: DetectionInput, start_s: float, end_s: float | None, low_channels: list[str]) -> bool:
+    """True when an upstream open phase on the line(s) of these channels overlaps the dip."""
+    for e in inp.events:
+        if e.kind != "open_phase" or not e.overlaps(start_s, end_s):
+            continue
+        line = e.phase
+        if inp.voltage_reference == "LL":
+            nxt = {"A": "B", "B": "C", "C": "A"}
+            own = {lab for c, lab in inp.voltage_channels.items() if line in (c, nxt[c])}
+        else:
+            own = {inp.voltage_channels.get(line, "")}
+        if set(low_channels) <= own:
+            return True
+    return False
+
+
+@register("dips")
+def detect_dips(inp: DetectionInput) -> list[Event]:
+    """Dips, swells and interruptions (IEC 61000-4-30 5.4, 5.5) with IEEE 1159 categories."""
+    got = _half_cycle_matrix(inp)
+    if got is None:
+        inp.notes.append("no voltage channels: dips, swells and interruptions not assessed")
+        return []
+    t, u, labels = got
+    p = inp.params
+    udin, udin_src = declared_voltage(inp, u)
+    pct = 100.0 * u / udin
+    lo = np.nanmin(pct, axis=0)
+    hi = np.nanmax(pct, axis=0)
+    valid = np.isfinite(lo)
+    h = p.hysteresis_pct
+    # IEC 61000-4-30 5.4.2.1: dip starts when one channel < threshold, ends when all >= threshold + hysteresis
+    in_dip = schmitt(valid & (lo < p.dip_threshold_pct), valid & (lo >= p.dip_threshold_pct + h))
+    # IEC 61000-4-30 5.4.2.2: swell starts when one channel > threshold, ends when all <= threshold - hysteresis
+    in_swell = schmitt(valid & (hi > p.swell_threshold_pct), valid & (hi <= p.swell_threshold_pct - h))
+    # IEC 61000-4-30 5.5: interruption when all channels < threshold, ends when any >= threshold + hysteresis
+    in_int = schmitt(valid & (hi < p.interruption_threshold_pct), valid & (hi >= p.interruption_threshold_pct + h))
+    n = t.size
+    found: list[Event] = []
+    interruptions: list[tuple[float, float | None]] = []
+    for kind, mask in (("interruption", in_int), ("dip", in_dip), ("swell", in_swell)):
+        for a, b in runs(mask):
+            start = float(t[a])
+            end = None if b >= n else float(t[b])
+            seg = pct[:, a:b]
+            if kind == "swell":
+                mag = float(np.nanmax(seg))
+                worst = [labels[int(k)] for k in np.flatnonzero(np.nanmax(seg, axis=1) > p.swell_threshold_pct)]
+            else:
+                mag = float(np.nanmin(seg))
+                thr = p.interruption_threshold_pct if kind == "interruption" else p.dip_threshold_pct
+                worst = [labels[int(k)] for k in np.flatnonzero(np.nanmin(seg, axis=1) < thr)]
+            if kind == "dip" and any(s <= start and (e is None or (end is not None and end <= e)) for s, e in interruptions):
+                continue  # the whole dip is the interruption's
+            if kind == "dip" and _open_phase_explains(inp, start, end, worst):
+                continue  # an upstream open phase, reported as such
+            if kind == "interruption":
+                interruptions.append((start, end))
+            dur = None if end is None else end - start
+            cat = ieee1159_category(kind, dur, mag / 100.0, inp.cycle_s)
+            phase = None
+            if len(worst) == 1 and inp.voltage_reference == "LN":
+                phase = next(c for c, lab in inp.voltage_channels.items() if lab == worst[0])
+            word = {"dip": "residual", "interruption": "residual", "swell": "peak"}[kind]
+            dur_txt = "to the end of the capture" if dur is None else f"for {dur * 1000:.0f} ms" if dur < 1 else f"for {dur:.2f} s"
+            found.append(Event(
+                kind=kind, phase=phase, start_s=start, end_s=end, detector="dips",
+                summary=f"voltage {kind} on {', '.join(worst)} {dur_txt}, {word} {mag:.0f} % of declared ({cat})",
+                figures={
+                    ("peak_pct" if kind == "swell" else "residual_pct"): mag,
+                    ("peak_v" if kind == "swell" else "residual_v"): mag * udin / 100.0,
+                    "declared_v": udin, "declared_source": udin_src, "channels": worst,
+                    "ieee1159_category": cat, "threshold_pct": {"dip": p.dip_threshold_pct, "swell": p.swell_threshold_pct,
+                                                              "interruption": p.interruption_threshold_pct}[kind],
+                    "hysteresis_pct": h,
+                },
+            ))
+    return found
