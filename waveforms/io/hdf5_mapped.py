@@ -98,18 +98,20 @@ def read_hdf5_mapped(path: Path, options: ReadOptions | None = None) -> Capture:
     with fh:
         available = _datasets(fh)
         if mapping.channels:
-            headers = [str(e.get("dataset", "")) for e in mapping.channels.values()]
+            headers = [str(e.get("dataset") or e.get("column") or "") for e in mapping.channels.values()]
             missing = [h for h in headers if h and h not in fh]
             if missing:
                 from .mapping import suggest
 
                 raise CaptureReadError(path, f"dataset {missing[0]}", f"not found in the file{suggest(missing[0], available)}")
-            for name, e in mapping.channels.items():
-                if not e.get("dataset"):
+            for (name, e), dpath in zip(mapping.channels.items(), headers, strict=True):
+                if not dpath:
                     raise MappingError(mapping.source, f"key channels.{name}", "names no dataset; give dataset = '/path/in/file'")
-                ds = fh[e["dataset"]]
+                ds = fh[dpath]
                 if not isinstance(ds, h5py.Dataset) or ds.ndim != 1:
-                    raise CaptureReadError(path, f"dataset {e['dataset']}", f"must be a 1-D dataset, is {getattr(ds, 'shape', 'a group')}")
+                    raise CaptureReadError(path, f"dataset {dpath}", f"must be a 1-D dataset, is {getattr(ds, 'shape', 'a group')}")
+                if ds.dtype.kind not in "fiu":
+                    raise CaptureReadError(path, f"dataset {dpath}", f"holds {ds.dtype} values, not numbers")
             mp = mapping
             specs, map_notes = resolve_channels(headers, mp, path, "dataset", where_of=lambda h: f"dataset {h}")
         else:
