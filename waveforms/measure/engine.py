@@ -1,0 +1,523 @@
+"""The measurement engine: a capture in, per-cycle / half-cycle / harmonic tables out, chunk by chunk.
+
+`measure(capture)` returns a `Measurements`; `iter_measure(capture)` yields
+the same rows block by block (what the ``measure`` command streams to disk, so
+memory does not grow with the capture's length).  Each block is read with an
+overlap of `overlap_cycles` nominal cycles on both sides; a cycle belongs to
+the block that holds its first boundary, so every cycle is computed exactly
+once, from the same samples whatever the block size, and the streamed result
+equals the one-block result to float rounding.
+
+Column names, units and definitions: docs/columns.md.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from collections.abc import Iterator
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from ..capture import Capture, Channel
+from ..errors import InvalidParameterError
+from . import frequency as fq
+from . import harmonics as hm
+from . import phasor as ph
+from . import power as pw
+from . import rms as rm
+from . import sequence as sq
+from . import unbalance as ub
+from . import windows as wn
+
+DEFAULT_CHUNK_SAMPLES = 1 << 19
+DEFAULT_OVERLAP_CYCLES = 30
+#: Survey: blocks read before the main pass to fix the reference level and
+#: (when unknown) the nominal frequency, the same for every block size.
+SURVEY_BLOCKS = 16
+SURVEY_BLOCK_S = 0.2
+#: A crossing counts only if the reference slope is at least that of a
+#: sinusoid of this fraction of the reference's typical RMS (so a dip to 10 %
+#: is still tracked and an interruption is not).
+MIN_LEVEL_FRACTION = 0.1
+
+
+@dataclasses.dataclass(frozen=True)
+class Layout:
+    """Where each role sits among the capture's channels (row indices into the samples)."""
+
+    labels: tuple[str, ...]
+    vln: dict[str, int]
+    vll: dict[str, int]
+    iline: dict[str, int]
+    ineutral: int | None
+    ref_rows: tuple[int, ...]
+    ref_coef: tuple[float, ...]
+    ref_kind: str  # "voltage" or "current"
+
+    @property
+    def voltage_phase_rows(self) -> tuple[int, ...]:
+        d = self.vln or self.vll
+        return tuple(d[c] for c in "ABC" if c in d)
+
+
+@dataclasses.dataclass(frozen=True)
+class Settings:
+    """Fixed for the whole capture (decided before the main pass)."""
+
+    fs_hz: float
+    f_nom_hz: float
+    harmonic_cycles: int
+    min_slope_per_s: float
+    overlap_samples: int
+    sos: np.ndarray
+    wiring: str
+    start_epoch_s: float
+
+
+@dataclasses.dataclass
+class Measurements:
+    """Result of `measure`.
+
+    Attributes
+    ----------
+    cycles : pandas.DataFrame
+        One row per fundamental cycle (docs/columns.md).
+    half_cycles : pandas.DataFrame
+        Urms(1/2) of every channel (``X_rms_half``), ``t_s`` = window end.
+    harmonics : pandas.DataFrame
+        10/12-cycle windows: ``X_h{n}`` group magnitudes, ``X_hs{n}`` subgroups, ``X_thd_pct``.
+    info : dict
+        Reference signal, nominal frequency, declared voltages and how they were chosen.
+    """
+
+    cycles: pd.DataFrame
+    half_cycles: pd.DataFrame
+    harmonics: pd.DataFrame
+    info: dict[str, Any]
+
+    def intervals(self, kind: str = "basic") -> pd.DataFrame:
+        """Aggregated intervals: ``"basic"`` (10/12 cycles), ``"3s"`` or ``"10min"``; see `waveforms.measure.aggregate`."""
+        from .aggregate import aggregate
+
+        return aggregate(self.cycles, self.half_cycles, kind, self.info)
+
+
+# -- setup -------------------------------------------------------------------
+def layout_of(capture: Capture) -> Layout:
+    """Roles of the capture's channels, and the reference combination (voltages first)."""
+    labels = tuple(c.label for c in capture.channels)
+    dup = sorted({x for x in labels if labels.count(x) > 1})
+    if dup:
+        raise InvalidParameterError(f"channels {dup} appear twice (by kind/conductor/reference); cannot tell them apart")
+    idx = {c.name: i for i, c in enumerate(capture.channels)}
+
+    def rows(chs: tuple[Channel, ...]) -> dict[str, int]:
+        return {c.conductor: idx[c.name] for c in chs if c.conductor in ("A", "B", "C")}
+
+    vln = rows(capture.find("voltage", reference="LN"))
+    vll = rows(capture.find("voltage", reference="LL"))
+    il = rows(capture.find("current", reference="line"))
+    neu = capture.find("current", reference="neutral")
+    volt = vln or vll
+    src, kind = (volt, "voltage") if volt else (il, "current")
+    if not src:
+        raise InvalidParameterError("capture has no phase voltage or line current channel to track the frequency on")
+    conds = [c for c in "ABC" if c in src]
+    coef = fq.reference_coefficients(conds)
+    return Layout(labels, vln, vll, il, idx[neu[0].name] if neu else None,
+                  tuple(src[c] for c in conds), tuple(float(x) for x in coef), kind)
+
+
+def _switch_to_currents(lay: Layout) -> Layout:
+    conds = [c for c in "ABC" if c in lay.iline]
+    coef = fq.reference_coefficients(conds)
+    return dataclasses.replace(lay, ref_rows=tuple(lay.iline[c] for c in conds),
+                               ref_coef=tuple(float(x) for x in coef), ref_kind="current")
+
+
+def _survey(capture: Capture, lay: Layout) -> tuple[float, float | None]:
+    """Typical RMS of the reference combination and a crossing-rate frequency, from a few spread-out blocks."""
+    n = capture.n_samples
+    blk = max(8, min(n, int(round(SURVEY_BLOCK_S * capture.sample_rate_hz))))
+    starts = np.unique(np.linspace(0, n - blk, SURVEY_BLOCKS).astype(np.int64))
+    levels, freqs = [], []
+    sos = fq.lowpass_sos(capture.sample_rate_hz, 65.0)
+    for s in starts:  # a handful of blocks, not samples
+        d = capture.read(int(s), int(s) + blk, [capture.channels[r].name for r in lay.ref_rows])
+        r = np.asarray(lay.ref_coef) @ d
+        ok = np.isfinite(r)
+        if ok.sum() < blk // 2:
+            continue
+        levels.append(float(np.sqrt(np.mean(np.square(r[ok])))))
+        rf = fq.filtered_reference(r, sos)
+        cr = fq.rising_crossings(rf, capture.sample_rate_hz, 0.0)
+        if cr.size >= 3:
+            freqs.append((cr.size - 1) * capture.sample_rate_hz / (cr[-1] - cr[0]))
+    level = float(np.median(levels)) if levels else 0.0
+    f = float(np.median(freqs)) if freqs else None
+    return level, f
+
+
+def prepare(capture: Capture, nominal_frequency_hz: float | None = None,
+            overlap_cycles: int = DEFAULT_OVERLAP_CYCLES) -> tuple[Layout, Settings, dict[str, Any]]:
+    """Decide the reference, the nominal frequency and the crossing threshold for a capture."""
+    if capture.n_samples < 4:
+        raise InvalidParameterError(f"capture has {capture.n_samples} samples; too short to measure")
+    lay = layout_of(capture)
+    level, f_est = _survey(capture, lay)
+    notes = []
+    if (level <= 0.0 or not math.isfinite(level)) and lay.ref_kind == "voltage" and lay.iline:
+        lay = _switch_to_currents(lay)
+        level, f_est = _survey(capture, lay)
+        notes.append("voltages carry no signal: frequency tracked on the line currents")
+    f_nom = nominal_frequency_hz or capture.nominal_frequency_hz
+    if f_nom is None:
+        if f_est is None:
+            raise InvalidParameterError("nominal frequency unknown and the reference shows no cycles; give nominal_frequency_hz")
+        f_nom = 50.0 if abs(f_est - 50.0) < abs(f_est - 60.0) else 60.0
+        notes.append(f"nominal frequency inferred as {f_nom:g} Hz from the zero-crossing rate ({f_est:.2f} Hz)")
+    if f_nom not in (50.0, 60.0):
+        raise InvalidParameterError(f"nominal_frequency_hz={f_nom!r} must be 50 or 60")
+    fs = capture.sample_rate_hz
+    if fs < 8.0 * f_nom:
+        raise InvalidParameterError(f"sample_rate_hz={fs:g} is too low to measure a {f_nom:g} Hz system (need >= {8 * f_nom:g})")
+    min_slope = 2.0 * np.pi * f_nom * np.sqrt(2.0) * MIN_LEVEL_FRACTION * level
+    settings = Settings(
+        fs_hz=fs, f_nom_hz=float(f_nom), harmonic_cycles=hm.window_cycles(float(f_nom)),
+        min_slope_per_s=float(min_slope) if level > 0 else math.inf,
+        overlap_samples=int(math.ceil(overlap_cycles * fs / f_nom)),
+        sos=fq.lowpass_sos(fs, float(f_nom)), wiring=capture.wiring,
+        start_epoch_s=capture.start_time.timestamp(),
+    )
+    conds = [capture.channels[r].conductor for r in lay.ref_rows]
+    info = {
+        "reference": f"{lay.ref_kind} Clarke alpha of phases {''.join(conds)}",
+        "reference_level_rms": level,
+        "nominal_frequency_hz": float(f_nom),
+        "harmonic_window_cycles": settings.harmonic_cycles,
+        "sample_rate_hz": fs,
+        "start_time": capture.start_time.isoformat(),
+        "nominal_voltage_v": capture.nominal_voltage_v,
+        "wiring": capture.wiring,
+        "channels": {lab: capture.channels[i].reference for i, lab in enumerate(lay.labels)},
+        "angle_reference": "V1 (V2 when it is larger, an A-C-B supply); else the first voltage, else the first current",
+        "notes": notes,
+    }
+    return lay, settings, info
+
+
+# -- one block ------------------------------------------------------------------
+def _empty_block() -> tuple[pd.DataFrame, pd.DataFrame, pd.DataFrame]:
+    return pd.DataFrame(), pd.DataFrame(), pd.DataFrame()
+
+
+def process_block(data: np.ndarray, start_index: int, lead: int, trail: int, cycle_offset: int,
+                  lay: Layout, st: Settings) -> tuple[pd.DataFrame, pd.DataFrame, pd.DataFrame, int]:
+    """Measure the cycles owned by one block.
+
+    Parameters
+    ----------
+    data : ndarray, shape (n_channels, n)
+        Samples of every channel, absolute index ``start_index`` first.
+    lead, trail : int
+        Samples at the start / end that belong to the neighbouring blocks.
+    cycle_offset : int
+        Global index of the first cycle this block owns.
+
+    Returns
+    -------
+    cycles, half_cycles, harmonics : DataFrame
+    n_cycles : int
+        Cycles owned (to advance ``cycle_offset``).
+    """
+    fs, n = st.fs_hz, data.shape[1]
+    ref = np.asarray(lay.ref_coef) @ data[list(lay.ref_rows)]
+    rf = fq.filtered_reference(ref, st.sos, int(2 * fs / st.f_nom_hz))
+    cross = fq.rising_crossings(rf, fs, st.min_slope_per_s)
+    bnd, tracked = fq.cycle_boundaries(cross, n, start_index, fs, st.f_nom_hz)
+    if bnd.size < 2:
+        return (*_empty_block(), 0)
+    f_cyc = fq.cycle_frequency(bnd, tracked, fs, st.f_nom_hz)
+    a_all, b_all = bnd[:-1], bnd[1:]
+    own = np.flatnonzero((a_all >= lead) & (a_all < n - trail))
+    if own.size == 0:
+        return (*_empty_block(), 0)
+    k0, k1 = int(own[0]), int(own[-1]) + 1          # owned cycles k0 .. k1-1
+    k_ext = min(k1 + 1, a_all.size)                  # plus the next one (for the mid-cycle window)
+    sel = np.arange(k0, k_ext)
+    a, b = a_all[sel], b_all[sel]
+    mid = 0.5 * (a + b)
+    first, width = wn.window_grid(a, b)
+    w1 = wn.weights_on_grid(first, width, a, mid)
+    w2 = wn.weights_on_grid(first, width, mid, b)
+    w = w1 + w2
+    x = wn.gather(data, first, w)                    # (m, n_ch, width)
+    m_own = k1 - k0
+
+    # Urms(1/2): full cycles and mid-cycle windows (IEC 61000-4-30 5.4.1)
+    sq1, sw1 = rm.mean_square(x, w1)
+    sq2, sw2 = rm.mean_square(x, w2)
+    full_rms, mid_rms = rm.urms_half(sq1, sw1, sq2, sw2)
+
+    xo, wo = x[:m_own], w[:m_own]
+    f_use = np.where(np.isfinite(f_cyc[k0:k1]), f_cyc[k0:k1], st.f_nom_hz)
+    centre = mid[:m_own]
+    reg = ph.basis(first[:m_own], width, centre, 2.0 * np.pi * f_use, fs)
+    phas, _ = ph.fit_phasors(xo, wo, reg)
+    t_c = (centre + start_index) / fs
+    phas = ph.to_nominal_frame(phas, t_c, st.f_nom_hz)
+    gram = rm.mean_products(xo, wo)
+    rms = np.sqrt(np.clip(np.einsum("kcc->kc", gram), 0.0, None))
+
+    cols: dict[str, Any] = {
+        "cycle": np.arange(cycle_offset, cycle_offset + m_own, dtype=np.int64),
+        "t_s": t_c,
+        "t_start_s": (a[:m_own] + start_index) / fs,
+        "t_end_s": (b[:m_own] + start_index) / fs,
+        "frequency_hz": f_cyc[k0:k1],
+        "tracked": np.isfinite(f_cyc[k0:k1]),
+    }
+    _channel_columns(cols, lay, phas, rms)
+    _sequence_power_columns(cols, lay, st, phas, rms, gram)
+    cycles = pd.DataFrame(cols)
+
+    # half-cycle table, time-ordered: cycle k (ends at b_k), then mid k -> k+1 (ends at mid_{k+1})
+    n_mid = min(m_own, mid_rms.shape[0])
+    t_half = np.empty(m_own + n_mid)
+    vals = np.empty((m_own + n_mid, x.shape[1]))
+    t_full, t_mid = (b[:m_own] + start_index) / fs, (mid[1:1 + n_mid] + start_index) / fs
+    order = np.argsort(np.concatenate([t_full, t_mid]), kind="stable")
+    t_half[:] = np.concatenate([t_full, t_mid])[order]
+    vals[:] = np.concatenate([full_rms[:m_own], mid_rms[:n_mid]])[order]
+    half = pd.DataFrame({"t_s": t_half, **{f"{lab}_rms_half": vals[:, i] for i, lab in enumerate(lay.labels)}})
+
+    harm = _harmonic_windows(data, bnd, k0, k1, cycle_offset, start_index, lay, st)
+    return cycles, half, harm, m_own
+
+
+def _channel_columns(cols: dict[str, Any], lay: Layout, phas: np.ndarray, rms: np.ndarray) -> None:
+    ref = _angle_reference(lay, phas)
+    rot = np.where(np.abs(ref) > 0, np.conj(ref) / np.where(np.abs(ref) > 0, np.abs(ref), 1.0), np.nan)
+    for i, lab in enumerate(lay.labels):
+        cols[f"{lab}_rms"] = rms[:, i]
+        cols[f"{lab}_mag"] = np.abs(phas[:, i])
+        cols[f"{lab}_ang_deg"] = np.degrees(np.angle(phas[:, i] * rot))
+
+
+def _voltage_sequences(lay: Layout, phas: np.ndarray) -> tuple[np.ndarray | None, np.ndarray | None, np.ndarray | None]:
+    if all(c in lay.vln for c in "ABC"):
+        return sq.sequence_components(*(phas[:, lay.vln[c]] for c in "ABC"))
+    if all(c in lay.vll for c in "ABC"):
+        v1, v2 = sq.sequence_from_line_to_line(*(phas[:, lay.vll[c]] for c in "ABC"))
+        return None, v1, v2
+    return None, None, None
+
+
+def _angle_reference(lay: Layout, phas: np.ndarray) -> np.ndarray:
+    _, v1, v2 = _voltage_sequences(lay, phas)
+    if v1 is not None:
+        return np.where(np.abs(v1) >= np.abs(v2), v1, v2)
+    for d in (lay.vln, lay.vll, lay.iline):
+        for c in "ABC":
+            if c in d:
+                return phas[:, d[c]]
+    return phas[:, 0]
+
+
+def _sequence_power_columns(cols: dict[str, Any], lay: Layout, st: Settings, phas: np.ndarray,
+                            rms: np.ndarray, gram: np.ndarray) -> None:
+    v0, v1, v2 = _voltage_sequences(lay, phas)
+    if v1 is not None:
+        if v0 is not None:
+            cols["V0"] = np.abs(v0)
+        cols["V1"], cols["V2"] = np.abs(v1), np.abs(v2)
+        cols["V1_ang_deg"] = np.degrees(np.angle(v1))
+        cols["V2_V1_pct"] = ub.ratio_pct(v2, v1)
+        if v0 is not None:
+            cols["V0_V1_pct"] = ub.ratio_pct(v0, v1)
+        cols["V_unbal_vuf_pct"] = ub.vuf_pct(v1, v2)
+        if all(c in lay.vll for c in "ABC"):
+            ll = [np.abs(phas[:, lay.vll[c]]) for c in "ABC"]
+        else:
+            va, vb, vc = (phas[:, lay.vln[c]] for c in "ABC")
+            ll = [np.abs(va - vb), np.abs(vb - vc), np.abs(vc - va)]
+        cols["V_unbal_nema_pct"] = ub.max_deviation_pct(*ll)               # NEMA MG-1 14.36
+        if all(c in lay.vln for c in "ABC"):
+            cols["V_unbal_pvur_pct"] = ub.max_deviation_pct(*(np.abs(phas[:, lay.vln[c]]) for c in "ABC"))  # Pillay 2001
+        cols["V_unbal_iec_ll_pct"] = ub.iec_line_to_line_pct(*ll)          # IEC 61000-4-30 5.7.1
+        cols["phase_sequence"] = pd.array(sq.phase_sequence(v1, v2).astype(str), dtype="string")
+    i1 = None
+    if all(c in lay.iline for c in "ABC"):
+        ia, ib, ic = (phas[:, lay.iline[c]] for c in "ABC")
+        i0, i1, i2 = sq.sequence_components(ia, ib, ic)
+        cols["I0"], cols["I1"], cols["I2"] = np.abs(i0), np.abs(i1), np.abs(i2)
+        cols["I2_I1_pct"] = ub.ratio_pct(i2, i1)
+        cols["I0_I1_pct"] = ub.ratio_pct(i0, i1)
+        cols["I_unbal_vuf_pct"] = ub.vuf_pct(i1, i2)
+        mags = [np.abs(ia), np.abs(ib), np.abs(ic)]
+        cols["I_unbal_nema_pct"] = ub.max_deviation_pct(*mags)
+        cols["I_unbal_pvur_pct"] = cols["I_unbal_nema_pct"].copy()  # line currents: phase = line quantity
+    _power_columns(cols, lay, st, phas, rms, gram, v1, i1)
+
+
+def _power_columns(cols: dict[str, Any], lay: Layout, st: Settings, phas: np.ndarray, rms: np.ndarray,
+                   gram: np.ndarray, v1: np.ndarray | None, i1: np.ndarray | None) -> None:
+    il = lay.iline
+    if not il:
+        return
+    have_ln = all(c in lay.vln for c in "ABC")
+    have_ll = all(c in lay.vll for c in "ABC")
+    three_i = all(c in il for c in "ABC")
+    # per phase, line-to-neutral voltages (IEEE 1459-2010 single-phase definitions)
+    for c in "ABC":
+        if c in lay.vln and c in il:
+            vi, ii, s = lay.vln[c], il[c], c.lower()
+            p = gram[:, vi, ii]                                            # P = mean(v i)
+            q = pw.fundamental_powers(phas[:, vi], phas[:, ii])[1]         # Q1 = V1 I1 sin(theta1)
+            sva = rms[:, vi] * rms[:, ii]                                  # S = V I
+            cols[f"P{s}_w"], cols[f"Q{s}_var"], cols[f"S{s}_va"] = p, q, sva
+            cols[f"PF{s}"] = pw.ratio(p, sva)
+    if not three_i or not (have_ln or have_ll):
+        return
+    ia, ib, ic = il["A"], il["B"], il["C"]
+    if have_ln:
+        va, vb, vc = lay.vln["A"], lay.vln["B"], lay.vln["C"]
+        p_tot = gram[:, va, ia] + gram[:, vb, ib] + gram[:, vc, ic]
+        q_tot = sum(pw.fundamental_powers(phas[:, lay.vln[c]], phas[:, il[c]])[1] for c in "ABC")
+        vln_sq = gram[:, va, va] + gram[:, vb, vb] + gram[:, vc, vc]
+        vll_sq = (gram[:, va, va] + gram[:, vb, vb] - 2 * gram[:, va, vb]
+                  + gram[:, vb, vb] + gram[:, vc, vc] - 2 * gram[:, vb, vc]
+                  + gram[:, vc, vc] + gram[:, va, va] - 2 * gram[:, vc, va])
+    else:
+        ab, bc, ca = lay.vll["A"], lay.vll["B"], lay.vll["C"]
+        # virtual (zero-sum) neutral: va' = (vab - vca)/3, vb' = (vbc - vab)/3, vc' = (vca - vbc)/3
+        p_tot = ((gram[:, ab, ia] - gram[:, ca, ia]) + (gram[:, bc, ib] - gram[:, ab, ib])
+                 + (gram[:, ca, ic] - gram[:, bc, ic])) / 3.0
+        vp = {"A": (phas[:, ab] - phas[:, ca]) / 3.0, "B": (phas[:, bc] - phas[:, ab]) / 3.0,
+              "C": (phas[:, ca] - phas[:, bc]) / 3.0}
+        q_tot = sum(pw.fundamental_powers(vp[c], phas[:, il[c]])[1] for c in "ABC")
+        vll_sq = gram[:, ab, ab] + gram[:, bc, bc] + gram[:, ca, ca]
+        vln_sq = None
+    iline_sq = gram[:, ia, ia] + gram[:, ib, ib] + gram[:, ic, ic]
+    four_wire = st.wiring == "4-wire" and have_ln
+    if four_wire:
+        if lay.ineutral is not None:
+            in_sq = gram[:, lay.ineutral, lay.ineutral]
+        else:  # KCL: in = -(ia + ib + ic)
+            rows = (ia, ib, ic)
+            in_sq = sum(gram[:, r, s] for r in rows for s in rows)
+        ve = pw.effective_voltage_4wire(vln_sq, vll_sq)
+        ie = pw.effective_current(iline_sq, in_sq)
+    else:
+        ve = pw.effective_voltage_3wire(vll_sq)
+        ie = pw.effective_current(iline_sq)
+    s_e = 3.0 * ve * ie                                                   # IEEE 1459-2010 Se = 3 Ve Ie
+    cols["P_w"], cols["Q_var"], cols["S_va"] = p_tot, q_tot, s_e
+    cols["PF"] = pw.ratio(p_tot, s_e)
+    if v1 is not None and i1 is not None:
+        p1, q1, dpf = pw.positive_sequence_powers(v1, i1)
+        cols["P1_w"], cols["Q1_var"], cols["DPF"] = p1, q1, dpf
+
+
+def _harmonic_windows(data: np.ndarray, bnd: np.ndarray, k0: int, k1: int, cycle_offset: int,
+                      start_index: int, lay: Layout, st: Settings) -> pd.DataFrame:
+    nh, fs, n = st.harmonic_cycles, st.fs_hz, data.shape[1]
+    g = cycle_offset + np.arange(k1 - k0)
+    ks = k0 + np.flatnonzero(g % nh == 0)
+    ks = ks[ks + nh < bnd.size]
+    if ks.size == 0:
+        return pd.DataFrame()
+    s = np.rint(bnd[ks]).astype(np.int64)
+    length = np.rint(bnd[ks + nh] - bnd[ks]).astype(np.int64)
+    ok = s + length <= n
+    s, length, ks = s[ok], length[ok], ks[ok]
+    if ks.size == 0:
+        return pd.DataFrame()
+    n_ch = data.shape[0]
+    grp = np.full((ks.size, n_ch, hm.MAX_ORDER), np.nan)
+    sub = np.full((ks.size, n_ch, hm.MAX_ORDER), np.nan)
+    for ln in np.unique(length):  # one batched FFT per distinct window length (a few per block)
+        rows = np.flatnonzero(length == ln)
+        idx = s[rows, None] + np.arange(ln)[None, :]
+        c = hm.line_spectra(np.moveaxis(data[:, idx], 0, 1))  # (n_win, n_ch, lines)
+        grp[rows] = hm.groups(c, nh)
+        sub[rows] = hm.subgroups(c, nh)
+    thd = hm.thd_pct(grp)
+    cols: dict[str, Any] = {
+        "t_s": (0.5 * (bnd[ks] + bnd[ks + nh]) + start_index) / fs,
+        "t_start_s": (bnd[ks] + start_index) / fs,
+        "t_end_s": (bnd[ks + nh] + start_index) / fs,
+        "first_cycle": (cycle_offset + ks - k0).astype(np.int64),
+    }
+    for i, lab in enumerate(lay.labels):
+        cols[f"{lab}_thd_pct"] = thd[:, i]
+        for h in range(hm.MAX_ORDER):
+            cols[f"{lab}_h{h + 1}"] = grp[:, i, h]
+        for h in range(hm.MAX_ORDER):
+            cols[f"{lab}_hs{h + 1}"] = sub[:, i, h]
+    return pd.DataFrame(cols)
+
+
+# -- the whole capture ------------------------------------------------------------
+def iter_measure(capture: Capture, chunk_samples: int = DEFAULT_CHUNK_SAMPLES,
+                 nominal_frequency_hz: float | None = None,
+                 overlap_cycles: int = DEFAULT_OVERLAP_CYCLES,
+                 prepared: tuple[Layout, Settings, dict[str, Any]] | None = None,
+                 ) -> Iterator[tuple[pd.DataFrame, pd.DataFrame, pd.DataFrame]]:
+    """Yield ``(cycles, half_cycles, harmonics)`` block by block, in time order.
+
+    Parameters
+    ----------
+    capture : Capture
+    chunk_samples : int
+        Samples owned per block (memory bound) [samples].
+    nominal_frequency_hz : float, optional
+        Overrides ``capture.nominal_frequency_hz`` [Hz].
+    overlap_cycles : int
+        Extra nominal cycles read on each side of a block.
+    """
+    if chunk_samples < 1:
+        raise InvalidParameterError(f"{chunk_samples=} must be positive")
+    lay, st, _ = prepared or prepare(capture, nominal_frequency_hz, overlap_cycles)
+    offset = 0
+    for chunk in capture.iter_chunks(chunk_samples, st.overlap_samples):
+        cyc, half, harm, m = process_block(chunk.data, chunk.start_index, chunk.lead, chunk.trail, offset, lay, st)
+        offset += m
+        if m:
+            yield cyc, half, harm
+
+
+def measure(capture: Capture, chunk_samples: int = DEFAULT_CHUNK_SAMPLES,
+            nominal_frequency_hz: float | None = None,
+            overlap_cycles: int = DEFAULT_OVERLAP_CYCLES) -> Measurements:
+    """Measure every cycle of a capture.
+
+    Parameters
+    ----------
+    capture : Capture
+    chunk_samples : int
+        Samples per block [samples]; the result does not depend on it (to float rounding).
+    nominal_frequency_hz : float, optional
+        50 or 60 [Hz]; default the capture's, else inferred from the zero-crossing rate.
+    overlap_cycles : int
+        Nominal cycles of overlap between blocks (at least 20 is needed for the
+        filter, the frequency median and the 10/12-cycle harmonic windows).
+
+    Returns
+    -------
+    Measurements
+    """
+    prepared = prepare(capture, nominal_frequency_hz, overlap_cycles)
+    parts = list(iter_measure(capture, chunk_samples, nominal_frequency_hz, overlap_cycles, prepared))
+    info = prepared[2]
+    if not parts:
+        empty = pd.DataFrame()
+        return Measurements(empty, empty, empty, info)
+    cycles = pd.concat([p[0] for p in parts], ignore_index=True)
+    half = pd.concat([p[1] for p in parts], ignore_index=True)
+    harm_parts = [p[2] for p in parts if len(p[2])]
+    harm = pd.concat(harm_parts, ignore_index=True) if harm_parts else pd.DataFrame()
+    return Measurements(cycles, half, harm, info)

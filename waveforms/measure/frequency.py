@@ -1,0 +1,138 @@
+"""Frequency tracking: cycle boundaries and the fundamental frequency of each cycle.
+
+The reference signal is the Clarke alpha component of the available phase
+voltages, ``(2 x_a - x_b - x_c) / 3`` (for a balanced set it equals phase A;
+with one phase dead it is still a clean sinusoid carried by the other two),
+falling back to the line currents when the capture has no usable voltage.
+It is low-pass filtered with zero phase (`scipy.signal.sosfiltfilt`, so
+harmonics and noise cannot add zero crossings and the crossings are not
+delayed), and each positive-going zero crossing with enough slope starts a
+cycle.  Where the reference is dead (an interruption, a gap) no crossing
+qualifies; cycles are then laid on a grid of nominal periods counted from the
+capture start, so the table has no holes, and their frequency is NaN.
+
+The frequency of a cycle is the median, over the cycle and two neighbours on
+each side, of ``1 / period``: a phase step moves one zero crossing, and the
+median keeps that one distorted period out of the phasor estimate.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from scipy import signal
+
+#: Cycles whose length is outside this range of the nominal period are not
+#: "tracked" (their frequency is NaN).  +/-30 % covers the +/-5 Hz off-nominal
+#: range of IEC/IEEE 60255-118-1 M class at 50 and 60 Hz with margin.
+PLAUSIBLE_PERIOD_RANGE = (0.7, 1.3)
+#: Grid cycles are laid only where no tracked crossing lies within this
+#: fraction of a nominal period.
+GRID_CLEARANCE = 0.75
+#: Neighbours on each side in the median of the cycle frequency.
+MEDIAN_HALF_WIDTH = 2
+
+
+def reference_coefficients(conductors: list[str]) -> np.ndarray:
+    """Weights of the Clarke alpha component for the phases present (A, B, C order as given).
+
+    Three phases: (2a - b - c)/3; two phases: the one of A (or the first) minus
+    half the other, scaled; one phase: the phase itself.
+
+    References
+    ----------
+    .. [1] E. Clarke, *Circuit Analysis of A-C Power Systems*, Vol. I, Wiley,
+           1943 (alpha-beta-zero components).
+    """
+    n = len(conductors)
+    if n == 3:
+        order = {c: i for i, c in enumerate(conductors)}
+        w = np.zeros(3)
+        w[order["A"]], w[order["B"]], w[order["C"]] = 2.0 / 3.0, -1.0 / 3.0, -1.0 / 3.0  # Clarke alpha [1]
+        return w
+    if n == 2:
+        return np.array([2.0 / 3.0, -1.0 / 3.0])
+    return np.ones(n)
+
+
+def lowpass_sos(fs_hz: float, f_nom_hz: float) -> np.ndarray:
+    """4th-order Butterworth low-pass at twice the nominal frequency (second-order sections)."""
+    cutoff = min(2.0 * f_nom_hz, 0.45 * fs_hz)
+    return signal.butter(4, cutoff, btype="low", fs=fs_hz, output="sos")
+
+
+def filtered_reference(ref: np.ndarray, sos: np.ndarray, pad_samples: int = 0) -> np.ndarray:
+    """Zero-phase low-passed reference; NaN samples count as zero (no crossings there).
+
+    ``pad_samples`` of odd (point-reflected) extension at each end, about two
+    cycles, keep the start-up transient of the filter out of the first crossings.
+    """
+    ref = np.where(np.isfinite(ref), ref, 0.0)
+    if ref.size <= 3 * (2 * sos.shape[0] + 1):
+        return ref
+    padlen = int(min(max(pad_samples, 3 * (2 * sos.shape[0] + 1)), ref.size - 1))
+    return signal.sosfiltfilt(sos, ref, padtype="odd", padlen=padlen)
+
+
+def rising_crossings(ref: np.ndarray, fs_hz: float, min_slope_per_s: float) -> np.ndarray:
+    """Fractional sample positions of positive-going zero crossings with slope >= ``min_slope_per_s``.
+
+    The position is interpolated linearly between the two samples that bracket
+    the crossing (common practice, no source).
+    """
+    i = np.flatnonzero((ref[:-1] < 0.0) & (ref[1:] >= 0.0))
+    d = ref[i + 1] - ref[i]
+    keep = d * fs_hz >= min_slope_per_s
+    i, d = i[keep], d[keep]
+    return i + (-ref[i] / d)
+
+
+def cycle_boundaries(
+    crossings: np.ndarray, n_samples: int, start_index: int, fs_hz: float, f_nom_hz: float
+) -> tuple[np.ndarray, np.ndarray]:
+    """Sorted cycle boundaries (local fractional positions) and whether each is a tracked crossing.
+
+    Grid boundaries sit at ``m * fs / f_nom`` samples from the capture start
+    (``start_index`` is the block's first absolute sample), only where no
+    crossing lies within `GRID_CLEARANCE` nominal periods.
+    """
+    period = fs_hz / f_nom_hz
+    m0 = int(np.ceil(start_index / period))
+    m1 = int(np.floor((start_index + n_samples - 1) / period))
+    grid = np.arange(m0, m1 + 1, dtype=np.float64) * period - start_index
+    if crossings.size:
+        j = np.searchsorted(crossings, grid)
+        left = np.abs(grid - crossings[np.clip(j - 1, 0, crossings.size - 1)])
+        right = np.abs(crossings[np.clip(j, 0, crossings.size - 1)] - grid)
+        grid = grid[np.minimum(left, right) > GRID_CLEARANCE * period]
+    b = np.concatenate([crossings, grid])
+    tracked = np.concatenate([np.ones(crossings.size, bool), np.zeros(grid.size, bool)])
+    order = np.argsort(b, kind="stable")
+    return b[order], tracked[order]
+
+
+def _nan_median_windows(x: np.ndarray, half: int) -> np.ndarray:
+    """Median of ``x[k-half : k+half+1]`` ignoring NaN (NaN when all are NaN); no warnings."""
+    pad = np.concatenate([np.full(half, np.nan), x, np.full(half, np.nan)])
+    win = np.sort(np.lib.stride_tricks.sliding_window_view(pad, 2 * half + 1), axis=1)  # NaN last
+    n_ok = np.isfinite(win).sum(axis=1)
+    lo = np.clip((n_ok - 1) // 2, 0, None)
+    hi = np.clip(n_ok // 2, 0, None)
+    med = 0.5 * (np.take_along_axis(win, lo[:, None], 1)[:, 0] + np.take_along_axis(win, hi[:, None], 1)[:, 0])
+    return np.where(n_ok > 0, med, np.nan)
+
+
+def cycle_frequency(boundaries: np.ndarray, tracked: np.ndarray, fs_hz: float, f_nom_hz: float) -> np.ndarray:
+    """Frequency [Hz] of each cycle ``boundaries[k] -> boundaries[k+1]``; NaN where not tracked.
+
+    Returns one value per cycle (``len(boundaries) - 1``).
+    """
+    length = np.diff(boundaries)
+    nominal = fs_hz / f_nom_hz
+    ok = (
+        tracked[:-1] & tracked[1:]
+        & (length >= PLAUSIBLE_PERIOD_RANGE[0] * nominal)
+        & (length <= PLAUSIBLE_PERIOD_RANGE[1] * nominal)
+    )
+    raw = np.where(ok, fs_hz / np.where(length > 0, length, 1.0), np.nan)
+    med = _nan_median_windows(raw, MEDIAN_HALF_WIDTH)
+    return np.where(ok, med, np.nan)

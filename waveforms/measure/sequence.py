@@ -1,0 +1,64 @@
+"""Symmetrical components (Fortescue) of three phasors, and the phase sequence.
+
+Labels follow the standard matrix: ``X1`` is the A-B-C (positive) rotation,
+``X2`` the A-C-B (negative) rotation, whatever the supply actually does.  A
+supply wired A-C-B therefore shows a large ``V2`` and a small ``V1``, and
+`phase_sequence` reports ``"ACB"``: the labels and the detected sequence
+always agree.
+
+References
+----------
+.. [1] C. L. Fortescue, "Method of Symmetrical Co-ordinates Applied to the
+       Solution of Polyphase Networks", *Trans. AIEE* 37, 1918, pp. 1027-1140.
+.. [2] T. Gonen, *Electric Power Transmission System Engineering*, 2nd ed.,
+       CRC Press, 2009, section 9.2 (matrix form with a = 1 at 120 deg).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+A = np.exp(2j * np.pi / 3.0)  # the operator a = 1 at 120 deg [1]
+#: Analysis matrix: [X0, X1, X2] = FORTESCUE @ [Xa, Xb, Xc] [1], [2].
+FORTESCUE = np.array([[1, 1, 1], [1, A, A * A], [1, A * A, A]]) / 3.0
+
+
+def sequence_components(xa: np.ndarray, xb: np.ndarray, xc: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Zero, positive and negative sequence phasors of three phase phasors (any shape, complex).
+
+    References
+    ----------
+    .. [1] Fortescue 1918; Gonen (2009) eq. (9.12)-(9.14).
+    """
+    x0 = (xa + xb + xc) / 3.0              # Fortescue 1918: X0 = (Xa + Xb + Xc)/3
+    x1 = (xa + A * xb + A * A * xc) / 3.0  # X1 = (Xa + a Xb + a^2 Xc)/3
+    x2 = (xa + A * A * xb + A * xc) / 3.0  # X2 = (Xa + a^2 Xb + a Xc)/3
+    return x0, x1, x2
+
+
+def sequence_from_line_to_line(xab: np.ndarray, xbc: np.ndarray, xca: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Positive and negative sequence, as line-to-neutral equivalents, from line-to-line phasors.
+
+    The line-to-line set has no zero sequence; its positive sequence is
+    ``sqrt(3) at +30 deg`` times the line-to-neutral one and its negative
+    sequence ``sqrt(3) at -30 deg`` times (common practice, no source; follows
+    from Vab = Va - Vb and the definitions of [1]).  The zero sequence of the
+    line-to-neutral voltages cannot be recovered and is not returned.
+    """
+    _, y1, y2 = sequence_components(xab, xbc, xca)
+    k1 = np.sqrt(3.0) * np.exp(1j * np.pi / 6.0)   # Vab1 = sqrt3 e^{+j30} Va1
+    k2 = np.sqrt(3.0) * np.exp(-1j * np.pi / 6.0)  # Vab2 = sqrt3 e^{-j30} Va2
+    return y1 / k1, y2 / k2
+
+
+def phase_sequence(x1: np.ndarray, x2: np.ndarray, margin: float = 2.0) -> np.ndarray:
+    """``"ABC"`` where |X1| > margin |X2|, ``"ACB"`` where |X2| > margin |X1|, else ``""``.
+
+    A factor of 2 (default) keeps a heavily unbalanced or single-phased set from
+    being given a sequence it does not clearly have (common practice, no source).
+    """
+    m1, m2 = np.abs(x1), np.abs(x2)
+    out = np.full(np.shape(m1), "", dtype=object)
+    out[m1 > margin * m2] = "ABC"
+    out[m2 > margin * m1] = "ACB"
+    return out
