@@ -1,0 +1,775 @@
+"""Batch runs: one recipe over a whole archive of captures, in parallel and resumable.
+
+::
+
+    result = run(["archive/"], recipe="triage", out="out/", jobs=2)
+    result.summary          # DataFrame, one row per capture (waveforms.summary columns)
+    result.events           # DataFrame, every event of every capture
+
+How it works:
+
+* `discover` walks folders (recursively, files whose extension an importer
+  claims), expands globs and accepts fsspec URLs (``s3://...``, ``file://...``).
+* Each capture is one task, `process_capture`, run in its own worker process
+  (a `concurrent.futures.ProcessPoolExecutor` forking a fresh child per
+  capture from a pre-loaded server) or on a Dask ``distributed`` cluster.  A
+  task never raises: a capture that cannot be analysed comes back as an error
+  row with the reason.
+* The manifest is one small JSON file per finished capture in
+  ``OUT/manifest/``, written atomically as soon as the result arrives, named
+  by the file's SHA-256, the recipe fingerprint and the nameplate used.  A
+  rerun skips captures whose entry exists (``force=True`` reruns them); an
+  interrupted run (Ctrl-C, a killed worker, a killed main process) loses only
+  the captures still in progress.
+* A worker that dies (killed, out of memory) breaks the process pool; the
+  captures it held are retried one at a time, and the one that kills a worker
+  on its own becomes an error row.
+
+Captures and the output folder must be reachable from every worker under the
+same name: a shared path (NFS, SMB mount) or an fsspec URL.
+"""
+
+from __future__ import annotations
+
+import concurrent.futures as cf
+import contextlib
+import dataclasses
+import glob
+import hashlib
+import json
+import math
+import multiprocessing
+import os
+import re
+import sys
+import tempfile
+import time
+import tomllib
+import traceback
+from collections import deque
+from collections.abc import Callable, Iterable, Sequence
+from pathlib import Path
+from typing import Any
+
+import pandas as pd
+
+from .atomic import write_text
+from .errors import CaptureReadError, InvalidParameterError, WaveformsError
+from .hashing import sha256_file
+from .recipe import Recipe, RunState, load_recipe, run_recipe
+from .summary import error_row, events_frame, summary_frame, summary_row, write_summary
+
+MANIFEST_FOLDER = "manifest"
+CAPTURES_FOLDER = "captures"
+_MANIFEST_FORMAT = "waveforms batch entry"
+_GLOB_CHARS = re.compile(r"[*?\[]")
+#: Modules the fork server imports once, so each fresh worker starts warm.
+_PRELOAD = ["numpy", "scipy.signal", "pandas", "h5py", "waveforms.batch", "waveforms.io.builtin",
+            "waveforms.measure", "waveforms.speed", "waveforms.detect", "waveforms.analysis",
+            "waveforms.report", "waveforms.motor.thermal"]
+
+
+# -- inputs -------------------------------------------------------------------------
+@dataclasses.dataclass(frozen=True)
+class InputFile:
+    """One capture of the archive.
+
+    Parameters
+    ----------
+    path : str
+        Local path or fsspec URL, as workers will open it.
+    name : str
+        How it is shown: its path below the folder given, or the file name.
+    site : str
+        First folder below the folder given, else the file's own folder name.
+    """
+
+    path: str
+    name: str
+    site: str
+
+    @property
+    def is_url(self) -> bool:
+        return "://" in self.path
+
+
+def _capture_extensions() -> set[str]:
+    from .io import importers
+
+    exts = {e.lower() for imp in importers() for e in imp.extensions}
+    return exts or {".h5", ".hdf5", ".csv"}
+
+
+def _wanted(p: Path, exts: set[str]) -> bool:
+    name = p.name
+    return not name.startswith(".") and not name.endswith(".part") and p.suffix.lower() in exts
+
+
+def discover(inputs: Sequence[str | os.PathLike[str]], exclude: Sequence[str | os.PathLike[str]] = ()) -> list[InputFile]:
+    """The capture files named by folders, globs, files and fsspec URLs, sorted, without duplicates.
+
+    A folder is walked recursively and keeps the files whose extension an
+    importer claims (``.h5``, ``.csv``...); a glob or a file named outright is
+    taken whatever its extension.  Paths below ``exclude`` (the output folder)
+    are left out.
+
+    Raises
+    ------
+    InvalidParameterError
+        For an input that names nothing.
+    """
+    exts = _capture_extensions()
+    skip = [Path(e).resolve() for e in exclude]
+    found: dict[str, InputFile] = {}
+
+    def add(path: str, name: str, site: str) -> None:
+        if "://" not in path:
+            rp = Path(path).resolve()
+            if any(rp == s or s in rp.parents for s in skip):
+                return
+            key = str(rp)
+        else:
+            key = path
+        found.setdefault(key, InputFile(path=path, name=name, site=site))
+
+    for raw in inputs:
+        item = os.fspath(raw)
+        if "://" in item:
+            for f in _discover_url(item, exts):
+                add(*f)
+            continue
+        if _GLOB_CHARS.search(item):
+            hits = sorted(glob.glob(item, recursive=True))
+            files = [h for h in hits if Path(h).is_file()]
+            if not files:
+                raise InvalidParameterError(f"{item}: the pattern matches no file")
+            for h in files:
+                add(h, h, Path(h).resolve().parent.name)
+            continue
+        p = Path(item)
+        if p.is_dir():
+            n0 = len(found)
+            for f in sorted(p.rglob("*")):
+                if f.is_file() and _wanted(f, exts) and not any(part.startswith(".") for part in f.relative_to(p).parts):
+                    rel = f.relative_to(p)
+                    site = rel.parts[0] if len(rel.parts) > 1 else p.resolve().name
+                    add(str(f), rel.as_posix(), site)
+            if len(found) == n0 and not any(True for _ in p.rglob("*")):
+                raise InvalidParameterError(f"{item}: the folder is empty")
+        elif p.is_file():
+            add(str(p), p.name, p.resolve().parent.name)
+        else:
+            raise InvalidParameterError(f"{item}: no such file or folder")
+    return sorted(found.values(), key=lambda f: (f.site, f.name, f.path))
+
+
+def _discover_url(url: str, exts: set[str]) -> list[tuple[str, str, str]]:
+    import fsspec
+
+    fs, root = fsspec.core.url_to_fs(url)
+    proto = url.split("://", 1)[0]
+    if _GLOB_CHARS.search(root):
+        paths = [p for p in fs.glob(root) if fs.isfile(p)]
+        base = root.split("*", 1)[0].rsplit("/", 1)[0]
+    elif fs.isdir(root):
+        paths = [p for p in fs.find(root) if Path(p).suffix.lower() in exts]
+        base = root.rstrip("/")
+    else:
+        paths = [root] if fs.exists(root) else []
+        base = root.rsplit("/", 1)[0]
+    if not paths:
+        raise InvalidParameterError(f"{url}: names no capture file")
+    out = []
+    for p in sorted(paths):
+        rel = p[len(base):].lstrip("/") if p.startswith(base) else p.rsplit("/", 1)[-1]
+        parts = rel.split("/")
+        site = parts[0] if len(parts) > 1 else base.rsplit("/", 1)[-1]
+        out.append((f"{proto}://{p}" if not p.startswith(f"{proto}://") else p, rel, site))
+    return out
+
+
+def file_sha256(path: str) -> str:
+    """SHA-256 of a local file or an fsspec URL's bytes."""
+    if "://" not in path:
+        return sha256_file(path)
+    import fsspec
+
+    h = hashlib.sha256()
+    with fsspec.open(path, "rb") as fh:
+        for block in iter(lambda: fh.read(1 << 22), b""):
+            h.update(block)
+    return h.hexdigest()
+
+
+# -- nameplates per site ------------------------------------------------------------------
+@dataclasses.dataclass(frozen=True)
+class MotorMap:
+    """Which nameplate goes with which capture.
+
+    Read from TOML (paths relative to the mapping file)::
+
+        default = "plates/generic_15kw.toml"     # optional
+
+        [[motor]]
+        site = "pump-house"                      # exact site name
+        nameplate = "plates/pump_22kw.toml"
+
+        [[motor]]
+        match = "north-yard/fan*"                # glob on the capture's name
+        nameplate = "plates/fan_7kw.toml"
+
+    The first rule that fits wins; then ``default``; else the nameplate stored
+    in the capture, if any.
+    """
+
+    rules: tuple[tuple[str, str, Any, str], ...]  # (field, pattern, Nameplate, source)
+    default: Any = None
+    default_source: str = ""
+
+    @classmethod
+    def single(cls, path: str | os.PathLike[str]) -> MotorMap:
+        from .motor.nameplate import load_nameplate
+
+        return cls(rules=(), default=load_nameplate(path), default_source=os.fspath(path))
+
+    @classmethod
+    def load(cls, path: str | os.PathLike[str]) -> MotorMap:
+        from .motor.nameplate import load_nameplate
+
+        path = Path(path)
+        try:
+            data = tomllib.loads(path.read_text(encoding="utf-8"))
+        except FileNotFoundError:
+            raise CaptureReadError(path, "", "motor mapping file not found") from None
+        except (tomllib.TOMLDecodeError, UnicodeDecodeError) as e:
+            raise CaptureReadError(path, "", f"not valid TOML ({e})") from None
+        for key in data:
+            if key not in ("default", "motor"):
+                raise CaptureReadError(path, f"key {key}", "unknown key; known keys: ['default', 'motor']")
+        rules = []
+        items = data.get("motor", [])
+        if not isinstance(items, list):
+            raise CaptureReadError(path, "key motor", "must be an array of tables [[motor]]")
+        for i, item in enumerate(items):
+            where = f"motor[{i}]"
+            if not isinstance(item, dict):
+                raise CaptureReadError(path, f"key {where}", "must be a table")
+            extra = sorted(set(item) - {"site", "match", "nameplate"})
+            if extra:
+                raise CaptureReadError(path, f"key {where}.{extra[0]}", "unknown key; known keys: ['match', 'nameplate', 'site']")
+            sel = [k for k in ("site", "match") if k in item]
+            if len(sel) != 1 or not isinstance(item[sel[0]], str):
+                raise CaptureReadError(path, f"key {where}", "give exactly one of site = \"...\" or match = \"glob\"")
+            plate_file = item.get("nameplate")
+            if not isinstance(plate_file, str):
+                raise CaptureReadError(path, f"key {where}.nameplate", "missing; the nameplate TOML file for these captures")
+            full = (path.parent / plate_file)
+            rules.append((sel[0], item[sel[0]], load_nameplate(full), str(full)))
+        default = data.get("default")
+        if default is not None and not isinstance(default, str):
+            raise CaptureReadError(path, "key default", f"{default!r} must be a nameplate file name")
+        plate = None if default is None else load_nameplate(path.parent / default)
+        return cls(rules=tuple(rules), default=plate, default_source="" if default is None else str(path.parent / default))
+
+    def for_input(self, f: InputFile) -> tuple[Any, str]:
+        """(Nameplate or None, where it came from) for one capture."""
+        import fnmatch
+
+        for field, pattern, plate, source in self.rules:
+            if field == "site" and f.site == pattern:
+                return plate, source
+            if field == "match" and (fnmatch.fnmatchcase(f.name, pattern) or fnmatch.fnmatchcase(f.path, pattern)):
+                return plate, source
+        return self.default, self.default_source
+
+
+def _plate_digest(plate: Any) -> str:
+    if plate is None:
+        return "none"
+    d = plate.to_dict()
+    d.pop("warnings", None)
+    return hashlib.sha256(json.dumps(d, sort_keys=True, default=str).encode()).hexdigest()[:12]
+
+
+# -- one capture (runs in a worker) ---------------------------------------------------------
+@dataclasses.dataclass(frozen=True)
+class CaptureTask:
+    """Everything a worker needs for one capture (plain, picklable data)."""
+
+    input: InputFile
+    sha256: str
+    key: str
+    recipe: Recipe
+    nameplate: dict[str, Any] | None
+    nameplate_source: str
+    out_dir: str | None
+    out_root: str | None
+
+
+def _safe_name(name: str) -> str:
+    s = re.sub(r"[^A-Za-z0-9._-]+", "_", name.replace("/", "__")).strip("._")
+    return (s or "capture")[:80]
+
+
+def capture_folder(f: InputFile, sha256: str) -> str:
+    """Folder name (below ``OUT/captures``) of one capture's outputs."""
+    return f"{_safe_name(f.name)}-{sha256[:10]}"
+
+
+@contextlib.contextmanager
+def _local_copy(path: str):
+    """A local file for ``path``: itself, or a cached download of an fsspec URL."""
+    if "://" not in path:
+        yield path
+        return
+    import fsspec
+
+    with tempfile.TemporaryDirectory(prefix="waveforms-") as tmp:
+        local = fsspec.open_local(f"simplecache::{path}", simplecache={"cache_storage": tmp})
+        yield local
+
+
+def process_capture(task: CaptureTask) -> dict[str, Any]:
+    """Run the recipe on one capture and return its manifest entry; never raises.
+
+    The entry holds the summary ``row`` and the ``events`` (list of records).
+    A capture that cannot be analysed gives ``row["status"] == "error"`` and the
+    reason in ``row["error"]``: the package's own one-line message for a bad
+    input, or the exception type and text (plus the last frame) for anything else.
+    """
+    t0 = time.perf_counter()
+    f = task.input
+    extra: dict[str, Any] = {"path": f.path, "sha256": task.sha256, "recipe": task.recipe.name,
+                             "recipe_hash": task.recipe.fingerprint()[:16]}
+    if task.out_dir and task.out_root:
+        extra["outputs"] = os.path.relpath(task.out_dir, task.out_root)
+    try:
+        plate = None
+        if task.nameplate is not None:
+            from .motor.nameplate import Nameplate
+
+            plate = Nameplate.from_dict({k: v for k, v in task.nameplate.items() if k != "warnings"}, task.nameplate_source)
+        with _local_copy(f.path) as local:
+            state = run_recipe(task.recipe, local, nameplate=plate, out_dir=task.out_dir,
+                               nameplate_source=task.nameplate_source)
+        report = state.outputs.get("html", "")
+        if report and task.out_root:
+            extra["report"] = os.path.relpath(report, task.out_root)
+        extra["elapsed_s"] = time.perf_counter() - t0
+        row = summary_row(state, f.name, f.site, extra)
+        events = _records(events_frame(state.events))
+        _close(state)
+    except WaveformsError as e:
+        extra["elapsed_s"] = time.perf_counter() - t0
+        row, events = error_row(f.name, f.site, str(e), extra), []
+    except MemoryError:
+        extra["elapsed_s"] = time.perf_counter() - t0
+        row, events = error_row(f.name, f.site, "out of memory while analysing this capture", extra), []
+    except Exception as e:  # failure isolation: any bug becomes this capture's error row
+        tb = traceback.extract_tb(e.__traceback__)
+        where = f" (at {Path(tb[-1].filename).name}:{tb[-1].lineno})" if tb else ""
+        extra["elapsed_s"] = time.perf_counter() - t0
+        row, events = error_row(f.name, f.site, f"{type(e).__name__}: {e}{where}", extra), []
+    return {"format": _MANIFEST_FORMAT, "key": task.key, "row": row, "events": events}
+
+
+def _close(state: RunState) -> None:
+    src = getattr(state.capture, "source", None)
+    if hasattr(src, "close"):
+        with contextlib.suppress(Exception):
+            src.close()
+
+
+def _records(frame: pd.DataFrame) -> list[dict[str, Any]]:
+    recs = frame.to_dict("records")
+    return [{k: (None if isinstance(v, float) and not math.isfinite(v) else v) for k, v in r.items()} for r in recs]
+
+
+# -- the manifest -----------------------------------------------------------------------------
+def _entry_path(out: Path, key: str) -> Path:
+    return out / MANIFEST_FOLDER / f"{key}.json"
+
+
+def read_manifest(out: str | os.PathLike[str]) -> dict[str, dict[str, Any]]:
+    """Finished entries of an output folder, by key (unreadable entries are ignored: they rerun)."""
+    folder = Path(out) / MANIFEST_FOLDER
+    entries: dict[str, dict[str, Any]] = {}
+    if not folder.is_dir():
+        return entries
+    for p in folder.glob("*.json"):
+        try:
+            e = json.loads(p.read_text(encoding="utf-8"))
+        except (OSError, ValueError):
+            continue
+        if isinstance(e, dict) and e.get("format") == _MANIFEST_FORMAT and e.get("key") == p.stem:
+            entries[p.stem] = e
+    return entries
+
+
+def _write_entry(out: Path, entry: dict[str, Any]) -> None:
+    write_text(_entry_path(out, entry["key"]), json.dumps(entry, allow_nan=True, default=str))
+
+
+# -- the run ---------------------------------------------------------------------------------
+@dataclasses.dataclass
+class BatchResult:
+    """Outcome of `run`.
+
+    Attributes
+    ----------
+    summary : DataFrame
+        One row per capture (`waveforms.summary.SUMMARY_COLUMNS`), in input order.
+    events : DataFrame
+        Every event: ``file``, ``site``, then the event columns.
+    n_done, n_skipped, n_failed : int
+        Analysed in this run, taken from the manifest, with an error row.
+    interrupted : bool
+        True when the run was stopped (Ctrl-C) before every capture was done.
+    out : Path or None
+    files : dict
+        ``summary.csv``, ``summary.parquet``, ``index.html`` paths when written.
+    """
+
+    summary: pd.DataFrame
+    events: pd.DataFrame
+    n_done: int = 0
+    n_skipped: int = 0
+    n_failed: int = 0
+    interrupted: bool = False
+    out: Path | None = None
+    files: dict[str, Path] = dataclasses.field(default_factory=dict)
+
+    @property
+    def ok(self) -> bool:
+        return self.n_failed == 0 and not self.interrupted
+
+
+def run(
+    inputs: Sequence[str | os.PathLike[str]] | str | os.PathLike[str],
+    recipe: Recipe | str | os.PathLike[str] | None = None,
+    out: str | os.PathLike[str] | None = None,
+    jobs: int | None = None,
+    motor: str | os.PathLike[str] | None = None,
+    motors: str | os.PathLike[str] | None = None,
+    force: bool = False,
+    retry_errors: bool = False,
+    scheduler: Any = None,
+    progress: bool = False,
+    on_result: Callable[[dict[str, Any]], None] | None = None,
+) -> BatchResult:
+    """Run a recipe over an archive of captures.
+
+    Parameters
+    ----------
+    inputs : path, glob, fsspec URL, or a list of them
+    recipe : Recipe, shipped name, file or None (default recipe)
+    out : path-like, optional
+        Output folder: per-capture outputs in ``captures/``, the manifest, the
+        summary files.  Without one nothing is written and nothing resumes.
+    jobs : int, optional
+        Worker processes; default the recipe's ``batch.jobs``, 0 = CPU count.
+    motor : path-like, optional
+        One nameplate TOML for every capture.
+    motors : path-like, optional
+        A mapping of sites / name patterns to nameplates (`MotorMap`).
+    force : bool
+        Rerun captures already in the manifest.
+    retry_errors : bool
+        Rerun captures whose manifest entry is an error row.
+    scheduler : str or distributed.Client, optional
+        Dask scheduler address (or a client); default the recipe's
+        ``batch.scheduler``; empty = local worker processes.
+    progress : bool
+        Show a progress bar on stderr.
+    on_result : callable, optional
+        Called in the main process with each new entry (after it is saved).
+
+    Returns
+    -------
+    BatchResult
+    """
+    rec = load_recipe(recipe)
+    if isinstance(inputs, (str, os.PathLike)):
+        inputs = [inputs]
+    if motor is not None and motors is not None:
+        raise InvalidParameterError("give either motor (one nameplate for all) or motors (a mapping), not both")
+    mmap = MotorMap.single(motor) if motor is not None else MotorMap.load(motors) if motors is not None else MotorMap(rules=())
+    out_path = None if out is None else Path(out)
+    files = discover(inputs, exclude=[out_path] if out_path is not None else [])
+    if not files:
+        raise InvalidParameterError(f"no capture files found in {[os.fspath(i) for i in inputs]}")
+    n_jobs = rec.batch.get("jobs", 0) if jobs is None else int(jobs)
+    if n_jobs < 0:
+        raise InvalidParameterError(f"jobs={n_jobs} must be 0 (one per core) or more")
+    n_jobs = n_jobs or (os.cpu_count() or 1)
+    sched = rec.batch.get("scheduler", "") if scheduler is None else scheduler
+
+    if out_path is not None:
+        out_path.mkdir(parents=True, exist_ok=True)
+    done = read_manifest(out_path) if out_path is not None else {}
+    hashes = _hash_all([f.path for f in files], n_jobs)
+    fp = rec.fingerprint()
+    tasks: list[CaptureTask] = []
+    keys: list[str] = []
+    todo: list[CaptureTask] = []
+    seen_keys: set[str] = set()
+    for f, sha in zip(files, hashes, strict=True):
+        plate, plate_src = mmap.for_input(f)
+        key = f"{sha[:32]}-{fp[:12]}-{_plate_digest(plate)[:8]}"
+        cap_dir = None if out_path is None else str(out_path / CAPTURES_FOLDER / capture_folder(f, sha))
+        t = CaptureTask(input=f, sha256=sha, key=key, recipe=rec, nameplate=None if plate is None else plate.to_dict(),
+                        nameplate_source=plate_src, out_dir=cap_dir, out_root=None if out_path is None else str(out_path))
+        tasks.append(t)
+        keys.append(key)
+        prior = done.get(key)
+        fresh = (prior is None or force or prior.get("retry", False)
+                 or (retry_errors and prior["row"].get("status") == "error"))
+        if fresh and key not in seen_keys:
+            todo.append(t)
+            seen_keys.add(key)
+    n_skipped = len({t.key for t in tasks} - seen_keys)
+    new: dict[str, dict[str, Any]] = {}
+
+    bar = _progress(len(todo), progress)
+    n_failed_new = 0
+
+    def collect(entry: dict[str, Any]) -> None:
+        nonlocal n_failed_new
+        if out_path is not None:
+            _write_entry(out_path, entry)
+        new[entry["key"]] = entry
+        if entry["row"].get("status") == "error":
+            n_failed_new += 1
+        if bar is not None:
+            bar.update(1)
+            bar.set_postfix(failed=n_failed_new, refresh=False)
+        if on_result is not None:
+            on_result(entry)
+
+    interrupted = False
+    try:
+        if sched:
+            _run_dask(todo, sched, collect)
+        else:
+            _run_local(todo, n_jobs, collect)
+    except KeyboardInterrupt:
+        interrupted = True
+    finally:
+        if bar is not None:
+            bar.close()
+
+    entries = {**done, **new}
+    rows, ev_frames = [], []
+    for t, key in zip(tasks, keys, strict=True):
+        e = entries.get(key)
+        if e is None:
+            continue  # not finished (interrupted)
+        row = dict(e["row"])
+        row.update(file=t.input.name, site=t.input.site, path=t.input.path)
+        rows.append(row)
+        if e.get("events"):
+            fr = pd.DataFrame.from_records(e["events"])
+            fr.insert(0, "site", t.input.site)
+            fr.insert(0, "file", t.input.name)
+            ev_frames.append(fr)
+    summary = summary_frame(rows)
+    events = pd.concat(ev_frames, ignore_index=True) if ev_frames else _empty_events()
+    written: dict[str, Path] = {}
+    if out_path is not None:
+        written = write_summary(summary, out_path, title=f"Capture summary: recipe {rec.name}")
+        index = {"format": "waveforms batch manifest", "recipe": rec.name, "recipe_fingerprint": fp,
+                 "recipe_source": rec.source, "complete": not interrupted,
+                 "captures": [{"file": t.input.name, "path": t.input.path, "key": k, "done": k in entries}
+                              for t, k in zip(tasks, keys, strict=True)]}
+        write_text(out_path / "manifest.json", json.dumps(index, indent=1))
+    n_failed = int((summary["status"] == "error").sum()) if len(summary) else 0
+    return BatchResult(summary=summary, events=events, n_done=len(new), n_skipped=n_skipped, n_failed=n_failed,
+                       interrupted=interrupted, out=out_path, files=written)
+
+
+def _empty_events() -> pd.DataFrame:
+    fr = events_frame([])
+    fr.insert(0, "site", pd.Series(dtype=object))
+    fr.insert(0, "file", pd.Series(dtype=object))
+    return fr
+
+
+def _hash_all(paths: Sequence[str], n_threads: int) -> list[str]:
+    def one(p: str) -> str:
+        try:
+            return file_sha256(p)
+        except OSError as e:
+            # an unreadable file still gets a row: key it by its path, it will fail in the worker
+            return "unreadable-" + hashlib.sha256(f"{p}:{e}".encode()).hexdigest()
+
+    with cf.ThreadPoolExecutor(max_workers=max(1, min(8, n_threads))) as ex:
+        return list(ex.map(one, paths))
+
+
+def _progress(total: int, enabled: bool) -> Any:
+    if not enabled:
+        return None
+    from tqdm import tqdm
+
+    return tqdm(total=total, desc="captures", unit="file", file=sys.stderr, dynamic_ncols=True,
+                postfix={"failed": 0}, smoothing=0.1)
+
+
+# -- executors -------------------------------------------------------------------------------
+def _mp_context() -> multiprocessing.context.BaseContext:
+    ctx = multiprocessing.get_context("forkserver")
+    ctx.set_forkserver_preload(_PRELOAD)
+    return ctx
+
+
+def _crash_entry(task: CaptureTask, why: str) -> dict[str, Any]:
+    f = task.input
+    row = error_row(f.name, f.site, why, {"path": f.path, "sha256": task.sha256, "recipe": task.recipe.name,
+                                          "recipe_hash": task.recipe.fingerprint()[:16]})
+    # "retry": the failure says nothing about the file itself, so a rerun tries again
+    return {"format": _MANIFEST_FORMAT, "key": task.key, "row": row, "events": [], "retry": True}
+
+
+def _run_local(todo: Sequence[CaptureTask], jobs: int, collect: Callable[[dict[str, Any]], None]) -> None:
+    """Run tasks in a process pool, one fresh worker process per capture.
+
+    At most ``jobs`` tasks are in flight.  When the pool breaks (a worker
+    killed), the tasks it held are retried alone; one that breaks the pool
+    when alone is recorded as an error row.
+    """
+    if not todo:
+        return
+    queue: deque[CaptureTask] = deque(todo)
+    suspects: deque[CaptureTask] = deque()
+    pool: cf.ProcessPoolExecutor | None = None
+    inflight: dict[cf.Future[dict[str, Any]], tuple[CaptureTask, bool]] = {}
+    try:
+        while queue or suspects or inflight:
+            if pool is None:
+                pool = cf.ProcessPoolExecutor(max_workers=min(jobs, len(queue) + len(suspects)) or 1,
+                                              mp_context=_mp_context(), max_tasks_per_child=1)
+            if suspects:
+                if not inflight:
+                    t = suspects.popleft()
+                    inflight[pool.submit(process_capture, t)] = (t, True)
+            else:
+                while queue and len(inflight) < jobs:
+                    t = queue.popleft()
+                    inflight[pool.submit(process_capture, t)] = (t, False)
+            finished, _ = cf.wait(list(inflight), return_when=cf.FIRST_COMPLETED)
+            broken = False
+            for fut in finished:
+                t, alone = inflight.pop(fut)
+                try:
+                    entry = fut.result()
+                except cf.process.BrokenProcessPool:
+                    broken = True
+                    if alone:
+                        collect(_crash_entry(t, "the worker process died while analysing this capture "
+                                                "(killed, or out of memory?)"))
+                    else:
+                        suspects.append(t)
+                except Exception as e:  # e.g. a result that cannot be sent back
+                    collect(_crash_entry(t, f"{type(e).__name__}: {e}"))
+                else:
+                    collect(entry)
+            if broken:
+                for fut in cf.as_completed(list(inflight)):
+                    t, _alone = inflight.pop(fut)
+                    try:
+                        collect(fut.result())
+                    except Exception:
+                        suspects.append(t)
+                pool.shutdown(wait=False, cancel_futures=True)
+                pool = None
+    except BaseException:
+        if pool is not None:
+            _kill_pool(pool)
+            pool = None
+        raise
+    finally:
+        if pool is not None:
+            pool.shutdown(wait=True)
+
+
+def _kill_pool(pool: cf.ProcessPoolExecutor) -> None:
+    """Stop a pool now: cancel what is queued and end the running workers (Ctrl-C)."""
+    procs = list(getattr(pool, "_processes", {}).values())
+    pool.shutdown(wait=False, cancel_futures=True)
+    for p in procs:
+        with contextlib.suppress(Exception):
+            p.terminate()
+    for p in procs:
+        with contextlib.suppress(Exception):
+            p.join(timeout=5)
+
+
+def _run_dask(todo: Sequence[CaptureTask], scheduler: Any, collect: Callable[[dict[str, Any]], None]) -> None:
+    """Run the same task function on a Dask distributed cluster."""
+    if not todo:
+        return
+    try:
+        from distributed import Client, as_completed
+    except ImportError:
+        raise InvalidParameterError("scheduler given but the 'distributed' package is not installed") from None
+    own = not isinstance(scheduler, Client)
+    try:
+        client = Client(scheduler, set_as_default=False) if own else scheduler
+    except OSError as e:
+        raise InvalidParameterError(f"scheduler {scheduler!r}: cannot connect ({e})") from None
+    futures = []
+    try:
+        futures = [client.submit(process_capture, t, key=f"waveforms-capture-{t.key}-{os.getpid()}-{i}", pure=False)
+                   for i, t in enumerate(todo)]
+        by_key = {f.key: t for f, t in zip(futures, todo, strict=True)}
+        for fut in as_completed(futures):
+            t = by_key[fut.key]
+            try:
+                entry = fut.result()
+            except Exception as e:  # e.g. KilledWorker: the capture killed its workers
+                entry = _crash_entry(t, f"{type(e).__name__}: {e}")
+            collect(entry)
+            fut.release()
+    except BaseException:
+        client.cancel(futures)
+        raise
+    finally:
+        if own:
+            client.close()
+
+
+# -- one capture, for notebooks --------------------------------------------------------------------
+@dataclasses.dataclass
+class CaptureResult:
+    """Pandas views of one capture's run (see `run_one`)."""
+
+    summary: pd.Series
+    events: pd.DataFrame
+    cycles: pd.DataFrame | None
+    speed: pd.DataFrame | None
+    state: RunState
+
+
+def run_one(
+    capture: Any,
+    recipe: Recipe | str | os.PathLike[str] | None = None,
+    nameplate: Any = None,
+    out_dir: str | os.PathLike[str] | None = None,
+) -> CaptureResult:
+    """Run a recipe on one capture in this process and return pandas objects.
+
+    Errors are raised (not turned into rows) so a notebook shows them.
+    """
+    state = run_recipe(recipe, capture, nameplate=nameplate, out_dir=out_dir)
+    name = Path(state.source).name
+    rec = load_recipe(recipe)
+    row = summary_row(state, name, Path(state.source).resolve().parent.name if "://" not in state.source else "",
+                      {"path": state.source, "recipe": rec.name, "recipe_hash": rec.fingerprint()[:16],
+                       "report": state.outputs.get("html", ""), "sha256": getattr(state.capture.provenance, "sha256", "")})
+    return CaptureResult(summary=summary_frame([row]).iloc[0], events=state.events_frame(), cycles=state.cycles,
+                         speed=state.speed, state=state)
+
+
+def iter_inputs(inputs: Iterable[str]) -> list[str]:
+    """Paths of the captures `discover` finds (for a quick look before a run)."""
+    return [f.path for f in discover(list(inputs))]

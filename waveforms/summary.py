@@ -1,0 +1,270 @@
+"""The archive summary: one row per capture, as CSV, Parquet and a sortable HTML index.
+
+A row says where the capture came from (file, site), when it starts and how
+long it is, the verdict, how many events of each kind were found and when the
+first of each began, the worst current unbalance I2/I1, the largest line
+current in multiples of the nameplate FLA, the thermal capacity used, and the
+error when the capture could not be analysed.  Column names and meanings are
+listed in docs/batch.md.
+
+Rows are computed in the worker from a finished `waveforms.recipe.RunState`
+(`summary_row`) or from a failure (`error_row`); `summary_frame` puts them in
+a fixed column order; `write_summary` writes the three files atomically.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import html
+import io
+import math
+import os
+import urllib.parse
+from collections.abc import Iterable, Mapping, Sequence
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from .atomic import atomic_path, write_text
+from .detect.event import EVENT_KINDS  # the detectors' list is the one list of event kinds
+
+#: Verdict shown for a capture that could not be analysed.
+ERROR_VERDICT = "error"
+
+_HEAD = ["file", "site", "status", "verdict", "start", "duration_s"]
+_EVENT_COLS = [c for k in EVENT_KINDS for c in (f"n_{k}", f"first_{k}_s")]
+_TAIL = ["worst_i2_i1_pct", "max_current_x_fla", "thermal_capacity_used_pct", "nameplate", "error",
+         "report", "outputs", "path", "sha256", "recipe", "recipe_hash", "elapsed_s", "notes"]
+#: Summary columns, in order.
+SUMMARY_COLUMNS: tuple[str, ...] = tuple(_HEAD + _EVENT_COLS + _TAIL)
+_FLOAT_COLS = {"duration_s", "worst_i2_i1_pct", "max_current_x_fla", "thermal_capacity_used_pct", "elapsed_s"} | {
+    f"first_{k}_s" for k in EVENT_KINDS}
+_INT_COLS = {f"n_{k}" for k in EVENT_KINDS}
+
+
+# -- events --------------------------------------------------------------------------
+def _event_record(ev: Any) -> dict[str, Any]:
+    if dataclasses.is_dataclass(ev) and not isinstance(ev, type):
+        raw = {f.name: getattr(ev, f.name) for f in dataclasses.fields(ev)}
+    elif isinstance(ev, Mapping):
+        raw = dict(ev)
+    else:
+        raw = {k: v for k, v in vars(ev).items() if not k.startswith("_")}
+    out: dict[str, Any] = {}
+    for k, v in raw.items():
+        if isinstance(v, (np.generic,)):
+            v = v.item()
+        if v is None or isinstance(v, (str, bool, int, float)):
+            out[k] = v
+        elif isinstance(v, Mapping):  # supporting figures: flatten one level of scalars
+            for k2, v2 in v.items():
+                if isinstance(v2, np.generic):
+                    v2 = v2.item()
+                if v2 is None or isinstance(v2, (str, bool, int, float)):
+                    out[f"{k}.{k2}"] = v2
+    return out
+
+
+def events_frame(events: Iterable[Any]) -> pd.DataFrame:
+    """Events as a DataFrame: ``kind``, ``phase``, ``start_s``, ``end_s`` first, then scalar figures.
+
+    Accepts event dataclasses, plain objects or mappings; nested mappings of
+    supporting figures are flattened one level (``figures.i2_i1_pct``).
+    """
+    recs = [_event_record(e) for e in events]
+    base = ["kind", "phase", "start_s", "end_s"]
+    if not recs:
+        return pd.DataFrame({c: pd.Series(dtype=object if c in ("kind", "phase") else float) for c in base})
+    frame = pd.DataFrame.from_records(recs)
+    for c in base:
+        if c not in frame:
+            frame[c] = None
+    for c in ("start_s", "end_s"):
+        frame[c] = pd.to_numeric(frame[c], errors="coerce").astype(float)
+    return frame[base + [c for c in frame.columns if c not in base]]
+
+
+# -- rows --------------------------------------------------------------------------------
+def _finite_max(values: Any) -> float:
+    arr = np.asarray(values, dtype=float)
+    arr = arr[np.isfinite(arr)]
+    return float(arr.max()) if arr.size else math.nan
+
+
+def summary_row(state: Any, file: str, site: str, extra: Mapping[str, Any] | None = None) -> dict[str, Any]:
+    """The summary row of one analysed capture.
+
+    Parameters
+    ----------
+    state : waveforms.recipe.RunState
+        After the recipe ran.
+    file, site : str
+        How the capture is named in the archive, and its site.
+    extra : mapping, optional
+        Further columns (path, sha256, recipe, recipe_hash, elapsed_s, report...).
+
+    Notes
+    -----
+    ``worst_i2_i1_pct`` is the largest per-cycle ``I2_I1_pct`` of the cycle
+    table; ``max_current_x_fla`` the largest per-cycle line RMS current
+    (``Ia_rms``, ``Ib_rms``, ``Ic_rms``) divided by the nameplate FLA (NaN
+    without a nameplate); ``thermal_capacity_used_pct`` the thermal stage's
+    peak ``theta_motor_pct``.  NaN means "not computed", never zero.
+    """
+    row: dict[str, Any] = {c: None for c in SUMMARY_COLUMNS}
+    row.update(file=file, site=site, status="ok", verdict=state.verdict or "", error="")
+    cap = state.capture
+    if cap is not None:
+        row["start"] = cap.start_time.isoformat()
+        row["duration_s"] = float(cap.duration_s)
+    ev = events_frame(state.events)
+    detected = "detect" in state.timings_s
+    for k in EVENT_KINDS:
+        sel = ev[ev["kind"] == k]
+        row[f"n_{k}"] = int(len(sel)) if detected else None
+        row[f"first_{k}_s"] = float(sel["start_s"].min()) if len(sel) else math.nan
+    cycles = state.cycles
+    row["worst_i2_i1_pct"] = math.nan
+    row["max_current_x_fla"] = math.nan
+    if cycles is not None and len(cycles):
+        if "I2_I1_pct" in cycles:
+            row["worst_i2_i1_pct"] = _finite_max(cycles["I2_I1_pct"])
+        lines = [f"I{c}_rms" for c in "abc" if f"I{c}_rms" in cycles]
+        if lines and state.nameplate is not None:
+            row["max_current_x_fla"] = _finite_max(cycles[lines].to_numpy(float)) / float(state.nameplate.fla_a)
+    th = state.thermal
+    used = None if th is None else th.summary.get("thermal_capacity_used_pct")
+    row["thermal_capacity_used_pct"] = math.nan if used is None else float(used)
+    if state.nameplate is not None:
+        row["nameplate"] = (getattr(state.nameplate, "name", "") or state.nameplate_source or "given")
+    else:
+        row["nameplate"] = ""
+    row["notes"] = "; ".join(state.notes)
+    if extra:
+        row.update({k: v for k, v in extra.items() if k in row})
+    return row
+
+
+def error_row(file: str, site: str, error: str, extra: Mapping[str, Any] | None = None) -> dict[str, Any]:
+    """The summary row of a capture that could not be analysed (``status`` "error", the reason in ``error``)."""
+    row: dict[str, Any] = {c: None for c in SUMMARY_COLUMNS}
+    row.update(file=file, site=site, status="error", verdict=ERROR_VERDICT, error=error, notes="")
+    for k in EVENT_KINDS:
+        row[f"first_{k}_s"] = math.nan
+    if extra:
+        row.update({k: v for k, v in extra.items() if k in row})
+    return row
+
+
+def summary_frame(rows: Sequence[Mapping[str, Any]]) -> pd.DataFrame:
+    """Rows in the fixed column order, numbers as floats / nullable integers, text as strings."""
+    frame = pd.DataFrame.from_records([{c: r.get(c) for c in SUMMARY_COLUMNS} for r in rows], columns=list(SUMMARY_COLUMNS))
+    for c in SUMMARY_COLUMNS:
+        if c in _FLOAT_COLS:
+            frame[c] = pd.to_numeric(frame[c], errors="coerce").astype("float64")
+        elif c in _INT_COLS:
+            frame[c] = pd.to_numeric(frame[c], errors="coerce").astype("Int64")
+        else:
+            frame[c] = frame[c].fillna("").astype(str)
+    return frame
+
+
+# -- files ---------------------------------------------------------------------------
+def write_summary(frame: pd.DataFrame, out_dir: str | os.PathLike[str], title: str = "Capture summary") -> dict[str, Path]:
+    """Write ``summary.csv``, ``summary.parquet`` and ``index.html`` into ``out_dir``, atomically."""
+    out = Path(out_dir)
+    paths = {"csv": out / "summary.csv", "parquet": out / "summary.parquet", "html": out / "index.html"}
+    buf = io.StringIO()
+    frame.to_csv(buf, index=False)
+    write_text(paths["csv"], buf.getvalue())
+    with atomic_path(paths["parquet"]) as tmp:
+        frame.to_parquet(tmp, index=False)
+    write_text(paths["html"], index_html(frame, title))
+    return paths
+
+
+def _fmt(value: Any, col: str) -> str:
+    if value is None or value is pd.NA or (isinstance(value, float) and not math.isfinite(value)):
+        return ""
+    if col in _FLOAT_COLS:
+        return f"{float(value):.3f}" if col.endswith("_s") else f"{float(value):.2f}"
+    return str(value)
+
+
+_SHOWN = ["file", "site", "verdict", "start", "duration_s"] + _EVENT_COLS + [
+    "worst_i2_i1_pct", "max_current_x_fla", "thermal_capacity_used_pct", "error"]
+
+_CSS = """
+body{font-family:sans-serif;margin:1.5em;color:#222}
+table{border-collapse:collapse;font-size:13px}
+th,td{border:1px solid #bbb;padding:3px 6px;text-align:left;vertical-align:top}
+th{background:#eee;cursor:pointer;position:sticky;top:0}
+td.n{text-align:right;font-variant-numeric:tabular-nums}
+tr.error td{background:#fbeaea}
+.caution{font-size:12px;color:#555;max-width:60em}
+"""
+
+# Our own few lines: sort on a header click (numbers numerically, blanks last), filter by verdict.
+_JS = """
+(function(){
+var tbody=document.getElementById('rows'), sel=document.getElementById('verdict'), txt=document.getElementById('text');
+function key(td){var v=td.getAttribute('data-v');if(v===null||v==='')return null;var x=Number(v);return isNaN(x)?v.toLowerCase():x;}
+var dir={};
+document.querySelectorAll('th[data-col]').forEach(function(th){th.addEventListener('click',function(){
+ var i=Number(th.getAttribute('data-col'));dir[i]=!dir[i];var up=dir[i]?1:-1;
+ var rows=Array.prototype.slice.call(tbody.rows);
+ rows.sort(function(a,b){var x=key(a.cells[i]),y=key(b.cells[i]);
+  if(x===null&&y===null)return 0;if(x===null)return 1;if(y===null)return -1;
+  if(typeof x!==typeof y){x=String(x);y=String(y);}return x<y?-up:x>y?up:0;});
+ rows.forEach(function(r){tbody.appendChild(r);});});});
+function filt(){var v=sel.value,t=txt.value.toLowerCase(),n=0;
+ Array.prototype.forEach.call(tbody.rows,function(r){
+  var ok=(v===''||r.getAttribute('data-verdict')===v)&&(t===''||r.textContent.toLowerCase().indexOf(t)>=0);
+  r.style.display=ok?'':'none';if(ok)n++;});
+ document.getElementById('count').textContent=n;}
+sel.addEventListener('change',filt);txt.addEventListener('input',filt);filt();
+})();
+"""
+
+
+def index_html(frame: pd.DataFrame, title: str = "Capture summary") -> str:
+    """A self-contained HTML table of the summary: sortable columns, a verdict filter, links to reports.
+
+    Every file name, site, verdict and error text is HTML-escaped; links are
+    URL-quoted relative paths.
+    """
+    esc = html.escape
+    verdicts = sorted({str(v) for v in frame["verdict"]})
+    opts = "".join(f'<option value="{esc(v)}">{esc(v or "(none)")}</option>' for v in verdicts)
+    head = "".join(f'<th data-col="{i}" title="click to sort">{esc(c)}</th>' for i, c in enumerate(_SHOWN))
+    body = []
+    for rec in frame.to_dict("records"):
+        cells = []
+        for c in _SHOWN:
+            val = rec.get(c)
+            shown = _fmt(val, c)
+            num = c in _FLOAT_COLS or c in _INT_COLS
+            sort_v = shown if not num else ("" if shown == "" else repr(float(val)))
+            inner = esc(shown)
+            if c == "file" and rec.get("report"):
+                href = urllib.parse.quote(str(rec["report"]), safe="/")
+                inner = f'<a href="{esc(href, quote=True)}">{inner}</a>'
+            cells.append(f'<td{" class=n" if num else ""} data-v="{esc(sort_v, quote=True)}">{inner}</td>')
+        cls = ' class="error"' if rec.get("status") == "error" else ""
+        body.append(f'<tr{cls} data-verdict="{esc(str(rec.get("verdict", "")), quote=True)}">{"".join(cells)}</tr>')
+    n_err = int((frame["status"] == "error").sum()) if len(frame) else 0
+    return (
+        "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
+        f"<title>{esc(title)}</title><style>{_CSS}</style></head><body>\n"
+        f"<h1>{esc(title)}</h1>\n"
+        f"<p>{len(frame)} captures, {n_err} could not be analysed. Showing <span id=\"count\">{len(frame)}</span>.</p>\n"
+        f'<p><label>verdict <select id="verdict"><option value="">all</option>{opts}</select></label> '
+        '<label>contains <input id="text" type="search"></label></p>\n'
+        f"<table><thead><tr>{head}</tr></thead><tbody id=\"rows\">\n" + "\n".join(body) + "\n</tbody></table>\n"
+        '<p class="caution">Times are seconds from each capture\'s start. This summary informs an investigation; '
+        "it does not replace protective devices. Work on energized equipment only by qualified people, "
+        "following local electrical codes and licensed practice.</p>\n"
+        f"<script>{_JS}</script>\n</body></html>\n"
+    )
