@@ -6,11 +6,19 @@ Public API:
 * `window_detail` -- the full result of one window (spectrum, bands, peaks), for `plot_spectrum`.
 * `SpeedSettings` -- the search parameters.
 * `acceleration_interval`, `slowdown_interval` -- transient times from the per-cycle RMS current.
-* `rotation_direction`, `sequence_from_waveforms`, `fortescue` -- phase sequence and rotation.
+* `track_transient` -- short windows over a start or slowdown, searching all slips.
+* `rotation_direction`, `direction_from_cycles`, `direction_from_waveforms` -- phase sequence and rotation.
 * `plot_spectrum` -- the spectrum with the search bands shaded and the components marked.
 * `signatures` -- the published component formulas.
 """
 
-from .estimator import TRACK_COLUMNS, SpeedSettings, WindowResult, track_speed, window_detail
+from .direction import direction_from_cycles, direction_from_waveforms, rotation_direction
+from .estimator import TRACK_COLUMNS, SpeedSettings, WindowResult, track_speed, track_transient, window_detail
+from .plot import plot_spectrum
+from .transient import Transient, acceleration_interval, slowdown_interval
 
-__all__ = ["TRACK_COLUMNS", "SpeedSettings", "WindowResult", "track_speed", "window_detail"]
+__all__ = [
+    "TRACK_COLUMNS", "SpeedSettings", "Transient", "WindowResult", "acceleration_interval",
+    "direction_from_cycles", "direction_from_waveforms", "plot_spectrum", "rotation_direction",
+    "slowdown_interval", "track_speed", "track_transient", "window_detail",
+]

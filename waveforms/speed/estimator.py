@@ -564,3 +564,27 @@ def window_detail(
     t0 = i0 / fs
     f1 = _supply_function(supply_hz)(t0, t0 + settings.window_s)
     return analyse_window(y[:, a : a + n // q], fs / q, motor, settings, f1_hz=f1, t_start_s=t0, phase_rms=use_sv)
+
+
+def track_transient(
+    currents: Any,
+    start_s: float,
+    end_s: float,
+    sample_rate_hz: float | None = None,
+    nameplate: Any = None,
+    *,
+    window_s: float = 1.0,
+    hop_s: float | None = 0.25,
+    max_slip: float = 1.0,
+    **kwargs: Any,
+) -> pd.DataFrame:
+    """`track_speed` over ``[start_s, end_s]`` with short windows and the whole slip range.
+
+    Meant for a start or slowdown found by `acceleration_interval` /
+    `slowdown_interval`: the slip sweeps through large values, so the band is
+    opened to ``max_slip`` (slot harmonics are then ambiguous and ``auto``
+    falls back to eccentricity sidebands).  Windows where the sideband moves
+    by more than a bin are smeared and usually come back ``no_signature``.
+    """
+    return track_speed(currents, sample_rate_hz, nameplate, start_s=start_s, stop_s=end_s, window_s=window_s,
+                       hop_s=hop_s, max_slip=max_slip, **kwargs)
