@@ -21,6 +21,7 @@ COMMAND_MODULES: tuple[str, ...] = (
     "inspect", "convert",
     "measure",
     "batch", "recipes",
+    "synth",
 )
 
 
