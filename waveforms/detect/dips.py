@@ -77,6 +77,8 @@ def _half_cycle_matrix(inp: DetectionInput) -> tuple[np.ndarray, np.ndarray, lis
         return None
     hc = inp.half_cycles
     if hc is not None and all(f"{lab}_rms_half" in hc for lab in labels) and len(hc):
+        # a value stamped less than one cycle after the capture start covers a partial window: left out
+        hc = hc[hc["t_s"].to_numpy(float) >= 0.999 * inp.cycle_s]
         return hc["t_s"].to_numpy(float), np.vstack([hc[f"{lab}_rms_half"].to_numpy(float) for lab in labels]), labels
     if all(f"{lab}_rms" in inp.cycles for lab in labels):
         inp.notes.append("no Urms(1/2) table: dips assessed on one-cycle RMS values (IEC 61000-4-30 asks for Urms(1/2))")

@@ -109,7 +109,7 @@ def refine_onset_s(
     x = capture.read(lo, b, list(channels))
     x = np.where(np.isfinite(x), x, 0.0)
     d = cycle_deviation(x, n_cyc)
-    r = np.nanmax(np.abs(d), axis=0) / amplitude
+    r = np.fmax.reduce(np.abs(d), axis=0) / amplitude  # NaN-aware, no warning
     base = slice(a - lo - int(math.ceil(n_cyc)), a - lo)
     k = departure_index(r, a - lo, base)
     if k is None:
