@@ -157,12 +157,20 @@ class RunState:
     measurements: Any = None
     speed: Any = None
     events: list[Any] = dataclasses.field(default_factory=list)
+    states: Any = None
+    timeline: Any = None
     thermal: Any = None
-    verdict: str = ""
+    quality: list[dict[str, Any]] = dataclasses.field(default_factory=list)
+    parameters: dict[str, Any] = dataclasses.field(default_factory=dict)
     analysis: Any = None
     outputs: dict[str, str] = dataclasses.field(default_factory=dict)
     notes: list[str] = dataclasses.field(default_factory=list)
     timings_s: dict[str, float] = dataclasses.field(default_factory=dict)
+
+    @property
+    def verdict(self) -> str:
+        """The plain-language verdict paragraph (`waveforms.analysis`), "" before the detect stage."""
+        return "" if self.analysis is None else str(self.analysis.verdict)
 
     @property
     def cycles(self) -> Any:
@@ -506,7 +514,25 @@ def run_recipe(
         t0 = time.perf_counter()
         stage.run(state, dict(params))
         state.timings_s[name] = time.perf_counter() - t0
+        if name == "report":
+            continue
+        if state.states is not None:  # the detect stage has run: keep the assembled result current
+            _assemble_analysis(state)
     return state
+
+
+def _assemble_analysis(state: RunState) -> None:
+    """Build the analysis engineer's `AnalysisResult` (verdict included) from the stages run so far."""
+    from .analysis import AnalysisResult, verdict_text, versions
+
+    n_warn = sum(1 for q in state.quality if q.get("severity") == "warning")
+    verdict = verdict_text(state.events, state.thermal, state.timeline, state.capture.start_time, state.nameplate, n_warn)
+    state.analysis = AnalysisResult(
+        capture=state.capture, nameplate=state.nameplate, measurements=state.measurements, speed=state.speed,
+        events=list(state.events), thermal=state.thermal, states=state.states, timeline=state.timeline,
+        verdict=verdict, notes=list(state.notes), quality=list(state.quality), parameters=dict(state.parameters),
+        versions=versions(), timings_s=dict(state.timings_s),
+    )
 
 
 # -- parameters taken from a library's settings dataclass ---------------------------
@@ -554,13 +580,15 @@ def _kind_of(annotation: Any, default: Any) -> str:
     return {bool: "bool", int: "int", float: "float", str: "str"}.get(type(default), "str")
 
 
-def params_from_dataclass(cls: type, exclude: Sequence[str] = (), prefix_doc: str = "") -> tuple[Param, ...]:
+def params_from_dataclass(cls: type, exclude: Sequence[str] = (), prefix_doc: str = "",
+                          overrides: Mapping[str, Mapping[str, Any]] | None = None) -> tuple[Param, ...]:
     """Stage parameters mirroring a library's frozen settings dataclass.
 
     Each field becomes a `Param` of the same name, kind from its annotation,
     description from the class's numpydoc Parameters section; the default is
     ``None`` (= the dataclass's own default, so the library stays the one place
-    that fixes it).
+    that fixes it).  ``overrides`` adds checks the dataclass does not make
+    itself (``{"trip_classes": {"choices": (...)}}``).
     """
     docs = _numpydoc_params(cls.__doc__)
     out = []
@@ -568,8 +596,9 @@ def params_from_dataclass(cls: type, exclude: Sequence[str] = (), prefix_doc: st
         if f.name in exclude:
             continue
         default = f.default if f.default is not dataclasses.MISSING else None
+        extra = dict((overrides or {}).get(f.name, {}))
         out.append(Param(f.name, _kind_of(f.type, default), None,
-                         (prefix_doc + docs.get(f.name, "")).strip() or f"see {cls.__module__}.{cls.__name__}"))
+                         (prefix_doc + docs.get(f.name, "")).strip() or f"see {cls.__module__}.{cls.__name__}", **extra))
     return tuple(out)
 
 
@@ -598,6 +627,14 @@ def _stage_import(state: RunState, params: dict[str, Any]) -> None:
     elif state.capture.nameplate is not None:
         state.nameplate = state.capture.nameplate
         state.nameplate_source = "stored in the capture"
+    if state.nameplate is None:
+        state.notes.append("no nameplate: thresholds scaled to the capture's own running current; thermal stress not assessed")
+    else:
+        state.notes.extend(f"nameplate: {w}" for w in state.nameplate.warnings)
+    if params["quality"]:
+        from .quality import quality_notes
+
+        state.quality = quality_notes(state.capture)
 
 
 def _known_format(value: str) -> str | None:
@@ -610,7 +647,11 @@ def _known_format(value: str) -> str | None:
 def _stage_measure(state: RunState, params: dict[str, Any]) -> None:
     from .measure import measure
 
-    state.measurements = measure(state.capture, **library_kwargs(params, _STAGES["measure"]))
+    kw = library_kwargs(params, _STAGES["measure"])
+    state.measurements = measure(state.capture, **kw)
+    state.parameters["measure"] = kw
+    if len(state.measurements.cycles) == 0:
+        raise InvalidParameterError(f"{state.source}: no complete fundamental cycle could be measured")
 
 
 def _measure_params() -> tuple[Param, ...]:
@@ -638,13 +679,11 @@ def _stage_speed(state: RunState, params: dict[str, Any]) -> None:
     from .speed import track_speed
 
     if not params["enabled"]:
-        state.notes.append("speed: not estimated (disabled in the recipe)")
         return
     if state.nameplate is None and params["pole_pairs"] is None:
-        state.notes.append("speed: not estimated, no nameplate or pole_pairs (give --motor)")
+        state.notes.append("speed: not estimated, no nameplate (pole count unknown)")
         return
     if not state.capture.phase_channels("current"):
-        state.notes.append("speed: not estimated, the capture has no line currents")
         return
     stage = _STAGES["speed"]
     settings = _build_settings(_speed_settings_cls(), params, stage)
@@ -653,7 +692,11 @@ def _stage_speed(state: RunState, params: dict[str, Any]) -> None:
     cyc = state.cycles
     if cyc is not None and "frequency_hz" in cyc:
         supply = cyc[["t_s", "frequency_hz"]]
-    state.speed = track_speed(state.capture, nameplate=state.nameplate, supply_hz=supply, settings=settings, **kw)
+    state.parameters["speed"] = {**library_kwargs(params, stage)}
+    try:
+        state.speed = track_speed(state.capture, nameplate=state.nameplate, supply_hz=supply, settings=settings, **kw)
+    except WaveformsError as e:
+        state.notes.append(f"speed: not estimated ({e})")
 
 
 def _check_speed(params: dict[str, Any]) -> None:
@@ -680,32 +723,28 @@ _DETECT_OWN = (
 )
 
 
-def _locked_rotor_a(plate: Any) -> float | None:
-    """Locked-rotor current [A]: the plate's figure, or the middle of its code-letter range (lower bound for V)."""
-    if plate is None:
-        return None
-    lr = plate.locked_rotor_current_range_a()
-    if lr is None:
-        return None
-    lo, hi = lr
-    return float(lo) if not math.isfinite(hi) else 0.5 * (float(lo) + float(hi))
-
-
 def _stage_detect(state: RunState, params: dict[str, Any]) -> None:
+    from .analysis import locked_rotor_a, merge_periods, motor_states
     from .detect import DetectionInput, run_detectors
 
     m = state.measurements
     plate = state.nameplate
     cap = state.capture
+    dparams = _build_settings(_detect_params_cls(), params, _STAGES["detect"])
     inp = DetectionInput(
         cycles=m.cycles, half_cycles=getattr(m, "half_cycles", None), speed=state.speed,
-        fla_a=None if plate is None else float(plate.fla_a), locked_rotor_a=_locked_rotor_a(plate),
+        fla_a=None if plate is None else float(plate.fla_a), locked_rotor_a=locked_rotor_a(plate),
         declared_voltage_ll_v=cap.nominal_voltage_v or (None if plate is None else float(plate.rated_voltage_v)),
-        capture=cap, params=_build_settings(_detect_params_cls(), params, _STAGES["detect"]),
+        capture=cap, params=dparams,
+        current_channels={c: ch.label for c, ch in cap.phase_channels("current").items()},
     )
     only = None if params["detectors"] is None else tuple(params["detectors"])
     state.events = run_detectors(inp, only=only)
-    state.notes.extend(f"detect: {n}" for n in inp.notes)
+    state.notes.extend(f"detect: {n}" for n in dict.fromkeys(inp.notes))
+    state.states = motor_states(inp, state.events)
+    state.timeline = merge_periods(state.states)
+    state.parameters["detect"] = dparams.to_dict()
+    state.parameters["detectors"] = None if only is None else list(only)
 
 
 def _check_detect(params: dict[str, Any]) -> None:
@@ -718,22 +757,31 @@ def _thermal_params_cls() -> type:
     return ThermalParams
 
 
+def _thermal_overrides() -> dict[str, dict[str, Any]]:
+    from .motor.thermal import TRIP_CLASS_TARGET_S
+
+    return {"trip_classes": {"choices": tuple(TRIP_CLASS_TARGET_S)}, "motor_tau_s": {"minimum": 1.0},
+            "k_neg": {"minimum": 0.0}, "relay_setting_a": {"minimum": 0.0}}
+
+
 def _stage_thermal(state: RunState, params: dict[str, Any]) -> None:
     from .motor.thermal import assess_thermal
 
     plate = state.nameplate
-    if plate is None:
-        state.notes.append("thermal: not assessed, no nameplate (give --motor or --motors)")
-        return
     cycles = state.cycles
-    if cycles is None or not any(f"I{c}_rms" in cycles for c in "abc"):
-        state.notes.append("thermal: not assessed, the capture has no line currents")
+    if plate is None or cycles is None or not any(f"I{c}_rms" in cycles for c in "abc"):
         return
+    from .analysis import locked_rotor_a
+
+    tparams = _build_settings(_thermal_params_cls(), params, _STAGES["thermal"])
     state.thermal = assess_thermal(
         cycles, fla_a=float(plate.fla_a), service_factor=float(plate.service_factor),
-        locked_rotor_a=_locked_rotor_a(plate), connection=plate.connection,
-        params=_build_settings(_thermal_params_cls(), params, _STAGES["thermal"]),
+        locked_rotor_a=locked_rotor_a(plate), connection=plate.connection, params=tparams,
     )
+    state.notes.extend(f"thermal: {n}" for n in state.thermal.summary["notes"])
+    if tparams.motor_tau_s == _thermal_params_cls()().motor_tau_s:
+        state.notes.append("thermal: motor heating time constant 600 s assumed (no maker's figure given)")
+    state.parameters["thermal"] = dataclasses.asdict(tparams)
 
 
 def _check_thermal(params: dict[str, Any]) -> None:
@@ -780,6 +828,8 @@ def _register_builtin() -> None:
             Param("nominal_voltage_v", "float", None, "declared line-to-line voltage [V]; absent = from the file",
                   minimum=0.0, kwarg=""),
             Param("wiring", "str", "", "'3-wire' or '4-wire'; empty = from the file", choices=("", "3-wire", "4-wire"), kwarg=""),
+            Param("quality", "bool", True, "gather data-quality notes (clipping, flat or dead channels, gaps; one more pass)",
+                  kwarg=""),
         ),
         library="waveforms.io:read_capture",
     ))
@@ -803,7 +853,7 @@ def _register_builtin() -> None:
     register_stage(Stage(
         name="thermal",
         description="thermal capacity used and overload-relay trips, from the per-cycle currents and the nameplate",
-        run=_stage_thermal, params=params_from_dataclass(_thermal_params_cls()),
+        run=_stage_thermal, params=params_from_dataclass(_thermal_params_cls(), overrides=_thermal_overrides()),
         needs=("import", "measure"), library="waveforms.motor.thermal:assess_thermal", check=_check_thermal,
     ))
     register_stage(Stage(

@@ -34,8 +34,15 @@ from .detect.event import EVENT_KINDS  # the detectors' list is the one list of 
 ERROR_VERDICT = "error"
 
 _HEAD = ["file", "site", "status", "verdict", "start", "duration_s"]
+#: Verdict classes, worst first: one per kind of finding, joined with " + " when several.
+VERDICT_CLASSES: tuple[tuple[str, str], ...] = (
+    ("open_phase", "open phase"), ("stall", "stall"), ("interruption", "interruption"),
+    ("dip", "dip"), ("swell", "swell"), ("unbalance", "unbalance"),
+)
+NO_EVENT_VERDICT = "no event found"
+NOT_ASSESSED_VERDICT = "not assessed"
 _EVENT_COLS = [c for k in EVENT_KINDS for c in (f"n_{k}", f"first_{k}_s")]
-_TAIL = ["worst_i2_i1_pct", "max_current_x_fla", "thermal_capacity_used_pct", "nameplate", "error",
+_TAIL = ["verdict_text", "worst_i2_i1_pct", "max_current_x_fla", "thermal_capacity_used_pct", "nameplate", "error",
          "report", "outputs", "path", "sha256", "recipe", "recipe_hash", "elapsed_s", "notes"]
 #: Summary columns, in order.
 SUMMARY_COLUMNS: tuple[str, ...] = tuple(_HEAD + _EVENT_COLS + _TAIL)
@@ -87,6 +94,20 @@ def events_frame(events: Iterable[Any]) -> pd.DataFrame:
 
 
 # -- rows --------------------------------------------------------------------------------
+def verdict_class(kinds: Iterable[str] | None) -> str:
+    """Short verdict for filtering: the kinds of finding present, worst first (``"open phase + stall"``).
+
+    ``None`` (detection not run) gives "not assessed"; no event of a listed
+    kind gives "no event found" (starts alone are not findings).
+    """
+    if kinds is None:
+        return NOT_ASSESSED_VERDICT
+    present = set(kinds)
+    found = [label for kind, label in VERDICT_CLASSES if kind in present]
+    return " + ".join(found) if found else NO_EVENT_VERDICT
+
+
+
 def _finite_max(values: Any) -> float:
     arr = np.asarray(values, dtype=float)
     arr = arr[np.isfinite(arr)]
@@ -114,13 +135,14 @@ def summary_row(state: Any, file: str, site: str, extra: Mapping[str, Any] | Non
     peak ``theta_motor_pct``.  NaN means "not computed", never zero.
     """
     row: dict[str, Any] = {c: None for c in SUMMARY_COLUMNS}
-    row.update(file=file, site=site, status="ok", verdict=state.verdict or "", error="")
+    detected = "detect" in state.timings_s
+    ev = events_frame(state.events)
+    row.update(file=file, site=site, status="ok", error="", verdict_text=state.verdict,
+               verdict=verdict_class(list(ev["kind"]) if detected else None))
     cap = state.capture
     if cap is not None:
         row["start"] = cap.start_time.isoformat()
         row["duration_s"] = float(cap.duration_s)
-    ev = events_frame(state.events)
-    detected = "detect" in state.timings_s
     for k in EVENT_KINDS:
         sel = ev[ev["kind"] == k]
         row[f"n_{k}"] = int(len(sel)) if detected else None
