@@ -103,7 +103,7 @@ def detect_layout(path: Path, mapping: Mapping) -> Layout:
     Given values (``[csv]`` table of the mapping) win; the rest is recognised
     from the first 64 KiB: the delimiter is the one (tab, ``;``, ``,`` in that
     order of preference) that splits every line from the header on into the
-    same number of fields; the header is the last non-numeric line before the
+    same number of fields (in most of the later lines); the header is the last non-numeric line before the
     first all-numeric one.
     """
     opts = mapping.csv
@@ -118,12 +118,13 @@ def detect_layout(path: Path, mapping: Mapping) -> Layout:
             raise MappingError(mapping.source, "key csv.delimiter", f"{delim!r} is not one of ',', ';', '\\t'")
     nonblank = [i for i, ln in enumerate(lines) if ln.strip()]
     if delim is None:
-        tail = nonblank[len(nonblank) // 2 :]
+        tail = nonblank[len(nonblank) // 4 :]
         for d in DELIMITERS:
             counts = {i: lines[i].count(d) for i in nonblank}
             tail_counts = [counts[i] for i in tail]
             mode = max(set(tail_counts), key=tail_counts.count)
-            if mode > 0 and tail_counts.count(mode) == len(tail_counts):
+            # a majority is enough: a truncated or bad line is reported by the parser, by number
+            if mode > 0 and 2 * tail_counts.count(mode) > len(tail_counts):
                 delim = d
                 break
         else:
@@ -149,6 +150,8 @@ def detect_layout(path: Path, mapping: Mapping) -> Layout:
     else:
         first_numeric = next((i for i in nonblank if _numeric_row(_cells(lines[i], delim), decimal)), None)
         if first_numeric is None:
+            if len(nonblank) == 1:
+                raise CaptureReadError(path, f"line {nonblank[0] + 1}", "header row but no data rows")
             raise CaptureReadError(path, "", "no numeric data rows found in the first lines (is this a waveform export?)")
         before = [i for i in nonblank if i < first_numeric]
         if not before:
