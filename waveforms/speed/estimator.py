@@ -87,7 +87,8 @@ class SpeedSettings:
         Agreement tolerance in natural frequency bins of the less sensitive component (0.5).
     components : {"auto", "slot", "eccentricity"}
         ``auto``: slot harmonics when the rotor bar count is known and the band is
-        unambiguous, else (or when they are not found) eccentricity sidebands.
+        unambiguous (always for the pair nu = -1, +1 with ``min_components >= 2``),
+        else (or when they are not found) eccentricity sidebands.
     eccentricity_orders : tuple of int
         Orders ``m`` of the sidebands ``f1 (1 +/- m (1-s)/p)`` ((1,)).
     slot_nus : tuple of int
@@ -201,8 +202,12 @@ def _families(settings: SpeedSettings, motor: MotorSpec, s_lo: float, s_hi: floa
     fams: list[tuple[str, tuple[sg.Signature, ...]]] = []
     slot_ok = motor.rotor_bars is not None
     if slot_ok and settings.components == "auto":
-        # nu and nu+2 coincide for slips 2p/R apart: a wider band would be ambiguous
-        slot_ok = (s_hi - s_lo) < 2.0 * motor.pole_pairs / motor.rotor_bars
+        # harmonic nu at slip s sits where nu + 2 sits at slip s + 2p/R: a wider band is ambiguous
+        # unless a pair is required and no two pairs of nu have the same spacing (e.g. nu = -1, +1)
+        nus = sorted(set(settings.slot_nus))
+        gaps = [b - a for i, a in enumerate(nus) for b in nus[i + 1:]]
+        unique_pairs = settings.min_components >= 2 and len(gaps) == len(set(gaps))
+        slot_ok = unique_pairs or (s_hi - s_lo) < 2.0 * motor.pole_pairs / motor.rotor_bars
     if settings.components == "slot" and motor.rotor_bars is None:
         raise InvalidParameterError("components='slot' needs the rotor bar count (nameplate rotor_bars)")
     if settings.components in ("auto", "slot") and slot_ok:
@@ -554,7 +559,10 @@ def window_detail(
     fs = cap.sample_rate_hz
     q = decimation_factor(fs, highest_frequency_hz(settings, motor))
     i0 = int(round(t_start_s / (q / fs))) * q
-    n = int(round(settings.window_s * fs / q)) * q
+    n_dec = int(round(settings.window_s * fs / q))
+    if 0 <= i0 and n_dec - (cap.n_samples - i0) // q == 1:
+        n_dec -= 1  # the last window of a capture may be one decimated sample short
+    n = n_dec * q
     if not (0 <= i0 and i0 + n <= cap.n_samples):
         raise InvalidParameterError(f"window {t_start_s} s + {settings.window_s} s is outside the {cap.duration_s:.3f} s capture")
     margin = 0 if q == 1 else int(math.ceil((40 * q + 1) / q)) * q

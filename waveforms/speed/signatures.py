@@ -143,9 +143,10 @@ def signature_band_hz(sig: Signature, slip_min: float, slip_max: float, f1_hz: f
     when it stays negative, 0 when it crosses zero (the band is then unusable).
     """
     f = component_frequency_hz(sig, np.array([slip_min, slip_max]), f1_hz, pole_pairs)
-    if np.all(f > 0):
+    tiny = 1e-9 * abs(f1_hz)  # an end exactly at 0 Hz (e.g. p = 1 at s = 0) does not cross zero
+    if np.all(f > -tiny) and np.any(f > tiny):
         sign = 1
-    elif np.all(f < 0):
+    elif np.all(f < tiny) and np.any(f < -tiny):
         sign = -1
     else:
         sign = 0
