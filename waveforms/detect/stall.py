@@ -73,6 +73,8 @@ def detect_stall(inp: DetectionInput) -> list[Event]:
         decays = float(np.nanmean(seg[-q:])) < 0.75 * float(np.nanmean(seg[:q]))
         if started and ends_running:
             continue  # a start that accelerated: the start detector reports it
+        if a == 0 and ends_running and decays:
+            continue  # a start already under way when the capture began
         if not started and ends_running and decays and _dip_just_before(inp, a):
             continue  # re-acceleration after a voltage dip
         single = bool(inp.dead_line[a:b].any(axis=1).mean() > 0.5)

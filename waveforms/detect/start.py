@@ -1,7 +1,8 @@
 """Start attempts: energisation, inrush, acceleration time, success or failure.
 
 An energisation is a cycle carrying current after at least three cycles that
-carried none.  The start has succeeded when the current leaves the
+carried none (or a capture that begins in the locked-rotor region: a start
+already under way, flagged ``in_progress_at_capture_start``).  The start has succeeded when the current leaves the
 locked-rotor region (see `waveforms.detect.stall`) while the motor stays
 energised; the acceleration time runs from energisation to the first cycle at
 or below 110 % of the settled running current (common practice, no source).
@@ -28,9 +29,10 @@ def detect_start(inp: DetectionInput) -> list[Event]:
     out: list[Event] = []
     fla = inp.current_ref_a
     for a, b in runs(on, min_len=2, max_gap=2):
-        if a == 0:
+        in_progress = a == 0 and bool(high[0])
+        if a == 0 and not in_progress:
             continue  # already running when the capture began
-        if on[max(0, a - 3) : a].any():
+        if a > 0 and on[max(0, a - 3) : a].any():
             continue
         seg_high = high[a:b]
         first_low = int(np.flatnonzero(~seg_high)[0]) + a if (~seg_high).any() else b
@@ -38,13 +40,14 @@ def detect_start(inp: DetectionInput) -> list[Event]:
         inrush = float(np.nanmax(inp.i_max[a : min(b, a + 5)]))
         success = first_low < b and (b - first_low) >= 5
         start_s = float(inp.t_start_s[a])
-        if inp.capture is not None and inp.current_channels:
+        if inp.capture is not None and inp.current_channels and not in_progress:
             ch = [inp.current_channels[c] for c in sorted(inp.current_channels)]
             f = 1.0 / inp.cycle_s
             t_ref = refine_onset_s(inp.capture, ch, (float(inp.t_start_s[a - 1]), float(inp.t_end_s[a])), f, inrush * np.sqrt(2))
             if t_ref is not None:
                 start_s = t_ref
-        figs = {"inrush_rms_a": inrush, "inrush_pu_fla": inrush / fla, "success": bool(success)}
+        figs = {"inrush_rms_a": inrush, "inrush_pu_fla": inrush / fla, "success": bool(success),
+                "in_progress_at_capture_start": in_progress}
         if success:
             settle_n = max(1, int(round(1.0 / inp.cycle_s)))
             settled = float(np.nanmedian(inp.i_max[first_low : min(b, first_low + settle_n)]))

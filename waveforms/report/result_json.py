@@ -1,0 +1,165 @@
+"""``result.json``: the analysis of one capture as plain JSON (documented in docs/result.md).
+
+`result_dict` builds the document; `validate` checks one against the JSON
+Schema shipped beside this module (``result.schema.json``), when the
+``jsonschema`` package is installed.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import hashlib
+import json
+import math
+from importlib import resources
+from typing import Any
+
+import numpy as np
+
+from ..analysis import SAFETY_CAUTIONS, AnalysisResult, iso_at
+from ..detect.event import plain
+
+#: Version of the result.json layout; bumped on any incompatible change.
+SCHEMA_VERSION = "1.0"
+SCHEMA_FILE = "result.schema.json"
+
+
+def _num(x: Any) -> float | None:
+    try:
+        v = float(x)
+    except (TypeError, ValueError):
+        return None
+    return v if math.isfinite(v) else None
+
+
+def _capture_part(res: AnalysisResult) -> dict[str, Any]:
+    cap = res.capture
+    cyc = res.cycles
+    f = cyc["frequency_hz"].to_numpy(float) if "frequency_hz" in cyc else np.array([])
+    f = f[np.isfinite(f)]
+    return {
+        "file": cap.provenance.source_path or None,
+        "sha256": cap.provenance.sha256 or None,
+        "importer": cap.provenance.importer or None,
+        "start_time": cap.start_time.isoformat(timespec="microseconds"),
+        "end_time": cap.end_time.isoformat(timespec="microseconds"),
+        "duration_s": cap.duration_s,
+        "sample_rate_hz": cap.sample_rate_hz,
+        "n_samples": cap.n_samples,
+        "nominal_frequency_hz": cap.nominal_frequency_hz,
+        "measured_frequency_hz": float(np.median(f)) if f.size else None,
+        "nominal_voltage_v": cap.nominal_voltage_v,
+        "wiring": cap.wiring,
+        "channels": [
+            {"name": c.name, "label": c.label, "kind": c.kind, "conductor": c.conductor, "reference": c.reference,
+             "unit": c.unit, "source_label": c.source_label, "scale": c.scale}
+            for c in cap.channels
+        ],
+        "gaps": [{"start_index": g.start_index, "stop_index": g.stop_index, "reason": g.reason} for g in cap.gaps],
+        "n_cycles": int(len(cyc)),
+    }
+
+
+def _summary_part(res: AnalysisResult) -> dict[str, Any]:
+    cyc = res.cycles
+    out: dict[str, Any] = {"n_events": {}}
+    for e in res.events:
+        out["n_events"][e.kind] = out["n_events"].get(e.kind, 0) + 1
+    lines = [c for c in ("Ia_rms", "Ib_rms", "Ic_rms") if c in cyc]
+    imax = float(np.nanmax(cyc[lines].to_numpy(float))) if lines and np.isfinite(cyc[lines].to_numpy(float)).any() else None
+    out["max_line_current_a"] = imax
+    fla = None if res.nameplate is None else res.nameplate.fla_a
+    out["max_line_current_x_fla"] = None if imax is None or not fla else imax / fla
+    for col in ("I2_I1_pct", "V2_V1_pct", "V_unbal_nema_pct"):
+        if col in cyc:
+            v = cyc[col].to_numpy(float)
+            v = v[np.isfinite(v)]
+            out[f"max_{col}"] = float(v.max()) if v.size else None
+            out[f"median_{col}"] = float(np.median(v)) if v.size else None
+    out["states_s"] = {}
+    for row in res.timeline.itertuples(index=False):
+        out["states_s"][row.state] = out["states_s"].get(row.state, 0.0) + float(row.end_s - row.start_s)
+    return out
+
+
+def _speed_part(res: AnalysisResult) -> dict[str, Any]:
+    sp = res.speed
+    if sp is None:
+        return {"available": False, "track": []}
+    track = []
+    for r in sp.to_dict("records"):
+        track.append({
+            "t_s": _num(r.get("t_s")), "t_start_s": _num(r.get("t_start_s")), "t_end_s": _num(r.get("t_end_s")),
+            "slip": _num(r.get("slip")), "rpm": _num(r.get("rpm")), "confidence_db": _num(r.get("confidence_db")),
+            "f_supply_hz": _num(r.get("f_supply_hz")), "component": str(r.get("component") or ""),
+            "status": str(r.get("status") or ""),
+        })
+    return {"available": True, "track": track}
+
+
+def _event_part(res: AnalysisResult) -> list[dict[str, Any]]:
+    out = []
+    for e in res.events:
+        d = e.to_dict()
+        d["start_time"] = iso_at(res.capture.start_time, e.start_s)
+        d["end_time"] = iso_at(res.capture.start_time, e.end_s)
+        out.append(d)
+    return out
+
+
+def parameters_digest(params: dict[str, Any]) -> str:
+    """SHA-256 (first 16 hex digits) of the parameters, canonical JSON."""
+    return hashlib.sha256(json.dumps(plain(params), sort_keys=True).encode()).hexdigest()[:16]
+
+
+def result_dict(res: AnalysisResult, generated_at: _dt.datetime | None = None) -> dict[str, Any]:
+    """The result.json document (plain JSON types, NaN -> null)."""
+    gen = generated_at or _dt.datetime.now(_dt.timezone.utc)
+    thermal = None
+    if res.thermal is not None:
+        thermal = dict(res.thermal.summary)
+        thermal["relays"] = {
+            k: dict(v, trip_time=iso_at(res.capture.start_time, v["trip_s"])) for k, v in res.thermal.summary["relays"].items()
+        }
+    doc = {
+        "schema_version": SCHEMA_VERSION,
+        "generated_at": gen.isoformat(timespec="seconds"),
+        "verdict": res.verdict,
+        "capture": _capture_part(res),
+        "nameplate": None if res.nameplate is None else res.nameplate.to_dict(),
+        "summary": _summary_part(res),
+        "events": _event_part(res),
+        "timeline": [
+            {"state": r.state, "start_s": float(r.start_s), "end_s": float(r.end_s)} for r in res.timeline.itertuples(index=False)
+        ],
+        "speed": _speed_part(res),
+        "thermal": thermal,
+        "data_quality": res.quality,
+        "notes": list(res.notes),
+        "provenance": {
+            "capture": res.capture.provenance.to_dict(),
+            "versions": res.versions,
+            "parameters": res.parameters,
+            "parameters_sha256_16": parameters_digest(res.parameters),
+            "timings_s": res.timings_s,
+        },
+        "cautions": list(SAFETY_CAUTIONS),
+    }
+    return plain(doc)
+
+
+def to_json(doc: dict[str, Any]) -> str:
+    return json.dumps(doc, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+
+
+def schema() -> dict[str, Any]:
+    """The JSON Schema of result.json (shipped as ``waveforms/report/result.schema.json``)."""
+    return json.loads(resources.files("waveforms.report").joinpath(SCHEMA_FILE).read_text(encoding="utf-8"))
+
+
+def validate(doc: dict[str, Any]) -> None:
+    """Raise ``jsonschema.ValidationError`` when ``doc`` does not follow the schema."""
+    import jsonschema
+
+    jsonschema.validate(doc, schema(), cls=jsonschema.Draft202012Validator)
+
