@@ -151,6 +151,7 @@ def poles_from_rated_speed(rated_speed_rpm: float, frequency_hz: float) -> int:
 
 def _build(d: dict[str, Any], source: str) -> Nameplate:
     warn: list[str] = []
+    d = {k: v for k, v in d.items() if v is not None}  # None (JSON null from to_dict) = not given
     known = {f.name for f in dataclasses.fields(Nameplate)} | {"rated_power_hp"}
     unknown = sorted(set(d) - known)
     if unknown:
