@@ -241,42 +241,53 @@ def process_block(data: np.ndarray, start_index: int, lead: int, trail: int, cyc
     if bnd.size < 2:
         return (*_empty_block(), 0)
     f_cyc = fq.cycle_frequency(bnd, tracked, fs, st.f_nom_hz)
-    a_all, b_all = bnd[:-1], bnd[1:]
+    a_all = bnd[:-1]
     own = np.flatnonzero((a_all >= lead) & (a_all < n - trail))
     if own.size == 0:
         return (*_empty_block(), 0)
     k0, k1 = int(own[0]), int(own[-1]) + 1          # owned cycles k0 .. k1-1
-    k_ext = min(k1 + 1, a_all.size)                  # plus the next one (for the mid-cycle window)
-    sel = np.arange(k0, k_ext)
-    a, b = a_all[sel], b_all[sel]
-    mid = 0.5 * (a + b)
-    first, width = wn.window_grid(a, b)
-    w1 = wn.weights_on_grid(first, width, a, mid)
-    w2 = wn.weights_on_grid(first, width, mid, b)
-    w = w1 + w2
-    x = wn.gather(data, first, w)                    # (m, n_ch, width)
+    a = a_all[k0:k1]
+    f_use = np.where(np.isfinite(f_cyc[k0:k1]), f_cyc[k0:k1], st.f_nom_hz)
+    # a tracked window spans exactly one period of its frequency; an untracked one (dead reference)
+    # runs to the next boundary, so the table has no holes
+    period = np.where(np.isfinite(f_cyc[k0:k1]), fs / f_use, np.diff(bnd)[k0:k1])
+    fits = a + period <= n - 1
+    if not fits.all():                               # only at the very end of a capture
+        keep = int(fits.sum())                       # a rises, so the misfits are the last ones
+        k1 = k0 + keep
+        a, f_use, period = a[:keep], f_use[:keep], period[:keep]
+        if keep == 0:
+            return (*_empty_block(), 0)
+    b = a + period
+    mid = a + 0.5 * period
+    mid_ok = mid + period <= n - 1
+    mid_end = np.where(mid_ok, mid + period, mid)    # empty window where the data end first
+    first, width = wn.window_grid(a, np.maximum(b, mid_end))
+    w = wn.weights_on_grid(first, width, a, b)
+    w_mid = wn.weights_on_grid(first, width, mid, mid_end)
+    x = wn.gather(data, first, np.maximum(w, w_mid))  # (m, n_ch, width)
     m_own = k1 - k0
 
-    # Urms(1/2): full cycles and mid-cycle windows (IEC 61000-4-30 5.4.1)
-    sq1, sw1 = rm.mean_square(x, w1)
-    sq2, sw2 = rm.mean_square(x, w2)
-    full_rms, mid_rms = rm.urms_half(sq1, sw1, sq2, sw2)
+    # Urms(1/2): one-cycle windows from each cycle start and from each mid-cycle (IEC 61000-4-30 5.4.1)
+    sq_full, sw_full = rm.mean_square(x, w)
+    sq_mid, sw_mid = rm.mean_square(x, w_mid)
+    full_rms = np.sqrt(sq_full / sw_full[:, None])
+    with np.errstate(invalid="ignore", divide="ignore"):
+        mid_rms = np.sqrt(sq_mid / sw_mid[:, None])
 
-    xo, wo = x[:m_own], w[:m_own]
-    f_use = np.where(np.isfinite(f_cyc[k0:k1]), f_cyc[k0:k1], st.f_nom_hz)
-    centre = mid[:m_own]
-    reg = ph.basis(first[:m_own], width, centre, 2.0 * np.pi * f_use, fs)
-    phas, _ = ph.fit_phasors(xo, wo, reg)
+    centre = mid
+    reg = ph.basis(first, width, centre, 2.0 * np.pi * f_use, fs)
+    phas, _ = ph.fit_phasors(x, w, reg)
     t_c = (centre + start_index) / fs
     phas = ph.to_nominal_frame(phas, t_c, st.f_nom_hz)
-    gram = rm.mean_products(xo, wo)
+    gram = rm.mean_products(x, w)
     rms = np.sqrt(np.clip(np.einsum("kcc->kc", gram), 0.0, None))
 
     cols: dict[str, Any] = {
         "cycle": np.arange(cycle_offset, cycle_offset + m_own, dtype=np.int64),
         "t_s": t_c,
-        "t_start_s": (a[:m_own] + start_index) / fs,
-        "t_end_s": (b[:m_own] + start_index) / fs,
+        "t_start_s": (a + start_index) / fs,
+        "t_end_s": (b + start_index) / fs,
         "frequency_hz": f_cyc[k0:k1],
         "tracked": np.isfinite(f_cyc[k0:k1]),
     }
@@ -284,15 +295,13 @@ def process_block(data: np.ndarray, start_index: int, lead: int, trail: int, cyc
     _sequence_power_columns(cols, lay, st, phas, rms, gram)
     cycles = pd.DataFrame(cols)
 
-    # half-cycle table, time-ordered: cycle k (ends at b_k), then mid k -> k+1 (ends at mid_{k+1})
-    n_mid = min(m_own, mid_rms.shape[0])
-    t_half = np.empty(m_own + n_mid)
-    vals = np.empty((m_own + n_mid, x.shape[1]))
-    t_full, t_mid = (b[:m_own] + start_index) / fs, (mid[1:1 + n_mid] + start_index) / fs
-    order = np.argsort(np.concatenate([t_full, t_mid]), kind="stable")
-    t_half[:] = np.concatenate([t_full, t_mid])[order]
-    vals[:] = np.concatenate([full_rms[:m_own], mid_rms[:n_mid]])[order]
-    half = pd.DataFrame({"t_s": t_half, **{f"{lab}_rms_half": vals[:, i] for i, lab in enumerate(lay.labels)}})
+    # half-cycle table, time-ordered: window from cycle start k (ends at b_k), then from mid-cycle k
+    t_full = (b + start_index) / fs
+    t_mid = (mid_end[mid_ok] + start_index) / fs
+    t_all = np.concatenate([t_full, t_mid])
+    order = np.argsort(t_all, kind="stable")
+    vals = np.concatenate([full_rms, mid_rms[mid_ok]])[order]
+    half = pd.DataFrame({"t_s": t_all[order], **{f"{lab}_rms_half": vals[:, i] for i, lab in enumerate(lay.labels)}})
 
     harm = _harmonic_windows(data, bnd, k0, k1, cycle_offset, start_index, lay, st)
     return cycles, half, harm, m_own

@@ -55,9 +55,9 @@ def reference_coefficients(conductors: list[str]) -> np.ndarray:
 
 
 def lowpass_sos(fs_hz: float, f_nom_hz: float) -> np.ndarray:
-    """4th-order Butterworth low-pass at twice the nominal frequency (second-order sections)."""
+    """2nd-order Butterworth low-pass at twice the nominal frequency (little ringing after abrupt events)."""
     cutoff = min(2.0 * f_nom_hz, 0.45 * fs_hz)
-    return signal.butter(4, cutoff, btype="low", fs=fs_hz, output="sos")
+    return signal.butter(2, cutoff, btype="low", fs=fs_hz, output="sos")
 
 
 def filtered_reference(ref: np.ndarray, sos: np.ndarray, pad_samples: int = 0) -> np.ndarray:

@@ -59,7 +59,10 @@ def iec_line_to_line_pct(uab: np.ndarray, ubc: np.ndarray, uca: np.ndarray) -> n
            is checked in tests/test_measure_unbalance.py).
     """
     a2, b2, c2 = np.square(uab), np.square(ubc), np.square(uca)
+    s2 = a2 + b2 + c2
+    # 6 beta - 2 = 2 [(a2-b2)^2 + (b2-c2)^2 + (c2-a2)^2] / s2^2 (algebraically identical, no cancellation
+    # near balance); then u2^2 = (1 - r)/(1 + r) = (6 beta - 2)/(1 + r)^2 with r = sqrt(3 - 6 beta).
     with np.errstate(invalid="ignore", divide="ignore"):
-        beta = (a2 * a2 + b2 * b2 + c2 * c2) / np.square(a2 + b2 + c2)  # IEC 61000-4-30 5.7.1
-        r = np.sqrt(np.clip(3.0 - 6.0 * beta, 0.0, None))
-        return 100.0 * np.sqrt(np.clip((1.0 - r) / (1.0 + r), 0.0, None))
+        e = 2.0 * (np.square(a2 - b2) + np.square(b2 - c2) + np.square(c2 - a2)) / np.square(s2)
+        r = np.sqrt(np.clip(1.0 - e, 0.0, None))                        # sqrt(3 - 6 beta)
+        return 100.0 * np.sqrt(np.clip(e, 0.0, None)) / (1.0 + r)     # IEC 61000-4-30 5.7.1
