@@ -304,6 +304,9 @@ def analyze(
 
     track = None
     speed_opts = dict(speed_options or {})
+    if "window_s" not in speed_opts and "settings" not in speed_opts:
+        # short captures: about six windows, 0.5 s to 10 s long (our choice; 10 s is the speed engine's default)
+        speed_opts["window_s"] = float(min(10.0, max(0.5, round(capture.duration_s / 6.0, 2))))
     if speed and plate is not None and capture.phase_channels("current"):
         t0 = time.perf_counter()
         from .speed import track_speed

@@ -19,6 +19,7 @@ from .errors import WaveformsError
 #: One entry per subcommand module (``waveforms/commands/<name>.py``).
 COMMAND_MODULES: tuple[str, ...] = (
     "inspect", "convert",
+    "analyze",
     "measure",
     "batch", "recipes",
     "synth",

@@ -122,7 +122,7 @@ TEMPLATE = r"""<!DOCTYPE html>
  <tr><th>channels (file header &rarr; label)</th><td>{{ prov.mapping }}</td></tr>
  <tr><th>processing history</th><td>{{ prov.history }}</td></tr>
  <tr><th>software</th><td>{{ prov.versions }}</td></tr>
- <tr><th>parameters (digest {{ prov.digest }})</th><td><pre>{{ prov.parameters }}</pre></td></tr>
+ <tr><th>parameters (digest {{ prov.digest }})</th><td><details><summary>show all parameters</summary><pre>{{ prov.parameters }}</pre></details></td></tr>
  </tbody></table>
 </section>
 

@@ -25,12 +25,14 @@ OI = {
 LINE_COLOURS = {"A": OI["blue"], "B": OI["orange"], "C": OI["purple"]}
 LINE_STYLES = {"A": "-", "B": "--", "C": "-."}
 STATE_STYLE = {
-    "three-phase": {"color": OI["green"], "alpha": 0.10, "hatch": None},
-    "single-phased": {"color": OI["orange"], "alpha": 0.28, "hatch": None},
-    "stalled": {"color": OI["vermillion"], "alpha": 0.25, "hatch": "//"},
-    "single-phased, stalled": {"color": OI["vermillion"], "alpha": 0.35, "hatch": "xx"},
-    "de-energised": {"color": "#7f7f7f", "alpha": 0.25, "hatch": None},
+    "three-phase": {"color": OI["green"], "alpha": 0.08, "hatch": None},
+    "single-phased": {"color": OI["orange"], "alpha": 0.22, "hatch": None},
+    "stalled": {"color": OI["vermillion"], "alpha": 0.16, "hatch": "//"},
+    "single-phased, stalled": {"color": OI["vermillion"], "alpha": 0.22, "hatch": "\\\\"},
+    "de-energised": {"color": "#7f7f7f", "alpha": 0.22, "hatch": None},
 }
+#: Axes box of every time plot (figure fractions), so that their time axes line up.
+TIME_AXES = {"left": 0.075, "right": 0.79}
 RC = {"font.size": 9, "axes.titlesize": 10, "axes.labelsize": 9, "legend.fontsize": 8}
 WIDTH_IN = 9.5
 
@@ -51,12 +53,15 @@ def _shade(ax, res: AnalysisResult, legend: bool = False) -> None:
         st = STATE_STYLE.get(r.state, STATE_STYLE["three-phase"])
         label = r.state if (legend and r.state not in seen) else None
         seen.add(r.state)
-        ax.axvspan(r.start_s, r.end_s, color=st["color"], alpha=st["alpha"], hatch=st["hatch"], linewidth=0, label=label)
+        ax.axvspan(r.start_s, r.end_s, facecolor=st["color"], alpha=st["alpha"], hatch=st["hatch"], edgecolor="#ffffff",
+                   linewidth=0, label=label)
 
 
 def _figure(height_in: float, nrows: int = 1, ncols: int = 1, **kw) -> tuple[Figure, np.ndarray]:
-    fig = Figure(figsize=(WIDTH_IN, height_in), layout="constrained")
+    """A time-plot figure with the common axes box (legend outside on the right)."""
+    fig = Figure(figsize=(WIDTH_IN, height_in))
     axes = fig.subplots(nrows, ncols, squeeze=False, **kw)
+    fig.subplots_adjust(bottom=0.55 / height_in, top=1 - 0.2 / height_in, **TIME_AXES)
     return fig, axes
 
 
@@ -260,10 +265,12 @@ def phasor_figure(res: AnalysisResult) -> Figure:
                 ax.annotate("", xy=(math.atan2(z.imag, z.real), r), xytext=(0, 0),
                             arrowprops={"arrowstyle": "-|>", "color": LINE_COLOURS.get(line, "black"),
                                         "lw": 1.8 if is_v else 1.1, "ls": "-" if is_v else "--", "shrinkA": 0, "shrinkB": 0})
-                ax.text(math.atan2(z.imag, z.real), min(1.0, r) + 0.06, f"{lab}\n{abs(z):.4g} {'V' if is_v else 'A'}",
-                        ha="center", va="center", fontsize=7, color=LINE_COLOURS.get(line, "black"))
-        fig.suptitle(f"Phasors before and after: {what}  (solid: voltage, scale {vmax:.4g} V; dashed: current, scale {imax:.4g} A; "
-                     "angles relative to the positive-sequence voltage)", fontsize=8)
+                ang = math.atan2(z.imag, z.real) + (0.0 if is_v else 0.16)  # current labels turned aside a little
+                ax.text(ang, (min(1.0, r) + 0.1) if is_v else max(0.18, 0.55 * r), f"{lab} {abs(z):.3g} {'V' if is_v else 'A'}",
+                        ha="center", va="center", fontsize=7, color=LINE_COLOURS.get(line, "black"),
+                        bbox={"boxstyle": "round,pad=0.15", "facecolor": "white", "edgecolor": "none", "alpha": 0.8})
+        fig.suptitle(f"solid: voltage (full scale {vmax:.4g} V); dashed: current (full scale {imax:.4g} A); "
+                     "angles relative to the positive-sequence voltage of each cycle", fontsize=8)
     return fig
 
 
