@@ -258,15 +258,16 @@ def integrate(
                 raise InvalidParameterError(f"the machine model could not be integrated at t = {t:.6f} s: {sol.message}")
             n_rhs += int(sol.nfev)
             fired = sol.status == 1
-            n_got = min(sol.t.size, t_eval.size)
-            states[:, i_next : i_next + n_got] = sol.y[:, :n_got]
+            sol_y = np.asarray(sol.y, dtype=float).reshape(N_STATE, -1)
+            n_got = min(sol_y.shape[1], t_eval.size)
+            states[:, i_next : i_next + n_got] = sol_y[:, :n_got]
             if fired:
                 k_ev = [len(te) > 0 for te in sol.t_events].index(True)
                 t_reached = float(sol.t_events[k_ev][0])
                 y = np.asarray(sol.y_events[k_ev][0], dtype=float).copy()
             else:
                 t_reached = t_stop
-                y = sol.y[:, -1].copy()
+                y = sol_y[:, -1].copy()
         else:
             n_got, fired, t_reached = 0, False, t
         pieces.append(Piece(t, t_reached, tuple(closed), i_next, i_next + n_got))  # type: ignore[arg-type]
@@ -277,6 +278,11 @@ def integrate(
             line = "ABC"[j]
             closed[j] = False
             interruptions.append((line, pending.pop(line), t))
+            for other in list(pending):  # a pending line left without current opens at the same instant
+                jo = "ABC".index(other)
+                if np.linalg.norm(m_map[jo] @ projector(machine.connection, tuple(closed))) < 1e-12:  # type: ignore[arg-type]
+                    closed[jo] = False
+                    interruptions.append((other, pending.pop(other), t))
             y[:2] = projector(machine.connection, tuple(closed)) @ y[:2]  # type: ignore[arg-type]
             continue
         if last:

@@ -51,7 +51,7 @@ A_OP = np.exp(2j * np.pi / 3)
 def _f(x: float | None, nd: int = 6) -> float | None:
     if x is None or not math.isfinite(float(x)):
         return None
-    return round(float(x), nd)
+    return round(float(x), nd) + 0.0  # + 0.0 turns -0.0 into 0.0
 
 
 def _timeline(sim: Simulation) -> list[tuple[float, float, tuple[bool, bool, bool]]]:
@@ -106,6 +106,7 @@ def events(sim: Simulation) -> list[dict[str, Any]]:
     fs = sc.logger.sample_rate_hz
     energised = sim.closed.sum(axis=0) >= 2
     energ_instants = [t0 for k, (t0, _, c) in enumerate(tl) if sum(c) >= 2 and (k == 0 and t0 > 0 or k > 0 and sum(tl[k - 1][2]) < 2)]
+    deenerg_instants = [t0 for k, (t0, _, c) in enumerate(tl) if k > 0 and sum(c) < 2 and sum(tl[k - 1][2]) >= 2]
     if tl and sum(tl[0][2]) >= 2 and sc.initial_state != "steady":
         energ_instants.insert(0, 0.0)
     for te in energ_instants:
@@ -126,7 +127,11 @@ def events(sim: Simulation) -> list[dict[str, Any]]:
         t0 = float(t[a])
         near = [e for e in energ_instants if 0 <= t0 - e <= 1.0 / fs]
         t0 = near[0] if near else t0
-        out.append({"kind": "stall", "phase": None, "start_s": _f(t0), "end_s": None if b >= t.size else _f(t[b]),
+        t1 = None if b >= t.size else float(t[b])
+        if t1 is not None:
+            exact = [x for x in deenerg_instants if t[b - 1] < x <= t[b]]
+            t1 = exact[0] if exact else t1
+        out.append({"kind": "stall", "phase": None, "start_s": _f(t0), "end_s": _f(t1),
                     "speed_threshold_pu": STALL_SPEED_PU,
                     "rms_current_a": _f(float(np.sqrt(np.mean(sim.i_line_smooth_a[:, a:b] ** 2, axis=1)).max()), 3)})
     # supply events
