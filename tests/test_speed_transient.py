@@ -22,10 +22,15 @@ def test_start_interval():
     assert tr.i_after_a == pytest.approx(25.0) and tr.i_peak_a == pytest.approx(160.0)
 
 
-def test_no_start_when_running_throughout_or_energised_at_t0():
+def test_no_start_when_running_throughout_and_censored_start():
     assert acceleration_interval(T, np.full(T.size, 25.0)) is None
+    # a step up from a running 25 A is not a start from rest
+    i = np.interp(T, [0, 2.0, 2.001, 3.0, 4.0, 10.0], [25.0, 25.0, 160.0, 160.0, 25.0, 25.0])
+    assert acceleration_interval(T, i) is None
+    # the record opens with the inrush: the start is flagged as censored at the first cycle
     i = np.interp(T, [0, 2.0, 3.0, 10.0], [160.0, 160.0, 25.0, 25.0])
-    assert acceleration_interval(T, i) is None  # energisation before the record began
+    tr = acceleration_interval(T, i)
+    assert tr is not None and tr.start_censored and tr.start_s == pytest.approx(T[0])
 
 
 def test_slowdown_interval():

@@ -28,7 +28,10 @@ class Transient:
     start_s, end_s, duration_s : float
         [s] from the capture start.
     i_before_a, i_peak_a, i_after_a : float
-        Envelope before, at its extreme, after [A].
+        Envelope before, at its extreme, after [A] (``i_before_a`` NaN when unseen).
+    start_censored : bool
+        The envelope was already high in the first cycle of the record: the
+        transient began at or before ``start_s``, so ``duration_s`` is a lower bound.
     """
 
     kind: str
@@ -38,6 +41,7 @@ class Transient:
     i_before_a: float
     i_peak_a: float
     i_after_a: float
+    start_censored: bool = False
 
 
 def _check(t_s, i_rms_a) -> tuple[np.ndarray, np.ndarray]:
@@ -80,7 +84,9 @@ def acceleration_interval(
     Returns
     -------
     Transient or None
-        None when the record shows no start (no inrush from rest).
+        None when the record shows no start (no inrush well above the running
+        current, or a current that was already flowing before the rise).  When
+        the record opens with the inrush, ``start_censored`` is set.
     """
     t, i = _check(t_s, i_rms_a)
     k_pk = int(np.nanargmax(i))
@@ -91,14 +97,15 @@ def acceleration_interval(
     on = np.flatnonzero(i[: k_pk + 1] >= 0.5 * i_pk)
     k0 = int(on[0])
     i_before = float(np.median(i[:k0])) if k0 > 0 else float("nan")
-    if k0 == 0 or not (i_before < off_frac * i_pk):
-        return None  # energisation not inside the record
+    if k0 > 0 and not (i_before < off_frac * i_pk):
+        return None  # the rise did not start from rest
     target = i_after + settle_frac * (i_pk - i_after)
     below = np.flatnonzero(i[k_pk:] <= target)
     if below.size == 0:
         return None
     k1 = k_pk + int(below[0])
-    return Transient("acceleration", float(t[k0]), float(t[k1]), float(t[k1] - t[k0]), i_before, i_pk, i_after)
+    return Transient("acceleration", float(t[k0]), float(t[k1]), float(t[k1] - t[k0]), i_before, i_pk, i_after,
+                     start_censored=k0 == 0)
 
 
 def slowdown_interval(
