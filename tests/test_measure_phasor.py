@@ -139,7 +139,7 @@ class TestLeastSquaresCore:
         a = np.array([10.4, 700.9, 1234.25])
         b = a + np.array([150.0, 211.42, 333.3])
         first, w = window_weights(a, b)
-        xw = gather(x[None, :], first, w)
+        xw = gather(x[None, :], first, w.shape[1])
         centre = 0.5 * (a + b)
         reg = basis(first, w.shape[1], centre, np.full(3, 2 * np.pi * f), FS)
         ph, dc = fit_phasors(xw, w, reg)

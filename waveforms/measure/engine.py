@@ -262,18 +262,20 @@ def process_block(data: np.ndarray, start_index: int, lead: int, trail: int, cyc
     mid = a + 0.5 * period
     mid_ok = mid + period <= n - 1
     mid_end = np.where(mid_ok, mid + period, mid)    # empty window where the data end first
-    first, width = wn.window_grid(a, np.maximum(b, mid_end))
+    has_nan = bool(np.isnan(data).any())
+    first, width = wn.window_grid(a, b)
     w = wn.weights_on_grid(first, width, a, b)
-    w_mid = wn.weights_on_grid(first, width, mid, mid_end)
-    x = wn.gather(data, first, np.maximum(w, w_mid))  # (m, n_ch, width)
+    x = wn.gather(data, first, width, has_nan, w)               # (m, n_ch, width)
+    first_m, width_m = wn.window_grid(mid, mid_end)
+    w_mid = wn.weights_on_grid(first_m, width_m, mid, mid_end)
+    x_mid = wn.gather(data, first_m, width_m, has_nan, w_mid)
     m_own = k1 - k0
 
     # Urms(1/2): one-cycle windows from each cycle start and from each mid-cycle (IEC 61000-4-30 5.4.1)
-    sq_full, sw_full = rm.mean_square(x, w)
-    sq_mid, sw_mid = rm.mean_square(x, w_mid)
-    full_rms = np.sqrt(sq_full / sw_full[:, None])
+    sq_mid, sw_mid = rm.mean_square(x_mid, w_mid)
     with np.errstate(invalid="ignore", divide="ignore"):
         mid_rms = np.sqrt(sq_mid / sw_mid[:, None])
+    del x_mid, w_mid
 
     centre = mid
     reg = ph.basis(first, width, centre, 2.0 * np.pi * f_use, fs)
@@ -282,6 +284,7 @@ def process_block(data: np.ndarray, start_index: int, lead: int, trail: int, cyc
     phas = ph.to_nominal_frame(phas, t_c, st.f_nom_hz)
     gram = rm.mean_products(x, w)
     rms = np.sqrt(np.clip(np.einsum("kcc->kc", gram), 0.0, None))
+    full_rms = rms
 
     cols: dict[str, Any] = {
         "cycle": np.arange(cycle_offset, cycle_offset + m_own, dtype=np.int64),

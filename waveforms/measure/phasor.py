@@ -33,16 +33,16 @@ SQRT2 = np.sqrt(2.0)
 
 
 def basis(first: np.ndarray, width: int, centre: np.ndarray, omega_rad_s: np.ndarray, fs_hz: float) -> np.ndarray:
-    """Regressors ``[1, cos w tau, sin w tau]`` for every window sample, shape ``(n_win, width, 3)``.
+    """Regressors ``[1, cos w tau, sin w tau]`` for every window sample, shape ``(n_win, 3, width)``.
 
     ``tau`` [s] is the sample time minus the window centre (both in samples / fs).
     """
     tau = (first[:, None] + np.arange(width)[None, :] - centre[:, None]) / fs_hz
     arg = omega_rad_s[:, None] * tau
-    out = np.empty(tau.shape + (3,))
-    out[..., 0] = 1.0
-    out[..., 1] = np.cos(arg)
-    out[..., 2] = np.sin(arg)
+    out = np.empty((tau.shape[0], 3, tau.shape[1]))
+    out[:, 0, :] = 1.0
+    np.cos(arg, out=out[:, 1, :])
+    np.sin(arg, out=out[:, 2, :])
     return out
 
 
@@ -54,7 +54,7 @@ def fit_phasors(x: np.ndarray, weights: np.ndarray, regressors: np.ndarray) -> t
     x : ndarray, shape (n_win, n_ch, width)
         Window samples (zero where the weight is zero).
     weights : ndarray, shape (n_win, width)
-    regressors : ndarray, shape (n_win, width, 3)
+    regressors : ndarray, shape (n_win, 3, width)
         From `basis`.
 
     Returns
@@ -64,9 +64,9 @@ def fit_phasors(x: np.ndarray, weights: np.ndarray, regressors: np.ndarray) -> t
     offset : ndarray, shape (n_win, n_ch)
         Fitted DC offset [V or A].
     """
-    wr = regressors * weights[..., None]                     # (n_win, width, 3)
-    gram = np.einsum("kli,klj->kij", wr, regressors)         # normal matrix (n_win, 3, 3)
-    rhs = np.matmul(x, wr)                                   # (n_win, n_ch, 3)
+    wr = regressors * weights[:, None, :]                    # (n_win, 3, width)
+    gram = np.einsum("kil,kjl->kij", wr, regressors)         # normal matrix (n_win, 3, 3)
+    rhs = np.einsum("kcl,kil->kci", x, wr)                   # (n_win, n_ch, 3)
     coef = np.matmul(rhs, np.linalg.inv(gram))               # gram is symmetric: coef = rhs @ inv(gram)
     phasor = (coef[..., 1] - 1j * coef[..., 2]) / SQRT2       # b cos + c sin = Re{(b - jc) e^{jw tau}}
     return phasor, coef[..., 0]

@@ -22,12 +22,12 @@ def mean_products(x: np.ndarray, weights: np.ndarray) -> np.ndarray:
     active power (v x i) and line-to-line RMS from line-to-neutral channels.
     """
     wx = x * weights[:, None, :]
-    return np.matmul(wx, np.swapaxes(x, 1, 2)) / weights.sum(axis=1)[:, None, None]
+    return np.einsum("kcl,kdl->kcd", wx, x) / weights.sum(axis=1)[:, None, None]
 
 
 def mean_square(x: np.ndarray, weights: np.ndarray) -> np.ndarray:
     """Weighted sum of squares and total weight: ``(sum w x^2 (n_win, n_ch), sum w (n_win,))``."""
-    return np.einsum("kcl,kl->kc", x * x, weights), weights.sum(axis=1)
+    return np.einsum("kcl,kcl,kl->kc", x, x, weights), weights.sum(axis=1)
 
 
 def urms_half(sq_first: np.ndarray, w_first: np.ndarray, sq_second: np.ndarray, w_second: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

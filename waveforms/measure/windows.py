@@ -19,9 +19,9 @@ import numpy as np
 
 
 def _hat_integral(u: np.ndarray) -> np.ndarray:
-    """Integral of the unit hat function (1 - |x|, |x| < 1) from -1 to ``u``."""
+    """Integral of the unit hat function (1 - |x|, |x| < 1) from -1 to ``u``: 1/2 + u - u|u|/2 on [-1, 1]."""
     u = np.clip(u, -1.0, 1.0)
-    return np.where(u <= 0.0, 0.5 * (u + 1.0) ** 2, 0.5 + u - 0.5 * u * u)
+    return 0.5 + u - 0.5 * u * np.abs(u)
 
 
 def window_grid(start: np.ndarray, stop: np.ndarray) -> tuple[np.ndarray, int]:
@@ -37,13 +37,23 @@ def weights_on_grid(first: np.ndarray, width: int, start: np.ndarray, stop: np.n
 
     Weight of sample i = integral over [start, stop] of the hat function
     centred on i (exact integral of the linear interpolation between samples;
-    common practice, no source).  The weights sum to ``stop - start`` and are
-    additive: the weights of ``[a, m]`` and ``[m, b]`` add up to those of
-    ``[a, b]``.  Zero outside the window.
+    common practice, no source).  The weights sum to ``stop - start``; they
+    are 1 inside, 0 outside, and only the two samples next to each end need
+    the integral.  ``start >= first`` is required.
     """
-    rel = (first[:, None] + np.arange(width)[None, :]).astype(np.float64)
-    w = _hat_integral(np.asarray(stop)[:, None] - rel) - _hat_integral(np.asarray(start)[:, None] - rel)
-    return np.maximum(w, 0.0)
+    start = np.asarray(start, dtype=np.float64)
+    stop = np.asarray(stop, dtype=np.float64)
+    j = np.arange(width)[None, :]
+    lo = np.floor(start).astype(np.int64) - first          # first touched column (hat of sample floor(start))
+    hi = np.ceil(stop).astype(np.int64) - first            # last touched column
+    w = ((j >= lo[:, None] + 2) & (j <= hi[:, None] - 2)).astype(np.float64)
+    rows = np.arange(first.size)[:, None]
+    cols = np.concatenate([lo[:, None] + np.arange(2)[None, :], hi[:, None] - np.arange(2)[None, :]], axis=1)
+    cols = np.clip(cols, 0, width - 1)
+    rel = (cols + first[:, None]).astype(np.float64)
+    edge = _hat_integral(stop[:, None] - rel) - _hat_integral(start[:, None] - rel)
+    w[rows, cols] = np.maximum(edge, 0.0)
+    return w
 
 
 def window_weights(start: np.ndarray, stop: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -59,15 +69,21 @@ def window_weights(start: np.ndarray, stop: np.ndarray) -> tuple[np.ndarray, np.
     return first, weights_on_grid(first, width, start, stop)
 
 
-def gather(data: np.ndarray, first: np.ndarray, weights: np.ndarray) -> np.ndarray:
-    """Samples of every window, shape ``(n_windows, n_channels, width)``; zero where the weight is zero.
+def gather(data: np.ndarray, first: np.ndarray, width: int, has_nan: bool | None = None,
+           weights: np.ndarray | None = None) -> np.ndarray:
+    """Samples of every window, shape ``(n_windows, n_channels, width)`` (a contiguous copy).
 
-    ``data`` is ``(n_channels, n_samples)``; indices past the end are clipped
-    (their weight must be zero).  NaN samples inside a window stay NaN.
+    ``data`` is ``(n_channels, n_samples)``; rows that would run past the end
+    read zeros there (their weights must be zero).  When the block holds NaN samples and ``weights`` is given, samples of
+    zero weight are set to 0 (so a NaN just outside a window cannot reach it),
+    while a NaN inside a window stays NaN.
     """
-    n = data.shape[1]
-    idx = first[:, None] + np.arange(weights.shape[1])[None, :]
-    np.clip(idx, 0, n - 1, out=idx)
-    x = data[:, idx]  # (n_ch, n_win, width)
-    x = np.moveaxis(x, 0, 1)
-    return np.where(weights[:, None, :] > 0.0, x, 0.0)
+    if first.size and int(first.max()) + width > data.shape[1]:  # rows near the end: pad (zero weight there)
+        data = np.concatenate([data, np.zeros((data.shape[0], width))], axis=1)
+    view = np.lib.stride_tricks.sliding_window_view(data, width, axis=1)  # (n_ch, n - width + 1, width)
+    x = np.ascontiguousarray(np.swapaxes(view, 0, 1)[first])             # (n_win, n_ch, width)
+    if has_nan is None:
+        has_nan = bool(np.isnan(x).any())
+    if has_nan and weights is not None:
+        x = np.where(weights[:, None, :] > 0.0, x, 0.0)
+    return x
