@@ -75,8 +75,13 @@ def write_nameplate(path: Path, fla: float = 21.0, name: str = "demo pump motor"
 
 # -- plugin stages (registered once per process) ---------------------------------------
 def _wait(state, params) -> None:
-    if params["only_if_name_contains"] in Path(state.source).name:
-        time.sleep(params["seconds"])
+    """Sleep up to ``seconds`` while the flag file exists (for the named captures)."""
+    if params["only_if_name_contains"] not in Path(state.source).name:
+        return
+    flag = params["while_file_exists"]
+    deadline = time.monotonic() + params["seconds"]
+    while time.monotonic() < deadline and (not flag or Path(flag).exists()):
+        time.sleep(0.05)
 
 
 def _die(state, params) -> None:
@@ -91,6 +96,7 @@ def _register() -> None:
         register_stage(Stage("wait", "test only: sleep", _wait, params=(
             Param("seconds", "float", 0.0, "sleep [s]", minimum=0.0, kwarg=""),
             Param("only_if_name_contains", "str", "", "sleep only for these files", kwarg=""),
+            Param("while_file_exists", "str", "", "stop sleeping when this file is gone", kwarg=""),
         ), needs=("import",)))
     try:
         get_stage("die")

@@ -100,17 +100,36 @@ def _capture_extensions() -> set[str]:
     return exts or {".h5", ".hdf5", ".csv"}
 
 
+#: Extensions too generic to take on their own in a folder walk: such a file is
+#: taken only when an importer's sniffer recognises it (a site's notes.txt is not a capture).
+GENERIC_EXTENSIONS = frozenset({".txt", ".dat"})
+
+
 def _wanted(p: Path, exts: set[str]) -> bool:
     name = p.name
-    return not name.startswith(".") and not name.endswith(".part") and p.suffix.lower() in exts
+    if name.startswith(".") or name.endswith(".part") or p.suffix.lower() not in exts:
+        return False
+    if p.suffix.lower() in GENERIC_EXTENSIONS:
+        from .io import importers
+
+        return any(_sniff(imp, p) for imp in importers())
+    return True
+
+
+def _sniff(imp: Any, p: Path) -> bool:
+    try:
+        return bool(imp.sniff(p))
+    except Exception:  # a sniffer must not raise; a broken one means "no"
+        return False
 
 
 def discover(inputs: Sequence[str | os.PathLike[str]], exclude: Sequence[str | os.PathLike[str]] = ()) -> list[InputFile]:
     """The capture files named by folders, globs, files and fsspec URLs, sorted, without duplicates.
 
     A folder is walked recursively and keeps the files whose extension an
-    importer claims (``.h5``, ``.csv``...); a glob or a file named outright is
-    taken whatever its extension.  Paths below ``exclude`` (the output folder)
+    importer claims (``.h5``, ``.csv``...; a ``.txt`` or ``.dat`` file only
+    when an importer recognises its content); a glob or a file named outright
+    is taken whatever its extension.  Paths below ``exclude`` (the output folder)
     are left out.
 
     Raises
@@ -714,7 +733,7 @@ def _run_dask(todo: Sequence[CaptureTask], scheduler: Any, collect: Callable[[di
         raise InvalidParameterError("scheduler given but the 'distributed' package is not installed") from None
     own = not isinstance(scheduler, Client)
     try:
-        client = Client(scheduler, set_as_default=False) if own else scheduler
+        client = Client(scheduler) if own else scheduler
     except OSError as e:
         raise InvalidParameterError(f"scheduler {scheduler!r}: cannot connect ({e})") from None
     futures = []

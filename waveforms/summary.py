@@ -131,7 +131,8 @@ def summary_row(state: Any, file: str, site: str, extra: Mapping[str, Any] | Non
     ``worst_i2_i1_pct`` is the largest per-cycle ``I2_I1_pct`` of the cycle
     table; ``max_current_x_fla`` the largest per-cycle line RMS current
     (``Ia_rms``, ``Ib_rms``, ``Ic_rms``) divided by the nameplate FLA (NaN
-    without a nameplate); ``thermal_capacity_used_pct`` the thermal stage's
+    without a nameplate); both over complete cycles only (rows with a
+    tracked ``frequency_hz``); ``thermal_capacity_used_pct`` the thermal stage's
     peak ``theta_motor_pct``.  NaN means "not computed", never zero.
     """
     row: dict[str, Any] = {c: None for c in SUMMARY_COLUMNS}
@@ -150,6 +151,10 @@ def summary_row(state: Any, file: str, site: str, extra: Mapping[str, Any] | Non
     cycles = state.cycles
     row["worst_i2_i1_pct"] = math.nan
     row["max_current_x_fla"] = math.nan
+    if cycles is not None and "frequency_hz" in cycles:
+        # only complete, tracked cycles: a partial window at the capture's edge has no frequency
+        # and its "RMS" is not over a whole cycle
+        cycles = cycles[np.isfinite(cycles["frequency_hz"].to_numpy(float))]
     if cycles is not None and len(cycles):
         if "I2_I1_pct" in cycles:
             row["worst_i2_i1_pct"] = _finite_max(cycles["I2_I1_pct"])
@@ -216,7 +221,7 @@ def _fmt(value: Any, col: str) -> str:
 
 
 _SHOWN = ["file", "site", "verdict", "start", "duration_s"] + _EVENT_COLS + [
-    "worst_i2_i1_pct", "max_current_x_fla", "thermal_capacity_used_pct", "error"]
+    "worst_i2_i1_pct", "max_current_x_fla", "thermal_capacity_used_pct", "nameplate", "error"]
 
 _CSS = """
 body{font-family:sans-serif;margin:1.5em;color:#222}
