@@ -190,7 +190,7 @@ def integrate(
     closed0: tuple[bool, bool, bool] = (True, True, True),
     switch_ops: Sequence[SwitchOp] = (),
     locked: bool = False,
-    rtol: float = 1e-7,
+    rtol: float = 1e-8,
 ) -> Trajectory:
     """Integrate the model and return the states at the instants ``t_s``.
 
@@ -219,7 +219,7 @@ def integrate(
     cmds = _commands(switch_ops, t_end)
     bounds = sorted({b for b in supply.change_times_s() + load.change_times_s() + list(cmds) if 0.0 < b < t_end} | {t_end})
     m_map = line_map(machine.connection)
-    atol = np.array([1e-4, 1e-4, 1e-5, 1e-5, 1e-6, 1e-6])
+    atol = np.array([1e-5, 1e-5, 1e-7, 1e-7, 1e-6, 1e-4])  # A, A, Wb, Wb, rad/s, rad
 
     closed = list(closed0)
     pending: dict[str, float] = {}
