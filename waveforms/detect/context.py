@@ -42,6 +42,10 @@ class DetectParams:
         of the locked-rotor current scaled by the supply voltage [-] (0.5).
     min_stall_s : float
         Shortest stall reported [s] (1.0).
+    standstill_tol_3ph, standstill_tol_1ph : float
+        The stall begins when the motor's apparent impedance stays within this
+        relative distance of its final standstill value [-] (0.015 on three
+        phases, 0.0015 single-phased; chosen for about 5 % of synchronous speed).
     stalled_single_phase_frac : float
         Single-phased and stalled when the current is above this fraction of
         the locked-rotor current [-] (0.6; ideal single-phase locked-rotor
@@ -66,6 +70,8 @@ class DetectParams:
     min_open_cycles: int = 3
     stall_frac_lr: float = 0.5
     min_stall_s: float = 1.0
+    standstill_tol_3ph: float = 0.015
+    standstill_tol_1ph: float = 0.0015
     stalled_single_phase_frac: float = 0.6
     dip_threshold_pct: float = 90.0
     swell_threshold_pct: float = 110.0

@@ -77,8 +77,12 @@ def _half_cycle_matrix(inp: DetectionInput) -> tuple[np.ndarray, np.ndarray, lis
         return None
     hc = inp.half_cycles
     if hc is not None and all(f"{lab}_rms_half" in hc for lab in labels) and len(hc):
-        # a value stamped less than one cycle after the capture start covers a partial window: left out
-        hc = hc[hc["t_s"].to_numpy(float) >= 0.999 * inp.cycle_s]
+        # a value whose one-cycle window begins before the first tracked cycle (capture edge, tracker
+        # settling) is left out: it does not cover a whole cycle of the tracked frequency
+        t_ok = 0.0
+        if "tracked" in inp.cycles and inp.cycles["tracked"].astype(bool).any():
+            t_ok = float(inp.t_start_s[int(np.argmax(inp.cycles["tracked"].astype(bool).to_numpy()))])
+        hc = hc[hc["t_s"].to_numpy(float) - inp.cycle_s >= t_ok - 1e-9]
         return hc["t_s"].to_numpy(float), np.vstack([hc[f"{lab}_rms_half"].to_numpy(float) for lab in labels]), labels
     if all(f"{lab}_rms" in inp.cycles for lab in labels):
         inp.notes.append("no Urms(1/2) table: dips assessed on one-cycle RMS values (IEC 61000-4-30 asks for Urms(1/2))")
@@ -112,6 +116,14 @@ def _open_phase_explains(inp: DetectionInput, start_s: float, end_s: float | Non
     return False
 
 
+def _motor_off_at(inp: DetectionInput, t: np.ndarray) -> np.ndarray:
+    """For each Urms(1/2) time stamp: True when the cycle there carries no motor current."""
+    if not np.isfinite(inp.i_max).any():
+        return np.zeros(t.size, dtype=bool)
+    k = np.clip(np.searchsorted(inp.t_end_s, t), 0, inp.n - 1)
+    return ~inp.energised[k]
+
+
 @register("dips")
 def detect_dips(inp: DetectionInput) -> list[Event]:
     """Dips, swells and interruptions (IEC 61000-4-30 5.4, 5.5) with IEEE 1159 categories."""
@@ -136,10 +148,22 @@ def detect_dips(inp: DetectionInput) -> list[Event]:
     n = t.size
     found: list[Event] = []
     interruptions: list[tuple[float, float | None]] = []
+    motor_off = _motor_off_at(inp, t)
     for kind, mask in (("interruption", in_int), ("dip", in_dip), ("swell", in_swell)):
         for a, b in runs(mask):
             start = float(t[a])
             end = None if b >= n else float(t[b])
+            if kind == "interruption" and (a == 0 or b >= n) and motor_off[a:b].mean() > 0.9:
+                # no voltage and no current at a capture edge: the motor circuit is switched off on the
+                # supply side of the logger (or the supply is lost) -- shown as "de-energised", not as an interruption
+                interruptions.append((start, end))
+                inp.notes.append(
+                    f"no voltage and no motor current from {start:.3f} s to {'the end' if end is None else f'{end:.3f} s'}: "
+                    "motor circuit de-energised at the logger (switching device or supply); not reported as a supply interruption")
+                continue
+            end_x = math.inf if end is None else end
+            if kind == "dip" and any(s_int <= end_x and start <= (math.inf if e_int is None else e_int) for s_int, e_int in interruptions):
+                continue  # the voltage collapse around an interruption or de-energisation is that event's
             seg = pct[:, a:b]
             if kind == "swell":
                 mag = float(np.nanmax(seg))
@@ -148,8 +172,6 @@ def detect_dips(inp: DetectionInput) -> list[Event]:
                 mag = float(np.nanmin(seg))
                 thr = p.interruption_threshold_pct if kind == "interruption" else p.dip_threshold_pct
                 worst = [labels[int(k)] for k in np.flatnonzero(np.nanmin(seg, axis=1) < thr)]
-            if kind == "dip" and any(s <= start and (e is None or (end is not None and end <= e)) for s, e in interruptions):
-                continue  # the whole dip is the interruption's
             if kind == "dip" and _open_phase_explains(inp, start, end, worst):
                 continue  # an upstream open phase, reported as such
             if kind == "interruption":

@@ -166,6 +166,10 @@ def detect_open_phase(inp: DetectionInput) -> list[Event]:
                         end_s = t_ret
             else:
                 end_s, ended_by = float(inp.t_start_s[b]), "de-energised"
+                if inp.capture is not None:
+                    t_off = refine_onset_s(inp.capture, ch, (float(inp.t_start_s[max(0, b - 2)]), float(inp.t_end_s[min(inp.n - 1, b)])), f, amp)
+                    if t_off is not None:
+                        end_s = t_off
             figs["ended_by"] = ended_by
             live = [k for k in range(3) if k != j]
             seg = inp.i_mag[a:b]

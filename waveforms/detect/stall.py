@@ -19,9 +19,12 @@ References
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
-from .context import DetectionInput, runs, speed_summary
+from .context import LINES, DetectionInput, runs, speed_summary
+from .pointonwave import refine_onset_s
 from .event import Event
 from .registry import register
 
@@ -45,6 +48,89 @@ def runs_on_after(inp: DetectionInput, b: int, cycles: int = 5) -> bool:
     if b >= inp.n:
         return False
     return bool(inp.energised[b : b + cycles].all())
+
+
+_A = complex(-0.5, math.sqrt(3.0) / 2.0)  # the operator a = 1 /120 deg (Fortescue 1918)
+
+
+def _i_phasor(inp: DetectionInput, conductor: str) -> np.ndarray | None:
+    lab = inp.current_channels.get(conductor)
+    if lab is None:
+        return None
+    m, a = inp.col(f"{lab}_mag"), inp.col(f"{lab}_ang_deg")
+    if m is None or a is None:
+        return None
+    return m * np.exp(1j * np.deg2rad(a))
+
+
+def apparent_impedance(inp: DetectionInput, a: int, b: int) -> np.ndarray | None:
+    """Per-cycle complex impedance the motor presents over cycles ``[a, b)`` [ohm], or None.
+
+    Three-phase: ``V1 / I1`` (positive sequence; angles are referenced to V1).
+    Single-phased (line j dead): the live pair's line-to-line voltage over its
+    series current, ``(V_k - V_l) / I_k``.
+    """
+    ph_i = {c: _i_phasor(inp, c) for c in LINES}
+    if any(v is None for v in ph_i.values()):
+        return None
+    dead = inp.dead_line[a:b]
+    with np.errstate(all="ignore"):
+        if dead.any(axis=1).mean() > 0.5:
+            j = int(np.argmax(dead.sum(axis=0)))
+            k, l_ = LINES[(j + 1) % 3], LINES[(j + 2) % 3]
+            if inp.voltage_reference == "LN":
+                vk, vl = inp.v_phasor(k), inp.v_phasor(l_)
+                if vk is None or vl is None:
+                    return None
+                v = vk - vl
+            elif inp.voltage_reference == "LL":
+                v = inp.v_phasor(k)  # LL channel of conductor k is V(k, next k) = V(k, l)
+                if v is None:
+                    return None
+            else:
+                return None
+            return (v / ph_i[k])[a:b]
+        v1 = inp.col("V1")
+        if v1 is None:
+            return None
+        # Fortescue (1918): I1 = (Ia + a Ib + a^2 Ic) / 3
+        i1 = (ph_i["A"] + _A * ph_i["B"] + _A * _A * ph_i["C"]) / 3.0
+        return (v1 / i1)[a:b]
+
+
+def standstill_index(inp: DetectionInput, a: int, b: int) -> tuple[int, str]:
+    """First cycle of ``[a, b)`` from which the motor's impedance stays at its final (standstill) value.
+
+    While the rotor still turns, the rotor branch r2/s differs from its
+    standstill value and the apparent impedance -- above all its angle -- keeps
+    moving; once the rotor has stopped it is constant.  The onset is the cycle
+    after the last one deviating from the final value by more than the
+    tolerance (relative; ``standstill_tol_3ph`` on three phases,
+    ``standstill_tol_1ph`` single-phased, where the forward and backward
+    fields' rotor terms r2/s and r2/(2-s) cancel to first order in speed, so the
+    impedance moves far less; never below five times the plateau's own
+    scatter).  Falls back to the first high-current cycle when there are no
+    phasors.  (Equivalent-circuit reasoning, common practice, no source.)
+    """
+    n = b - a
+    single = bool(inp.dead_line[a:b].any(axis=1).mean() > 0.5)
+    tol = inp.params.standstill_tol_1ph if single else inp.params.standstill_tol_3ph
+    z = apparent_impedance(inp, a, b)
+    if z is None or n < 8:
+        return a, "high current (no phasors for the impedance test)"
+    body = z[: max(1, n - 2)]  # the last cycles may straddle the switching-off
+    tail = body[-max(4, body.size // 4):]
+    tail = tail[np.isfinite(tail)]
+    if tail.size == 0:
+        return a, "high current (impedance undefined)"
+    zf = complex(np.median(tail.real), np.median(tail.imag))
+    dev = np.abs(body - zf) / abs(zf)
+    scatter = np.abs(tail - zf) / abs(zf)
+    tol = max(tol, 5.0 * float(np.median(scatter)))
+    moving = np.flatnonzero(~(dev <= tol))
+    if moving.size == 0:
+        return a, "impedance constant from the first high-current cycle"
+    return a + int(moving[-1]) + 1, f"impedance settled to its standstill value (within {100 * tol:.0f} %)"
 
 
 def _dip_just_before(inp: DetectionInput, a: int) -> bool:
@@ -78,23 +164,40 @@ def detect_stall(inp: DetectionInput) -> list[Event]:
         if not started and ends_running and decays and _dip_just_before(inp, a):
             continue  # re-acceleration after a voltage dip
         single = bool(inp.dead_line[a:b].any(axis=1).mean() > 0.5)
+        k0, basis = (a, "energised at locked rotor") if started else standstill_index(inp, a, b)
+        stall_s = float(inp.t_start_s[k0])
+        ch = [inp.current_channels[c] for c in sorted(inp.current_channels)]
+        amp = math.sqrt(2.0) * float(np.nanmedian(seg))
+        if started and inp.capture is not None and ch:
+            t_on = refine_onset_s(inp.capture, ch, (float(inp.t_start_s[max(0, a - 1)]), float(inp.t_end_s[a])), 1.0 / inp.cycle_s, amp)
+            if t_on is not None:
+                stall_s = t_on
+        end_x = float(inp.t_end_s[-1]) if end_s is None else end_s
+        if end_x - stall_s < p.min_stall_s:
+            continue  # high current, but the rotor kept turning: an overload, not a stall
+        if end_s is not None and not ends_running and inp.capture is not None and ch:
+            t_off = refine_onset_s(inp.capture, ch, (float(inp.t_start_s[max(0, b - 2)]), float(inp.t_end_s[min(inp.n - 1, b)])), 1.0 / inp.cycle_s, amp)
+            if t_off is not None:
+                end_s = t_off
         figs = {
             "i_max_median_a": float(np.nanmedian(seg)),
             "i_max_median_pu_fla": float(np.nanmedian(seg) / inp.current_ref_a),
             "i_over_locked_rotor": float(np.nanmedian(seg) / inp.locked_rotor_ref_a),
             "locked_rotor_a": inp.locked_rotor_ref_a, "threshold_a_median": float(np.median(thr[a:b])),
             "single_phased": single, "from_energisation": started,
+            "high_current_from_s": float(inp.t_start_s[a]), "stall_onset_basis": basis,
             "ended_by": ("capture end" if end_s is None else "current fell, motor still energised" if ends_running else "de-energised"),
         }
         pf = inp.col("PF")
         if pf is not None and np.isfinite(pf[a:b]).any():
             figs["power_factor_median"] = float(np.nanmedian(np.abs(pf[a:b])))
-        figs.update(speed_summary(inp.speed, float(inp.t_start_s[a]), end_s))
+        figs.update(speed_summary(inp.speed, stall_s, end_s))
         how = "single-phased" if single else "on a three-phase supply"
         cause = "failed to start (locked rotor from energisation)" if started else "stalled while running"
+        dur = end_x - stall_s
         dur_txt = f"{dur:.2f} s" + (" (still stalled at the end of the capture)" if end_s is None else "")
         out.append(Event(
-            kind="stall", phase=None, start_s=float(inp.t_start_s[a]), end_s=end_s, detector="stall",
+            kind="stall", phase=None, start_s=stall_s, end_s=end_s, detector="stall",
             summary=(f"motor {cause} {how}: {figs['i_max_median_pu_fla']:.1f} x FLA "
                      f"({100 * figs['i_over_locked_rotor']:.0f} % of locked-rotor current) for {dur_txt}"),
             figures=figs,

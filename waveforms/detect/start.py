@@ -5,7 +5,10 @@ carried none (or a capture that begins in the locked-rotor region: a start
 already under way, flagged ``in_progress_at_capture_start``).  The start has succeeded when the current leaves the
 locked-rotor region (see `waveforms.detect.stall`) while the motor stays
 energised; the acceleration time runs from energisation to the first cycle at
-or below 110 % of the settled running current (common practice, no source).
+or below 110 % of the settled running current, as motor-protection relays
+commonly end a start (common practice, no source).  This lands somewhat after
+the rotor reaches 90 % of synchronous speed: the current is still about twice
+its running value there.
 """
 
 from __future__ import annotations
@@ -60,6 +63,12 @@ def detect_start(inp: DetectionInput) -> list[Event]:
                        f"{figs['acceleration_time_s']:.2f} s to {settled / fla:.2f} x FLA")
         else:
             end_s = float(inp.t_start_s[b]) if b < inp.n else None
+            if end_s is not None and inp.capture is not None and inp.current_channels:
+                ch = [inp.current_channels[c] for c in sorted(inp.current_channels)]
+                amp = np.sqrt(2) * float(np.nanmedian(inp.i_max[a:b]))
+                t_off = refine_onset_s(inp.capture, ch, (float(inp.t_start_s[max(0, b - 2)]), float(inp.t_end_s[min(inp.n - 1, b)])), 1.0 / inp.cycle_s, amp)
+                if t_off is not None:
+                    end_s = t_off
             figs["acceleration_time_s"] = None
             why = "still at locked-rotor current at the end of the capture" if end_s is None else "de-energised before accelerating"
             summary = f"failed start: inrush {inrush / fla:.1f} x FLA, {why}"
