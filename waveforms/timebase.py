@@ -14,7 +14,6 @@ import dataclasses
 from typing import Any
 
 import numpy as np
-import scipy.signal
 
 from .capture import Gap
 from .errors import InvalidParameterError
@@ -249,6 +248,8 @@ def infer_nominal_frequency(x: np.ndarray, sample_rate_hz: float, max_s: float =
     Welch periodogram (`scipy.signal.welch`), peak refined by parabolic
     interpolation of the log spectrum; common practice, no source.
     """
+    import scipy.signal  # here, not at module level: importing it costs ~1 s at CLI start-up
+
     x = np.asarray(x, dtype=np.float64)[: int(max_s * sample_rate_hz)]
     x = x[np.isfinite(x)]
     if x.size < 5 * sample_rate_hz / 40.0 or sample_rate_hz < 200:
