@@ -26,8 +26,9 @@ from scipy import signal
 #: range of IEC/IEEE 60255-118-1 M class at 50 and 60 Hz with margin.
 PLAUSIBLE_PERIOD_RANGE = (0.7, 1.3)
 #: Grid cycles are laid only where no tracked crossing lies within this
-#: fraction of a nominal period.
-GRID_CLEARANCE = 0.75
+#: fraction of a nominal period (so a grid cycle next to a tracked one is 1 to 2 periods long,
+#: never a stub).
+GRID_CLEARANCE = 1.0
 #: Neighbours on each side in the median of the cycle frequency.
 MEDIAN_HALF_WIDTH = 2
 

@@ -51,9 +51,9 @@ def groups(c: np.ndarray, n_cycles: int, max_order: int = MAX_ORDER) -> np.ndarr
     cs = np.concatenate([np.zeros(p.shape[:-1] + (1,)), np.cumsum(p, axis=-1)], axis=-1)
     k = np.arange(1, max_order + 1) * n_cycles
     ok = k + h < nline
-    kk = np.where(ok, k, 0) + h
-    inner = cs[..., np.minimum(kk, nline)] - cs[..., np.maximum(k - h + 1, 0)]   # lines k-h+1 .. k+h-1
-    edges = 0.5 * (p[..., np.clip(k - h, 0, nline - 1)] + p[..., np.clip(k + h, 0, nline - 1)])
+    kc = np.where(ok, k, h)                      # orders past Nyquist: any valid index, masked below
+    inner = cs[..., kc + h] - cs[..., kc - h + 1]   # lines k-h+1 .. k+h-1
+    edges = 0.5 * (p[..., kc - h] + p[..., kc + h])
     g2 = inner + edges  # IEC 61000-4-7 eq. (8)
     return np.where(ok, np.sqrt(g2), np.nan)
 
