@@ -57,6 +57,12 @@ def _shade(ax, res: AnalysisResult, legend: bool = False) -> None:
                    linewidth=0, label=label)
 
 
+def _legend(ax) -> None:
+    """Legend outside the axes on the right, only when something is labelled."""
+    if ax.get_legend_handles_labels()[0]:
+        ax.legend(loc="upper left", bbox_to_anchor=(1.0, 1.0), frameon=False)
+
+
 def _figure(height_in: float, nrows: int = 1, ncols: int = 1, **kw) -> tuple[Figure, np.ndarray]:
     """A time-plot figure with the common axes box (legend outside on the right)."""
     fig = Figure(figsize=(WIDTH_IN, height_in))
@@ -135,7 +141,7 @@ def currents_figure(res: AnalysisResult) -> Figure:
         ax.set_ylim(bottom=0)
         ax.set_xlabel("time from capture start [s]")
         ax.set_ylabel("current [A RMS]")
-        ax.legend(loc="upper left", bbox_to_anchor=(1.0, 1.0), frameon=False)
+        _legend(ax)
     return fig
 
 
@@ -156,7 +162,7 @@ def sequence_figure(res: AnalysisResult) -> Figure:
         ax.set_ylim(bottom=0)
         ax.set_xlabel("time from capture start [s]")
         ax.set_ylabel("negative / positive sequence [%]")
-        ax.legend(loc="upper left", bbox_to_anchor=(1.0, 1.0), frameon=False)
+        _legend(ax)
     return fig
 
 
@@ -181,7 +187,7 @@ def thermal_figure(res: AnalysisResult) -> Figure | None:
         ax.set_ylim(bottom=0)
         ax.set_xlabel("time from capture start [s]")
         ax.set_ylabel("thermal capacity used [%]")
-        ax.legend(loc="upper left", bbox_to_anchor=(1.0, 1.0), frameon=False)
+        _legend(ax)
     return fig
 
 
@@ -213,7 +219,7 @@ def speed_figure(res: AnalysisResult) -> Figure:
         ax.set_xlim(0, res.capture.duration_s)
         ax.set_xlabel("time from capture start [s]")
         ax.set_ylabel("rotor speed [rpm]")
-        ax.legend(loc="upper left", bbox_to_anchor=(1.0, 1.0), frameon=False)
+        _legend(ax)
     return fig
 
 
