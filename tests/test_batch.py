@@ -263,3 +263,18 @@ def test_dask_localcluster_gives_the_same_summary(tmp_path):
     drop = ["elapsed_s", "outputs", "report"]
     pd.testing.assert_frame_equal(local.summary.drop(columns=drop), remote.summary.drop(columns=drop))
     pd.testing.assert_frame_equal(local.events, remote.events)
+
+
+def test_investigate_links_each_report_and_csv_is_formula_safe(tmp_path):
+    make_capture(tmp_path / "in" / "=cmd.h5")
+    res = batch.run([tmp_path / "in"], recipe="investigate", out=tmp_path / "out", jobs=1,
+                    motor=write_nameplate(tmp_path / "plate.toml"))
+    assert res.ok, res.summary["error"].tolist()
+    report = res.summary["report"].iloc[0]
+    assert report.endswith("report.html") and (tmp_path / "out" / report).is_file()
+    folder = tmp_path / "out" / res.summary["outputs"].iloc[0]
+    assert {"result.json", "events.csv", "report.html", "cycles.parquet"} <= {p.name for p in folder.iterdir()}
+    html = (tmp_path / "out" / "index.html").read_text()
+    assert f'href="{report.replace("=", "%3D")}"' in html  # URL-quoted relative link
+    raw = (tmp_path / "out" / "summary.csv").read_text()
+    assert "\n'=cmd.h5," in raw  # a spreadsheet must not run the file name as a formula

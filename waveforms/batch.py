@@ -36,6 +36,7 @@ import contextlib
 import dataclasses
 import glob
 import hashlib
+import importlib
 import json
 import math
 import multiprocessing
@@ -63,10 +64,8 @@ MANIFEST_FOLDER = "manifest"
 CAPTURES_FOLDER = "captures"
 _MANIFEST_FORMAT = "waveforms batch entry"
 _GLOB_CHARS = re.compile(r"[*?\[]")
-#: Modules the fork server imports once, so each fresh worker starts warm.
-_PRELOAD = ["numpy", "scipy.signal", "pandas", "h5py", "waveforms.batch", "waveforms.io.builtin",
-            "waveforms.measure", "waveforms.speed", "waveforms.detect", "waveforms.analysis",
-            "waveforms.report", "waveforms.motor.thermal"]
+#: Top-level packages whose already-imported modules the fork server pre-imports.
+_PRELOAD_ROOTS = ("waveforms", "numpy", "scipy", "pandas", "pyarrow", "h5py", "tqdm")
 
 
 # -- inputs -------------------------------------------------------------------------
@@ -570,7 +569,7 @@ def run(
         if sched:
             _run_dask(todo, sched, collect)
         else:
-            _run_local(todo, n_jobs, collect)
+            _run_local(todo, n_jobs, collect, rec)
     except KeyboardInterrupt:
         interrupted = True
     finally:
@@ -635,9 +634,36 @@ def _progress(total: int, enabled: bool) -> Any:
 
 
 # -- executors -------------------------------------------------------------------------------
-def _mp_context() -> multiprocessing.context.BaseContext:
+def _warm_modules(recipe: Recipe) -> list[str]:
+    """Import, here, what the recipe's stages will import; return the module names to pre-load.
+
+    Workers are forked from a server that has imported these once, so a
+    fresh process per capture costs a fork, not a fresh import of numpy,
+    scipy, pandas and the package.
+    """
+    from .io import importers
+    from .recipe import get_stage
+
+    importers()
+    for name in recipe.stage_names:
+        lib = get_stage(name).library.split(":")[0]
+        if lib:
+            with contextlib.suppress(ImportError):
+                importlib.import_module(lib)
+    for extra in ("waveforms.analysis", "waveforms.quality", "waveforms.motor.nameplate", "pyarrow.parquet"):
+        with contextlib.suppress(ImportError):
+            importlib.import_module(extra)
+    with contextlib.suppress(ImportError):
+        from .detect import detector_names
+
+        detector_names()  # loads the built-in detector modules
+    return sorted(m for m in list(sys.modules) if m.split(".")[0] in _PRELOAD_ROOTS and "._" not in m
+                  and not m.startswith(("numpy.tests", "scipy._lib.tests")))
+
+
+def _mp_context(recipe: Recipe) -> multiprocessing.context.BaseContext:
     ctx = multiprocessing.get_context("forkserver")
-    ctx.set_forkserver_preload(_PRELOAD)
+    ctx.set_forkserver_preload(_warm_modules(recipe))
     return ctx
 
 
@@ -649,7 +675,7 @@ def _crash_entry(task: CaptureTask, why: str) -> dict[str, Any]:
     return {"format": _MANIFEST_FORMAT, "key": task.key, "row": row, "events": [], "retry": True}
 
 
-def _run_local(todo: Sequence[CaptureTask], jobs: int, collect: Callable[[dict[str, Any]], None]) -> None:
+def _run_local(todo: Sequence[CaptureTask], jobs: int, collect: Callable[[dict[str, Any]], None], recipe: Recipe) -> None:
     """Run tasks in a process pool, one fresh worker process per capture.
 
     At most ``jobs`` tasks are in flight.  When the pool breaks (a worker
@@ -666,7 +692,7 @@ def _run_local(todo: Sequence[CaptureTask], jobs: int, collect: Callable[[dict[s
         while queue or suspects or inflight:
             if pool is None:
                 pool = cf.ProcessPoolExecutor(max_workers=min(jobs, len(queue) + len(suspects)) or 1,
-                                              mp_context=_mp_context(), max_tasks_per_child=1)
+                                              mp_context=_mp_context(recipe), max_tasks_per_child=1)
             if suspects:
                 if not inflight:
                     t = suspects.popleft()

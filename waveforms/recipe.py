@@ -789,17 +789,20 @@ def _check_thermal(params: dict[str, Any]) -> None:
 
 
 def _stage_report(state: RunState, params: dict[str, Any]) -> None:
+    """result.json, events.csv and (optionally) report.html via `waveforms.report`, plus the cycle table."""
     if state.out_dir is None:
         state.notes.append("report: nothing written (no output folder)")
         return
-    from .atomic import atomic_path, write_text
+    from .atomic import atomic_path
 
     out = state.out_dir
     out.mkdir(parents=True, exist_ok=True)
-    ev = state.events_frame()
-    target = out / "events.csv"
-    write_text(target, ev.to_csv(index=False))
-    state.outputs["events_csv"] = str(target)
+    if state.analysis is not None:
+        from .report import write_report
+
+        written = write_report(state.analysis, out, html=params["html"])
+        for name, path in written.items():
+            state.outputs[{"report.html": "html", "result.json": "json", "events.csv": "events_csv"}.get(name, name)] = str(path)
     cyc = state.cycles
     if params["cycles"] != "none" and cyc is not None:
         target = out / f"cycles.{params['cycles']}"
@@ -809,10 +812,6 @@ def _stage_report(state: RunState, params: dict[str, Any]) -> None:
             else:
                 cyc.to_parquet(tmp, index=False)
         state.outputs["cycles"] = str(target)
-    if params["html"]:
-        from .report import write_report  # the analysis engineer's HTML writer
-
-        state.outputs["html"] = str(write_report(state, out))
 
 
 def _register_builtin() -> None:
@@ -858,14 +857,14 @@ def _register_builtin() -> None:
     ))
     register_stage(Stage(
         name="report",
-        description="per-capture outputs in the output folder: events.csv, the cycle table, report.html",
+        description="per-capture outputs: result.json, events.csv, report.html (after detect), the cycle table",
         run=_stage_report,
         params=(
-            Param("html", "bool", True, "write report.html (plots and the event list)", kwarg=""),
+            Param("html", "bool", True, "write report.html (plots and the event list)"),
             Param("cycles", "str", "parquet", "per-cycle table file: 'parquet', 'csv' or 'none'",
                   choices=("parquet", "csv", "none"), kwarg=""),
         ),
-        needs=("import",), library="waveforms.report",
+        needs=("import",), library="waveforms.report:write_report",
     ))
 
 

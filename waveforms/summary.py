@@ -199,12 +199,21 @@ def summary_frame(rows: Sequence[Mapping[str, Any]]) -> pd.DataFrame:
 
 
 # -- files ---------------------------------------------------------------------------
+def _csv_safe(frame: pd.DataFrame) -> pd.DataFrame:
+    """Text cells a spreadsheet would run as a formula get a leading apostrophe (common practice, no source)."""
+    out = frame.copy()
+    for c in out.columns:
+        if out[c].dtype == object or pd.api.types.is_string_dtype(out[c]):
+            out[c] = out[c].map(lambda v: "'" + v if isinstance(v, str) and v[:1] in ("=", "+", "-", "@", "\t", "\r") else v)
+    return out
+
+
 def write_summary(frame: pd.DataFrame, out_dir: str | os.PathLike[str], title: str = "Capture summary") -> dict[str, Path]:
     """Write ``summary.csv``, ``summary.parquet`` and ``index.html`` into ``out_dir``, atomically."""
     out = Path(out_dir)
     paths = {"csv": out / "summary.csv", "parquet": out / "summary.parquet", "html": out / "index.html"}
     buf = io.StringIO()
-    frame.to_csv(buf, index=False)
+    _csv_safe(frame).to_csv(buf, index=False)
     write_text(paths["csv"], buf.getvalue())
     with atomic_path(paths["parquet"]) as tmp:
         frame.to_parquet(tmp, index=False)
