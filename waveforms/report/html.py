@@ -41,6 +41,7 @@ TEMPLATE = r"""<!DOCTYPE html>
  code, pre { font-size: 11px; background: #f3f3f3; }
  pre { padding: 6px; overflow-x: auto; white-space: pre-wrap; }
  ul { margin: 4px 0; }
+ #quality li { font-size: 13px; }
 </style>
 </head>
 <body><main>

@@ -32,7 +32,7 @@ STATE_STYLE = {
     "de-energised": {"color": "#7f7f7f", "alpha": 0.22, "hatch": None},
 }
 #: Axes box of every time plot (figure fractions), so that their time axes line up.
-TIME_AXES = {"left": 0.075, "right": 0.79}
+TIME_AXES = {"left": 0.105, "right": 0.79}
 RC = {"font.size": 9, "axes.titlesize": 10, "axes.labelsize": 9, "legend.fontsize": 8}
 WIDTH_IN = 9.5
 
@@ -107,7 +107,7 @@ def timeline_figure(res: AnalysisResult) -> Figure:
                 end = end_cap if e.end_s is None else e.end_s
                 ax.barh(k, max(end - e.start_s, end_cap / 400), left=e.start_s, height=0.5, color=colours[k % len(colours)])
                 ax.plot([e.start_s], [k], marker="|", color="black", markersize=12)
-        ax.set_yticks(range(len(kinds) + 1), [*kinds, "motor state"])
+        ax.set_yticks(range(len(kinds) + 1), [*(k.replace("_", " ") for k in kinds), "motor state"])
         ax.set_xlim(0, end_cap)
         ax.set_xlabel("time from capture start [s]")
         handles = [matplotlib.patches.Patch(facecolor=STATE_STYLE[s]["color"], alpha=min(1.0, STATE_STYLE[s]["alpha"] * 2.5),
@@ -155,9 +155,11 @@ def sequence_figure(res: AnalysisResult) -> Figure:
         _style(ax)
         _shade(ax, res)
         t = _t(res)
+        off = (res.states["state"] == "de-energised").to_numpy() if len(res.states) == len(t) else np.zeros(t.size, bool)
         for col, colour, ls, lab in (("I2_I1_pct", OI["vermillion"], "-", "I2/I1"), ("V2_V1_pct", OI["blue"], "--", "V2/V1")):
             if col in res.cycles:
-                ax.plot(t, res.cycles[col].to_numpy(float), color=colour, ls=ls, lw=1.1, label=lab)
+                # a ratio of two noise figures means nothing while the motor is de-energised: not drawn
+                ax.plot(t, np.where(off, np.nan, res.cycles[col].to_numpy(float)), color=colour, ls=ls, lw=1.1, label=lab)
         ax.set_xlim(0, res.capture.duration_s)
         ax.set_ylim(bottom=0)
         ax.set_xlabel("time from capture start [s]")
