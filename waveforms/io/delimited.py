@@ -18,6 +18,7 @@ lines are kept as notes.
 
 from __future__ import annotations
 
+import concurrent.futures
 import dataclasses
 import datetime as _dt
 import re
@@ -348,6 +349,16 @@ def read_csv(path: Path, options: ReadOptions | None = None) -> Capture:
     options = options or ReadOptions()
     path = Path(path)
     mapping = parse_mapping(options.mapping, options.mapping_source or "mapping")
+    # the file's SHA-256 is computed in a thread while the parser runs (hashlib releases the GIL)
+    with concurrent.futures.ThreadPoolExecutor(max_workers=1) as pool:
+        digest = pool.submit(sha256_file, path)
+        try:
+            return _read_csv(path, options, mapping, digest)
+        finally:
+            digest.cancel()
+
+
+def _read_csv(path: Path, options: ReadOptions, mapping: Mapping, digest: concurrent.futures.Future) -> Capture:
     layout = detect_layout(path, mapping)
     meta, other_meta = _metadata(layout, path)
     notes: list[str] = []
@@ -471,7 +482,7 @@ def read_csv(path: Path, options: ReadOptions | None = None) -> Capture:
         **timebase_record,
         "source": mapping.source if options.mapping else "recognised from the header",
     })
-    prov = Provenance(source_path=str(path), sha256=sha256_file(path), importer="csv", mapping=record,
+    prov = Provenance(source_path=str(path), sha256=digest.result(), importer="csv", mapping=record,
                       notes=tuple(notes), history=tuple(history))
     return Capture(
         channels=tuple(s.channel() for s in specs), source=ArraySource(values), sample_rate_hz=float(rate),
