@@ -208,3 +208,15 @@ def test_two_pole_eccentricity_near_dc():
     tr = track_speed(x, 10000.0, p1, window_s=10.0)
     assert (tr.component == "eccentricity").all()
     assert abs(tr.slip.iloc[0] - 0.02) <= 5e-4
+
+
+def test_zoom_refinement_gives_the_same_track():
+    # chirp-z zoom refinement (Rabiner, Schafer & Rader 1969) and the parabola agree within the targets
+    x = synthetic_currents(12.0, FS_HZ, 0.027, seed=25)
+    a = track_speed(x, FS_HZ, plate(), window_s=2.0, hop_s=2.0)
+    b = track_speed(x, FS_HZ, plate(), window_s=2.0, hop_s=2.0, refine="zoom")
+    assert (a.status == "estimate").all() and (b.status == "estimate").all()
+    assert np.max(np.abs(a.slip - b.slip)) < 2e-4
+    assert np.max(np.abs(b.slip - 0.027)) <= 2e-3
+    with pytest.raises(InvalidParameterError, match="refine='fine'"):
+        SpeedSettings(refine="fine")
