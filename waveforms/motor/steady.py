@@ -101,7 +101,7 @@ def operating_point(machine: MachineParameters, supply: Supply, load: Load) -> O
     def balance(wm: float) -> float:
         return mean_torque_n_m(machine, supply, wm) - float(load_torque_n_m(kq, tst, float(wm))) - machine.friction_n_m_s * wm
 
-    slips = np.geomspace(1e-5, 1.0, 200)
+    slips = np.geomspace(1e-5, 0.9, 200)  # a running point: not the held-at-standstill balance of a resisting load
     vals = np.array([balance(ws * (1.0 - s)) for s in slips])
     k_max = int(np.argmax(vals))
     if vals[k_max] <= 0:
