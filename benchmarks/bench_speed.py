@@ -14,7 +14,7 @@ Prints, for the record in benchmarks/README.md:
    windows) against the measurement engine `waveforms.measure.measure` on the
    same file.
 
-Usage: python benchmarks/bench_speed.py [--minutes 10] [--keep] [--skip-measure]
+Usage: python benchmarks/bench_speed.py [--minutes 10] [--keep] [--skip-measure] [--only PART]
 """
 
 from __future__ import annotations
@@ -168,26 +168,31 @@ def throughput(minutes: float, keep: bool, skip_measure: bool) -> dict:
         print(f"3. throughput, {minutes:g} min at 10 kS/s, 6 channels (generated in {time.perf_counter() - t0:.1f} s, "
               f"{path.stat().st_size / 1e6:.0f} MB)")
         res = {}
-        for label, kw in (("10 s windows, slot (R known)", dict(window_s=10.0)),
-                          ("10 s windows, eccentricity", dict(window_s=10.0, components="eccentricity")),
-                          ("2 s windows, slot (R known)", dict(window_s=2.0, hop_s=1.0))):
-            best = np.inf
-            for _ in range(2):
+        tm = np.inf
+        n_cyc = 0
+        for rep in range(2):  # two rounds, interleaved with the measurement engine (shared cores: keep the best)
+            for label, kw in (("10 s windows, slot (R known)", dict(window_s=10.0)),
+                              ("10 s windows, eccentricity", dict(window_s=10.0, components="eccentricity")),
+                              ("2 s windows, slot (R known)", dict(window_s=2.0, hop_s=1.0))):
                 t0 = time.perf_counter()
                 tr = track_speed(read_capture(path), **kw)
-                best = min(best, time.perf_counter() - t0)
-            true = 0.03 + 0.005 * np.sin(2 * np.pi * tr.t_s / 120)
-            err = float(np.nanmax(np.abs(tr.slip - true)))
-            print(f"   track_speed, {label:30s}: {best:6.2f} s, {len(tr)} windows, "
-                  f"{int((tr.status == 'estimate').sum())} estimates, max |err| {err:.1e}")
-            res[label] = best
-        if not skip_measure:
-            from waveforms.measure import measure
+                el = time.perf_counter() - t0
+                if rep == 1:
+                    true = 0.03 + 0.005 * np.sin(2 * np.pi * tr.t_s / 120)
+                    err = float(np.nanmax(np.abs(tr.slip - true)))
+                    best = min(el, res[label])
+                    print(f"   track_speed, {label:30s}: {best:6.2f} s, {len(tr)} windows, "
+                          f"{int((tr.status == 'estimate').sum())} estimates, max |err| {err:.1e}")
+                res[label] = el if rep == 0 else min(el, res[label])
+            if not skip_measure:
+                from waveforms.measure import measure
 
-            t0 = time.perf_counter()
-            m = measure(read_capture(path))
-            tm = time.perf_counter() - t0
-            print(f"   waveforms.measure.measure     {'':22s}: {tm:6.2f} s, {len(m.cycles)} cycles")
+                t0 = time.perf_counter()
+                m = measure(read_capture(path))
+                tm = min(tm, time.perf_counter() - t0)
+                n_cyc = len(m.cycles)
+        if not skip_measure:
+            print(f"   waveforms.measure.measure     {'':22s}: {tm:6.2f} s, {n_cyc} cycles")
             for label, ts in res.items():
                 print(f"   ratio measure / track_speed ({label}) = {tm / ts:.1f}   (target > 1)")
             res["measure"] = tm
@@ -204,9 +209,16 @@ def main() -> None:
     ap.add_argument("--minutes", type=float, default=10.0)
     ap.add_argument("--keep", action="store_true", help="keep the generated capture")
     ap.add_argument("--skip-measure", action="store_true", help="do not time the measurement engine")
+    ap.add_argument("--only", choices=("accuracy", "stalled", "throughput"), help="run one part only")
     args = ap.parse_args()
     sys.path.insert(0, str(ROOT.parent))
-    out = {"accuracy": accuracy(), "stalled": stalled(), "throughput": throughput(args.minutes, args.keep, args.skip_measure)}
+    out = {}
+    if args.only in (None, "accuracy"):
+        out["accuracy"] = accuracy()
+    if args.only in (None, "stalled"):
+        out["stalled"] = stalled()
+    if args.only in (None, "throughput"):
+        out["throughput"] = throughput(args.minutes, args.keep, args.skip_measure)
     print(json.dumps(out))
 
 

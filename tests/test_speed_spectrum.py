@@ -79,14 +79,24 @@ def test_refine_peak_matches_scipy_zoom_fft():
     assert abs(f - grid[np.argmax(np.abs(zp) ** 2 + np.abs(zn) ** 2)]) <= grid[1] - grid[0]
 
 
-def test_decimation_filter_pass_and_stop_band():
-    # pass band flat to 0.25 fs/q, stop band >= 85 dB down beyond 0.5 fs/q (scipy.signal.freqz reference)
-    q = 8
+@pytest.mark.parametrize("q", [2, 3, 8, 31])
+def test_decimation_filter_pass_and_stop_band(q):
+    # pass band flat to 0.25 fs/q, stop band >= 85 dB down beyond 0.62 fs/q (scipy.signal.freqz reference)
     h = sp.decimation_filter(q)
-    w, r = scipy.signal.freqz(h, worN=8192, fs=1.0)
+    w, r = scipy.signal.freqz(h, worN=16384, fs=1.0)
     mag_db = 20 * np.log10(np.abs(r) + 1e-300)
     assert np.all(np.abs(mag_db[w <= 0.25 / q]) < 0.01)
-    assert np.all(mag_db[w >= 0.5 / q] < -85.0)
+    assert np.all(mag_db[w >= 0.62 / q] < -85.0)
+
+
+def test_decimation_aliases_stay_out_of_the_searched_range():
+    # a strong tone at 0.7 fs/q folds to 0.3 fs/q... and must come out >= 85 dB down; the searched range
+    # ends at 0.25 fs/q (sampling theorem; common practice, no source)
+    fs, q = 10000.0, 10
+    t = np.arange(200000) / fs
+    y = sp.decimate(np.cos(2 * np.pi * 0.7 * fs / q * t), q)
+    s = sp.window_spectrum(y[200:-200], fs / q)
+    assert 10 * np.log10(s.power.max() / 0.5) < -85.0
 
 
 def test_decimate_keeps_tone_and_timing():

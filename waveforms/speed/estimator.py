@@ -576,7 +576,7 @@ def window_detail(
     n = n_dec * q
     if not (0 <= i0 and i0 + n <= cap.n_samples):
         raise InvalidParameterError(f"window {t_start_s} s + {settings.window_s} s is outside the {cap.duration_s:.3f} s capture")
-    margin = 0 if q == 1 else int(math.ceil((40 * q + 1) / q)) * q
+    margin = 0 if q == 1 else int(math.ceil(len(decimation_filter(q)) / q)) * q
     lo, hi = max(0, i0 - margin), min(cap.n_samples, i0 + n + margin)
     y = _decimated(cap, names, q, use_sv, lo, hi)
     a = (i0 - lo) // q
