@@ -273,9 +273,11 @@ def parse_start_time(text: str, source: str, where: str) -> _dt.datetime:
     return t
 
 
-def _iso_stamps(path: Path, layout: Layout, col: str, arr: pa.ChunkedArray, mapping: Mapping) -> tuple[np.ndarray, _dt.datetime]:
-    """ISO 8601 text stamps -> seconds from the first stamp, and the first stamp (tz-aware)."""
-    s = pd.Series(arr.to_numpy(zero_copy_only=False), dtype=object)
+def iso_to_ns(s: pd.Series, mapping: Mapping, path: Path, col: str, line_of: Any) -> tuple[np.ndarray, _dt.tzinfo]:
+    """ISO 8601 text stamps -> int64 ns since the POSIX epoch (UTC), and the offset of the first stamp.
+
+    ``line_of(row) -> int`` gives the file line of a row, for messages.
+    """
     first = str(s.iloc[0]).strip()
     has_offset = bool(_OFFSET_RE.search(first))
     try:
@@ -285,7 +287,7 @@ def _iso_stamps(path: Path, layout: Layout, col: str, arr: pa.ChunkedArray, mapp
         else:
             off = mapping.time.get("utc_offset")
             if off is None:
-                raise CaptureReadError(path, f"line {layout.header_index + 2}, column {col!r}",
+                raise CaptureReadError(path, f"line {line_of(0)}, column {col!r}",
                                        f"time stamp {first!r} has no UTC offset; set [time] utc_offset = '+01:00' in a mapping file")
             tz = _parse_offset(str(off), mapping.source, "key time.utc_offset")
             ts = pd.to_datetime(s, format="ISO8601").dt.tz_localize(tz).dt.tz_convert("UTC")
@@ -293,16 +295,25 @@ def _iso_stamps(path: Path, layout: Layout, col: str, arr: pa.ChunkedArray, mapp
         bad = pd.to_datetime(s, format="ISO8601", errors="coerce", utc=has_offset)
         rows = np.flatnonzero(bad.isna().to_numpy())
         row = int(rows[0]) if rows.size else 0
-        raise CaptureReadError(path, f"line {_line_of_row(path, layout, row)}, column {col!r}",
-                               f"{s.iloc[row]!r} is not an ISO 8601 time stamp") from None
+        raise CaptureReadError(path, f"line {line_of(row)}, column {col!r}", f"{s.iloc[row]!r} is not an ISO 8601 time stamp") from None
     if ts.isna().any():
         row = int(np.flatnonzero(ts.isna().to_numpy())[0])
-        raise CaptureReadError(path, f"line {_line_of_row(path, layout, row)}, column {col!r}", "time stamp missing")
+        raise CaptureReadError(path, f"line {line_of(row)}, column {col!r}", "time stamp missing")
     naive = ts.dt.tz_convert("UTC").dt.tz_localize(None).to_numpy().astype("datetime64[ns]")
-    ns = naive.view(np.int64)
+    return naive.view(np.int64), tz  # type: ignore[return-value]
+
+
+def ns_to_datetime(ns: int, tz: _dt.tzinfo) -> _dt.datetime:
+    """A POSIX-epoch nanosecond count as an aware datetime in ``tz`` (microsecond resolution)."""
+    return (EPOCH + _dt.timedelta(microseconds=int(ns // 1000))).astimezone(tz)
+
+
+def _iso_stamps(path: Path, layout: Layout, col: str, arr: pa.ChunkedArray, mapping: Mapping) -> tuple[np.ndarray, _dt.datetime]:
+    """ISO 8601 text stamps -> seconds from the first stamp, and the first stamp (tz-aware)."""
+    s = pd.Series(arr.to_numpy(zero_copy_only=False), dtype=object)
+    ns, tz = iso_to_ns(s, mapping, path, col, lambda r: _line_of_row(path, layout, r))
     t_s = (ns - ns[0]).astype(np.float64) * 1e-9
-    start = (EPOCH + _dt.timedelta(microseconds=int(ns[0] // 1000))).astimezone(tz)
-    return t_s, start
+    return t_s, ns_to_datetime(int(ns[0]), tz)
 
 
 def _choose_time_column(layout: Layout, mapping: Mapping, path: Path) -> str | None:
@@ -358,7 +369,30 @@ def read_csv(path: Path, options: ReadOptions | None = None) -> Capture:
             digest.cancel()
 
 
-def _read_csv(path: Path, options: ReadOptions, mapping: Mapping, digest: concurrent.futures.Future) -> Capture:
+@dataclasses.dataclass
+class Plan:
+    """Everything decided before the samples are read (shared by the in-memory and streamed paths)."""
+
+    layout: Layout
+    mapping: Mapping
+    meta: dict[str, str]
+    notes: list[str]
+    time_col: str | None
+    time_format: str | None
+    specs: list
+    columns: list[str]
+    types: dict[str, pa.DataType]
+    start: _dt.datetime | None
+    given_rate: float | None
+    src: str
+
+    @property
+    def scales(self) -> np.ndarray:
+        return np.array([s.scale for s in self.specs])
+
+
+def plan_read(path: Path, options: ReadOptions, mapping: Mapping) -> Plan:
+    """Layout, channels, time column and declared values of a delimited file (reads its first 64 KiB)."""
     layout = detect_layout(path, mapping)
     meta, other_meta = _metadata(layout, path)
     notes: list[str] = []
@@ -382,18 +416,9 @@ def _read_csv(path: Path, options: ReadOptions, mapping: Mapping, digest: concur
     types: dict[str, pa.DataType] = {s.source_label: pa.float64() for s in specs}
     if time_col:
         types[time_col] = pa.float64() if time_format == "seconds" else pa.string()
-    tbl = _parse(path, layout, columns, types, time_col)
-    if tbl.num_rows == 0:
-        raise CaptureReadError(path, f"line {layout.header_index + 1}", "header row but no data rows")
-    values = np.vstack([tbl.column(s.source_label).to_numpy(zero_copy_only=False).astype(np.float64) for s in specs])
-    scales = np.array([s.scale for s in specs])
-    if np.any(scales != 1.0):
-        values *= scales[:, None]
     for s in specs:
         if s.scale != 1.0:
             notes.append(f"{s.name}: raw numbers x {s.scale:g} ({s.unit}" + (f", ratio {s.ratio:g}" if s.ratio != 1.0 else "") + ")")
-
-    # start time and rate
     src = options.mapping_source or "mapping"
     start: _dt.datetime | None = options.start_time
     if start is None and "start_time" in mapping.capture:
@@ -403,6 +428,20 @@ def _read_csv(path: Path, options: ReadOptions, mapping: Mapping, digest: concur
     given_rate = options.sample_rate_hz
     if given_rate is None and "sample_rate_hz" in mapping.capture:
         given_rate = _float_opt(mapping.capture["sample_rate_hz"], src, "key capture.sample_rate_hz")
+    return Plan(layout, mapping, meta, notes, time_col, time_format, specs, columns, types, start, given_rate, src)
+
+
+def _read_csv(path: Path, options: ReadOptions, mapping: Mapping, digest: concurrent.futures.Future) -> Capture:
+    plan = plan_read(path, options, mapping)
+    layout, meta, notes, time_col, time_format, specs = plan.layout, plan.meta, plan.notes, plan.time_col, plan.time_format, plan.specs
+    start, given_rate, src = plan.start, plan.given_rate, plan.src
+    tbl = _parse(path, layout, plan.columns, plan.types, time_col)
+    if tbl.num_rows == 0:
+        raise CaptureReadError(path, f"line {layout.header_index + 1}", "header row but no data rows")
+    values = np.vstack([tbl.column(s.source_label).to_numpy(zero_copy_only=False).astype(np.float64) for s in specs])
+    scales = plan.scales
+    if np.any(scales != 1.0):
+        values *= scales[:, None]
     history: list[str] = []
     gaps: tuple = ()
     timebase_record: dict[str, Any] = {}

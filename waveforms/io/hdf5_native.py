@@ -30,7 +30,7 @@ import datetime as _dt
 import json
 import math
 import os
-from collections.abc import Iterable, Sequence
+from collections.abc import Callable, Iterable, Sequence
 from pathlib import Path
 from typing import Any
 
@@ -250,12 +250,15 @@ def write_native_blocks(
     n_samples: int | None,
     dtype: str = "float64",
     compression: str | None = "gzip",
+    finalize: Callable[[int], dict[str, Any]] | None = None,
 ) -> Path:
     """Write blocks of samples (each ``(n_channels, n)``) as a native capture, atomically.
 
     ``n_samples`` may be None when the length is not known in advance (a
     streamed CSV); datasets then grow as blocks arrive and ``meta['n_samples']``
-    is set at the end.
+    is set at the end.  ``finalize(n_written)``, if given, is called after the
+    last block and returns file attributes to set (values known only at the
+    end of a stream: the fitted rate, gaps, provenance) before the rename.
     """
     comp_opts: dict[str, Any] = {}
     if compression == "gzip":
@@ -289,6 +292,9 @@ def write_native_blocks(
             if n_samples is not None and pos != n_samples:
                 raise WriteError(f"{target}: wrote {pos} samples, expected {n_samples}")
             fh.attrs["n_samples"] = pos
+            if finalize is not None:
+                for k, v in finalize(pos).items():
+                    fh.attrs[k] = v
     return target
 
 
