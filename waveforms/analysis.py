@@ -174,6 +174,7 @@ def merge_periods(states: pd.DataFrame) -> pd.DataFrame:
 def _t(result_start: _dt.datetime, t: float | None) -> str:
     if t is None:
         return "the end of the capture"
+    t = round(float(t), 3)  # the same rounding for the offset and the clock time
     clock = (result_start + _dt.timedelta(seconds=t)).strftime("%H:%M:%S.%f")[:-3]
     return f"{t:.3f} s ({clock})"
 
@@ -200,7 +201,9 @@ def verdict_text(
         else:
             when = f"was lost at {_t(start, e.start_s)}"
         state = f.get("motor_state", "")
-        if state == "stalled":
+        if state == "stalled" and f.get("present_at_energisation"):
+            what = "the motor could not start (no starting torque single-phased) and sat at locked-rotor current"
+        elif state == "stalled":
             what = "the motor stalled at locked-rotor current"
         elif state == "ran single-phased, then stalled":
             what = f"the motor kept running single-phased, then stalled at {_t(start, f.get('stalled_at_s'))}"
@@ -215,7 +218,8 @@ def verdict_text(
             continue  # told with the open phase
         f = e.figures
         cause = "failed to start and stayed at locked-rotor current" if f.get("from_energisation") else "stalled (locked rotor) on a healthy three-phase supply"
-        parts.append(f"The motor {cause} from {_t(start, e.start_s)} to {_t(start, e.end_s)}, "
+        until = {"de-energised": " when it was de-energised", "current fell, motor still energised": " when the current fell back (the rotor turned again)"}.get(f.get("ended_by", ""), "")
+        parts.append(f"The motor {cause} from {_t(start, e.start_s)} to {_t(start, e.end_s)}{until}, "
                      f"drawing {f.get('i_max_median_pu_fla', float('nan')):.1f} x FLA.")
     ok_starts = [e for e in starts if e.figures.get("success")]
     if ok_starts:
@@ -235,11 +239,13 @@ def verdict_text(
         txt = (f"Thermal stress: the largest line current reached {s['max_current_pu']:.1f} x FLA, "
                f"{s['time_above_fla_s']:.1f} s above FLA, thermal capacity used up to {s['thermal_capacity_used_pct']:.0f} % "
                f"(single time-constant model, tau {s['motor_tau_s']:.0f} s).") if s.get("max_current_pu") is not None else ""
+        cold = "hot" if s.get("hot_start") else "cold"
         if tripped:
-            txt += f" An overload relay set at {s['relay_setting_a']:.1f} A would have tripped: {', '.join(tripped)}"
+            txt += f" A model overload relay set at {s['relay_setting_a']:.1f} A, starting {cold}, would have tripped: {', '.join(tripped)}"
             txt += f"; {', '.join(held)} would not have tripped within the capture." if held else "."
         elif held:
-            txt += " No class 10, 20 or 30 overload relay set at FLA would have tripped within the capture."
+            txt += (f" No model overload relay of class {', '.join(c for c, _ in trips)} set at {s['relay_setting_a']:.1f} A, "
+                    f"starting {cold}, would have tripped within the capture.")
         parts.append(txt)
     elif nameplate is None:
         parts.append("No nameplate was given, so currents are not judged against FLA and thermal stress is not assessed.")
