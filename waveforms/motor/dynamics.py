@@ -16,11 +16,13 @@ open-line constraint imposed by the projector ``P`` (see
 
     (sigma Ls + m L_src) d i_s/dt = P [ M^T e - (rs + m R_src) i_s - k d psi_r/dt ]
 
-The ODE is integrated with `scipy.integrate.solve_ivp` (LSODA) segment by
-segment: a new segment starts wherever the supply, the load or a switch
-changes.  A commanded opening takes effect at the next zero of that line's
-current (a switch interrupts at current zero), found with solve_ivp's event
-location; closing is immediate.
+The ODE is integrated with LSODA segment by segment: a new segment starts
+wherever the supply, the load or a switch changes.  Plain stretches go
+through `scipy.integrate.odeint` (whose compiled loop also interpolates to
+the sample instants, so the only Python work per step is the right-hand
+side); a commanded opening takes effect at the next zero of that line's
+current (a switch interrupts at current zero), located cycle by cycle with
+`scipy.integrate.solve_ivp` event detection.  Closing is immediate.
 
 References
 ----------
@@ -38,7 +40,7 @@ import math
 from collections.abc import Sequence
 
 import numpy as np
-from scipy.integrate import solve_ivp
+from scipy.integrate import odeint, solve_ivp
 
 from ..errors import InvalidParameterError
 from .loads import OMEGA_EPS_RAD_S, Load
@@ -130,8 +132,8 @@ class _Segment:
         inv_eps = 1.0 / OMEGA_EPS_RAD_S
         cos, sin, tanh = math.cos, math.sin, math.tanh
 
-        def f(t: float, y: Sequence[float]) -> list[float]:
-            ia, ib, fa, fb, wm, _ = y
+        def f(t: float, y: np.ndarray) -> list[float]:
+            ia, ib, fa, fb, wm, _ = y.tolist()  # Python floats: much cheaper arithmetic than numpy scalars
             ea = eb = 0.0
             for w, ca, cb, sa, sb in terms:
                 cw, sw = cos(w * t), sin(w * t)
@@ -247,12 +249,16 @@ def integrate(
             ev.terminal = True  # type: ignore[attr-defined]
             events.append(ev)
         last = t_stop >= t_end
-        sel_hi = int(np.searchsorted(t_s, t_stop, side="right" if last else "left"))
+        # a pending opening waits for a current zero: search it a cycle at a time with events
+        t_goal = min(t_stop, t + 1.0 / supply.f_hz) if lines else t_stop
+        at_end = t_goal >= t_end
+        sel_hi = int(np.searchsorted(t_s, t_goal, side="right" if at_end else "left"))
         t_eval = t_s[i_next:sel_hi]
-        extra = not (t_eval.size and t_eval[-1] == t_stop)
-        if t_stop > t:
-            t_ask = np.append(t_eval, t_stop) if extra else t_eval
-            sol = solve_ivp(seg.rhs(), (t, t_stop), y, method="LSODA", t_eval=t_ask, events=events or None,
+        fired, n_got, t_reached = False, 0, t
+        if t_goal > t and events:
+            extra = not (t_eval.size and t_eval[-1] == t_goal)
+            t_ask = np.append(t_eval, t_goal) if extra else t_eval
+            sol = solve_ivp(seg.rhs(), (t, t_goal), y, method="LSODA", t_eval=t_ask, events=events,
                             rtol=rtol, atol=atol, max_step=0.25 / supply.f_hz)
             if sol.status < 0:
                 raise InvalidParameterError(f"the machine model could not be integrated at t = {t:.6f} s: {sol.message}")
@@ -266,10 +272,23 @@ def integrate(
                 t_reached = float(sol.t_events[k_ev][0])
                 y = np.asarray(sol.y_events[k_ev][0], dtype=float).copy()
             else:
-                t_reached = t_stop
+                t_reached = t_goal
                 y = sol_y[:, -1].copy()
-        else:
-            n_got, fired, t_reached = 0, False, t
+        elif t_goal > t:
+            # no event to locate: LSODA through scipy.integrate.odeint (its Fortran loop
+            # interpolates to the sample instants, no Python work per step but the RHS)
+            lead = not (t_eval.size and t_eval[0] == t)
+            trail = not (t_eval.size and t_eval[-1] == t_goal)
+            t_ask = np.concatenate(([t] if lead else [], t_eval, [t_goal] if trail else []))
+            rows, info = odeint(seg.rhs(), y, t_ask, tfirst=True, rtol=rtol, atol=atol, hmax=0.25 / supply.f_hz,
+                                mxstep=1_000_000, full_output=True)
+            if info["message"] != "Integration successful.":
+                raise InvalidParameterError(f"the machine model could not be integrated at t = {t:.6f} s: {info['message']}")
+            n_rhs += int(info["nfe"][-1])
+            n_got = t_eval.size
+            states[:, i_next : i_next + n_got] = rows[int(lead) : int(lead) + n_got].T
+            t_reached = t_goal
+            y = rows[-1].copy()
         pieces.append(Piece(t, t_reached, tuple(closed), i_next, i_next + n_got))  # type: ignore[arg-type]
         i_next += n_got
         t = t_reached
@@ -284,6 +303,8 @@ def integrate(
                     closed[jo] = False
                     interruptions.append((other, pending.pop(other), t))
             y[:2] = projector(machine.connection, tuple(closed)) @ y[:2]  # type: ignore[arg-type]
+            continue
+        if t < t_stop:  # still waiting for a current zero before the next change
             continue
         if last:
             break

@@ -172,6 +172,8 @@ def sequence(p: np.ndarray) -> tuple[complex, complex, complex]:
 
 
 def _ph(z: complex, ref_deg: float) -> dict[str, float | None]:
+    if abs(z) < 1e-6:  # a dead line or channel has no angle
+        return {"mag": 0.0, "ang_abs_deg": None, "ang_deg": None}
     ang = math.degrees(math.atan2(z.imag, z.real))
     rel = (ang - ref_deg + 180.0) % 360.0 - 180.0
     return {"mag": _f(abs(z), 4), "ang_abs_deg": _f(ang, 3), "ang_deg": _f(rel, 3)}
