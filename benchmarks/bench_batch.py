@@ -1,0 +1,143 @@
+"""Batch benchmark: 20 simulated captures through `waveforms.batch.run`.
+
+Prints wall times and ratios:
+
+* ``--jobs 1`` and ``--jobs 2`` (speed-up target >= 1.8 on 2 free cores),
+* the same tasks on a 2-worker `distributed.LocalCluster` (processes, 1 thread each),
+* the per-capture overhead of the batch machinery (hashing, a fresh worker
+  process per capture, manifest, summary) against calling `analyze` and
+  `write_report` directly in one process.
+
+The captures are simulated from the invented scenarios in sample_captures/
+with 4 seeds each, and cached in benchmarks/_data/batch/ (git-ignored).
+Run it when the machine is otherwise idle; the load average is printed before
+and after, because other processes on the same cores distort every ratio.
+
+    python benchmarks/bench_batch.py [--n 20]
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import shutil
+import sys
+import time
+import tomllib
+from pathlib import Path
+
+REPO = Path(__file__).resolve().parents[1]
+sys.path.insert(0, str(REPO))
+
+DATA = REPO / "benchmarks" / "_data" / "batch"
+SCENARIOS = ("healthy_run", "open_phase_stall", "jam", "dol_start", "unbalanced_supply")
+#: The recipe timed: the full investigation without the extra cycle-table file, so the
+#: direct baseline (analyze + write_report) does the same work.
+RECIPE = """[recipe]
+name = "bench"
+description = "investigate without the cycle-table file"
+stages = ["import", "measure", "speed", "detect", "thermal", "report"]
+[report]
+html = true
+cycles = "none"
+"""
+
+
+def make_captures(n: int) -> list[Path]:
+    from waveforms.io.hdf5_native import write_native
+    from waveforms.motor.scenario import scenario_from_dict
+    from waveforms.motor.simulate import simulate
+
+    DATA.mkdir(parents=True, exist_ok=True)
+    out = []
+    for i in range(n):
+        name = SCENARIOS[i % len(SCENARIOS)]
+        seed = 1000 + i
+        target = DATA / "captures" / f"site{i % 4}" / f"{name}_{seed}.h5"
+        if not target.exists():
+            src = REPO / "sample_captures" / f"{name}.scenario.toml"
+            data = tomllib.loads(src.read_text(encoding="utf-8"))
+            data["scenario"]["seed"] = seed
+            sc = scenario_from_dict(data, str(src), base=src.parent)
+            cap, _truth = simulate(sc)
+            target.parent.mkdir(parents=True, exist_ok=True)
+            write_native(cap, target)
+        out.append(target)
+    return out
+
+
+def load() -> str:
+    return "load average %.2f %.2f %.2f" % os.getloadavg()
+
+
+def direct(files: list[Path], out: Path) -> float:
+    """analyze + write_report in this process, one capture after the other."""
+    from waveforms.analysis import analyze
+    from waveforms.io import read_capture
+    from waveforms.report import write_report
+
+    t0 = time.perf_counter()
+    for i, f in enumerate(files):
+        res = analyze(read_capture(f))
+        write_report(res, out / f"c{i}", html=True)
+    return time.perf_counter() - t0
+
+
+def timed_batch(files_root: Path, out: Path, recipe: Path, **kw) -> tuple[float, object]:
+    from waveforms import batch
+
+    if out.exists():
+        shutil.rmtree(out)
+    t0 = time.perf_counter()
+    res = batch.run([files_root], recipe=recipe, out=out, **kw)
+    return time.perf_counter() - t0, res
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser()
+    ap.add_argument("--n", type=int, default=20)
+    args = ap.parse_args()
+    t0 = time.perf_counter()
+    files = make_captures(args.n)
+    print(f"{len(files)} captures ready in {time.perf_counter() - t0:.1f} s ({DATA / 'captures'})")
+    recipe = DATA / "bench.toml"
+    recipe.write_text(RECIPE, encoding="utf-8")
+    root = DATA / "captures"
+    work = DATA / "out"
+    print(load(), f"on {os.cpu_count()} cores")
+
+    # warm-up: start the fork server and import everything once (not timed)
+    timed_batch(root, work / "warm", recipe, jobs=1)
+
+    t_direct = direct(files, work / "direct")
+    print(f"direct analyze + write_report, 1 process: {t_direct:7.2f} s  ({t_direct / len(files):.3f} s per capture)")
+    t1, r1 = timed_batch(root, work / "jobs1", recipe, jobs=1)
+    print(f"batch --jobs 1:                           {t1:7.2f} s  ({r1.n_failed} failed)")
+    t2, r2 = timed_batch(root, work / "jobs2", recipe, jobs=2)
+    print(f"batch --jobs 2:                           {t2:7.2f} s  ({r2.n_failed} failed)")
+    t_skip, r3 = 0.0, None
+    t_skip = time.perf_counter()
+    from waveforms import batch
+
+    r3 = batch.run([root], recipe=recipe, out=work / "jobs2")
+    t_skip = time.perf_counter() - t_skip
+    print(f"rerun, all {r3.n_skipped} skipped (resume):      {t_skip:7.2f} s")
+
+    import distributed
+
+    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None) as cl:
+        timed_batch(root, work / "dask_warm", recipe, scheduler=cl.scheduler_address)  # workers import once
+        td, rd = timed_batch(root, work / "dask", recipe, scheduler=cl.scheduler_address)
+    print(f"Dask LocalCluster, 2 workers:             {td:7.2f} s  ({rd.n_failed} failed)")
+
+    same = r1.summary.drop(columns=["elapsed_s"]).equals(r2.summary.drop(columns=["elapsed_s"]))
+    print(f"speed-up jobs 2 / jobs 1:   {t1 / t2:5.2f}  (target >= 1.8)")
+    print(f"speed-up Dask 2 / jobs 1:   {t1 / td:5.2f}")
+    print(f"batch overhead per capture (jobs 1 vs direct): {(t1 - t_direct) / len(files) * 1000:7.1f} ms "
+          f"({100 * (t1 - t_direct) / t_direct:+.1f} %)")
+    print(f"jobs 1 and jobs 2 summaries identical (bar elapsed_s): {same}")
+    print(load())
+
+
+if __name__ == "__main__":
+    main()
