@@ -210,12 +210,24 @@ def prepare(capture: Capture, nominal_frequency_hz: float | None = None,
 
 
 # -- one block ------------------------------------------------------------------
-def _empty_block() -> tuple[pd.DataFrame, pd.DataFrame, pd.DataFrame]:
-    return pd.DataFrame(), pd.DataFrame(), pd.DataFrame()
+#: A block of one table: column name -> 1-D array (all the same length).
+Columns = dict[str, np.ndarray]
+
+
+def _empty_block() -> tuple[Columns, Columns, Columns]:
+    return {}, {}, {}
+
+
+def to_frame(cols: Columns) -> pd.DataFrame:
+    """A table block as a DataFrame (text columns as pandas strings)."""
+    df = pd.DataFrame(cols)
+    if "phase_sequence" in df:
+        df["phase_sequence"] = df["phase_sequence"].astype("string")
+    return df
 
 
 def process_block(data: np.ndarray, start_index: int, lead: int, trail: int, cycle_offset: int,
-                  lay: Layout, st: Settings) -> tuple[pd.DataFrame, pd.DataFrame, pd.DataFrame, int]:
+                  lay: Layout, st: Settings) -> tuple[Columns, Columns, Columns, int]:
     """Measure the cycles owned by one block.
 
     Parameters
@@ -229,7 +241,7 @@ def process_block(data: np.ndarray, start_index: int, lead: int, trail: int, cyc
 
     Returns
     -------
-    cycles, half_cycles, harmonics : DataFrame
+    cycles, half_cycles, harmonics : dict of column name -> 1-D array
     n_cycles : int
         Cycles owned (to advance ``cycle_offset``).
     """
@@ -296,7 +308,7 @@ def process_block(data: np.ndarray, start_index: int, lead: int, trail: int, cyc
     }
     _channel_columns(cols, lay, phas, rms)
     _sequence_power_columns(cols, lay, st, phas, rms, gram)
-    cycles = pd.DataFrame(cols)
+    cycles = cols
 
     # half-cycle table, time-ordered: window from cycle start k (ends at b_k), then from mid-cycle k
     t_full = (b + start_index) / fs
@@ -304,7 +316,7 @@ def process_block(data: np.ndarray, start_index: int, lead: int, trail: int, cyc
     t_all = np.concatenate([t_full, t_mid])
     order = np.argsort(t_all, kind="stable")
     vals = np.concatenate([full_rms, mid_rms[mid_ok]])[order]
-    half = pd.DataFrame({"t_s": t_all[order], **{f"{lab}_rms_half": vals[:, i] for i, lab in enumerate(lay.labels)}})
+    half = {"t_s": t_all[order], **{f"{lab}_rms_half": vals[:, i] for i, lab in enumerate(lay.labels)}}
 
     harm = _harmonic_windows(data, bnd, k0, k1, cycle_offset, start_index, lay, st)
     return cycles, half, harm, m_own
@@ -360,7 +372,7 @@ def _sequence_power_columns(cols: dict[str, Any], lay: Layout, st: Settings, pha
         if all(c in lay.vln for c in "ABC"):
             cols["V_unbal_pvur_pct"] = ub.max_deviation_pct(*(np.abs(phas[:, lay.vln[c]]) for c in "ABC"))  # Pillay 2001
         cols["V_unbal_iec_ll_pct"] = ub.iec_line_to_line_pct(*ll)          # IEC 61000-4-30 5.7.1
-        cols["phase_sequence"] = pd.array(sq.phase_sequence(v1, v2).astype(str), dtype="string")
+        cols["phase_sequence"] = sq.phase_sequence(v1, v2).astype(str)
     i1 = None
     if all(c in lay.iline for c in "ABC"):
         ia, ib, ic = (phas[:, lay.iline[c]] for c in "ABC")
@@ -435,19 +447,19 @@ def _power_columns(cols: dict[str, Any], lay: Layout, st: Settings, phas: np.nda
 
 
 def _harmonic_windows(data: np.ndarray, bnd: np.ndarray, k0: int, k1: int, cycle_offset: int,
-                      start_index: int, lay: Layout, st: Settings) -> pd.DataFrame:
+                      start_index: int, lay: Layout, st: Settings) -> Columns:
     nh, fs, n = st.harmonic_cycles, st.fs_hz, data.shape[1]
     g = cycle_offset + np.arange(k1 - k0)
     ks = k0 + np.flatnonzero(g % nh == 0)
     ks = ks[ks + nh < bnd.size]
     if ks.size == 0:
-        return pd.DataFrame()
+        return {}
     s = np.rint(bnd[ks]).astype(np.int64)
     length = np.rint(bnd[ks + nh] - bnd[ks]).astype(np.int64)
     ok = s + length <= n
     s, length, ks = s[ok], length[ok], ks[ok]
     if ks.size == 0:
-        return pd.DataFrame()
+        return {}
     n_ch = data.shape[0]
     grp = np.full((ks.size, n_ch, hm.MAX_ORDER), np.nan)
     sub = np.full((ks.size, n_ch, hm.MAX_ORDER), np.nan)
@@ -470,16 +482,33 @@ def _harmonic_windows(data: np.ndarray, bnd: np.ndarray, k0: int, k1: int, cycle
             cols[f"{lab}_h{h + 1}"] = grp[:, i, h]
         for h in range(hm.MAX_ORDER):
             cols[f"{lab}_hs{h + 1}"] = sub[:, i, h]
-    return pd.DataFrame(cols)
+    return cols
 
 
 # -- the whole capture ------------------------------------------------------------
+def iter_blocks(capture: Capture, chunk_samples: int = DEFAULT_CHUNK_SAMPLES,
+                nominal_frequency_hz: float | None = None,
+                overlap_cycles: int = DEFAULT_OVERLAP_CYCLES,
+                prepared: tuple[Layout, Settings, dict[str, Any]] | None = None,
+                ) -> Iterator[tuple[Columns, Columns, Columns]]:
+    """Like `iter_measure`, but each table block is a dict of column arrays (no pandas overhead)."""
+    if chunk_samples < 1:
+        raise InvalidParameterError(f"{chunk_samples=} must be positive")
+    lay, st, _ = prepared or prepare(capture, nominal_frequency_hz, overlap_cycles)
+    offset = 0
+    for chunk in capture.iter_chunks(chunk_samples, st.overlap_samples):
+        cyc, half, harm, m = process_block(chunk.data, chunk.start_index, chunk.lead, chunk.trail, offset, lay, st)
+        offset += m
+        if m:
+            yield cyc, half, harm
+
+
 def iter_measure(capture: Capture, chunk_samples: int = DEFAULT_CHUNK_SAMPLES,
                  nominal_frequency_hz: float | None = None,
                  overlap_cycles: int = DEFAULT_OVERLAP_CYCLES,
                  prepared: tuple[Layout, Settings, dict[str, Any]] | None = None,
                  ) -> Iterator[tuple[pd.DataFrame, pd.DataFrame, pd.DataFrame]]:
-    """Yield ``(cycles, half_cycles, harmonics)`` block by block, in time order.
+    """Yield ``(cycles, half_cycles, harmonics)`` DataFrames block by block, in time order.
 
     Parameters
     ----------
@@ -491,15 +520,15 @@ def iter_measure(capture: Capture, chunk_samples: int = DEFAULT_CHUNK_SAMPLES,
     overlap_cycles : int
         Extra nominal cycles read on each side of a block.
     """
-    if chunk_samples < 1:
-        raise InvalidParameterError(f"{chunk_samples=} must be positive")
-    lay, st, _ = prepared or prepare(capture, nominal_frequency_hz, overlap_cycles)
-    offset = 0
-    for chunk in capture.iter_chunks(chunk_samples, st.overlap_samples):
-        cyc, half, harm, m = process_block(chunk.data, chunk.start_index, chunk.lead, chunk.trail, offset, lay, st)
-        offset += m
-        if m:
-            yield cyc, half, harm
+    for cyc, half, harm in iter_blocks(capture, chunk_samples, nominal_frequency_hz, overlap_cycles, prepared):
+        yield to_frame(cyc), to_frame(half), to_frame(harm)
+
+
+def _concat(parts: list[Columns]) -> pd.DataFrame:
+    parts = [p for p in parts if p]
+    if not parts:
+        return pd.DataFrame()
+    return to_frame({k: np.concatenate([p[k] for p in parts]) for k in parts[0]})
 
 
 def measure(capture: Capture, chunk_samples: int = DEFAULT_CHUNK_SAMPLES,
@@ -523,13 +552,6 @@ def measure(capture: Capture, chunk_samples: int = DEFAULT_CHUNK_SAMPLES,
     Measurements
     """
     prepared = prepare(capture, nominal_frequency_hz, overlap_cycles)
-    parts = list(iter_measure(capture, chunk_samples, nominal_frequency_hz, overlap_cycles, prepared))
-    info = prepared[2]
-    if not parts:
-        empty = pd.DataFrame()
-        return Measurements(empty, empty, empty, info)
-    cycles = pd.concat([p[0] for p in parts], ignore_index=True)
-    half = pd.concat([p[1] for p in parts], ignore_index=True)
-    harm_parts = [p[2] for p in parts if len(p[2])]
-    harm = pd.concat(harm_parts, ignore_index=True) if harm_parts else pd.DataFrame()
-    return Measurements(cycles, half, harm, info)
+    parts = list(iter_blocks(capture, chunk_samples, nominal_frequency_hz, overlap_cycles, prepared))
+    return Measurements(_concat([p[0] for p in parts]), _concat([p[1] for p in parts]),
+                        _concat([p[2] for p in parts]), prepared[2])

@@ -15,12 +15,13 @@ from typing import Any
 
 import pandas as pd
 import pyarrow as pa
+import pyarrow.csv as pacsv
 import pyarrow.parquet as pq
 
 from ..atomic import atomic_path, write_text
 from ..capture import Capture
 from ..errors import InvalidParameterError, WriteError
-from .engine import DEFAULT_CHUNK_SAMPLES, iter_measure, prepare
+from .engine import DEFAULT_CHUNK_SAMPLES, Columns, iter_blocks, prepare
 
 TABLES = ("cycles", "half_cycles", "harmonics")
 
@@ -35,21 +36,22 @@ class _TableSink:
         self.csv_fh: Any = None
         self.rows = 0
 
-    def add(self, df: pd.DataFrame) -> None:
-        if df.empty:
+    def add(self, cols: Columns) -> None:
+        if not cols:
             return
+        table = pa.table({k: pa.array(v) for k, v in cols.items()})  # float64 columns are not copied
+        if self.schema is None:
+            self.schema = table.schema
+        table = table.cast(self.schema)
         if self.parquet_tmp is not None:
-            table = pa.Table.from_pandas(df, preserve_index=False)
             if self.writer is None:
-                self.schema = table.schema
-                self.writer = pq.ParquetWriter(self.parquet_tmp, self.schema, compression="zstd")
-            self.writer.write_table(table.cast(self.schema))
+                self.writer = pq.ParquetWriter(self.parquet_tmp, self.schema, compression="lz4")
+            self.writer.write_table(table)
         if self.csv_tmp is not None:
-            first = self.csv_fh is None
-            if first:
-                self.csv_fh = open(self.csv_tmp, "w", encoding="utf-8", newline="")
-            df.to_csv(self.csv_fh, header=first, index=False)
-        self.rows += len(df)
+            if self.csv_fh is None:
+                self.csv_fh = pacsv.CSVWriter(str(self.csv_tmp), self.schema)
+            self.csv_fh.write_table(table)
+        self.rows += table.num_rows
 
     def close(self) -> None:
         if self.writer is not None:
@@ -109,7 +111,7 @@ def write_measurements(
                    for ext in ("parquet", "csv")}
             sinks[name] = _TableSink(tmp["parquet"], tmp["csv"])
             stack.callback(sinks[name].close)  # closed before the renames (LIFO)
-        for blocks in iter_measure(capture, chunk_samples, nominal_frequency_hz, prepared=prepared):
+        for blocks in iter_blocks(capture, chunk_samples, nominal_frequency_hz, prepared=prepared):
             for name, df in zip(TABLES, blocks, strict=True):
                 sinks[name].add(df)
         for name in TABLES:
