@@ -223,8 +223,9 @@ def verdict_text(
                      f"drawing {f.get('i_max_median_pu_fla', float('nan')):.1f} x FLA.")
     ok_starts = [e for e in starts if e.figures.get("success")]
     if ok_starts:
-        times = ", ".join(f"{e.figures.get('acceleration_time_s', float('nan')):.2f} s" for e in ok_starts)
-        parts.append(f"{len(ok_starts)} successful start{'s' if len(ok_starts) > 1 else ''} (acceleration time {times}).")
+        times = "; ".join(f"at {_t(start, e.start_s)}, acceleration time {e.figures.get('acceleration_time_s', float('nan')):.2f} s"
+                          for e in ok_starts)
+        parts.append(f"{len(ok_starts)} successful start{'s' if len(ok_starts) > 1 else ''} ({times}).")
     for e in volt:
         parts.append(e.summary[0].upper() + e.summary[1:] + f", at {_t(start, e.start_s)}.")
     for e in unb:
