@@ -162,3 +162,22 @@ def test_parabolic_peak_bias_below_5e5_bin():
         f, _ = sp.parabolic_peak(s, k)
         worst = max(worst, abs(f - f0) / s.bin_hz)
     assert worst < 5e-5
+
+
+def test_candidate_floor_is_the_numpy_median_of_the_neighbourhood():
+    # the vectorised floor equals numpy.median over the same bins (numpy reference)
+    rng = np.random.default_rng(6)
+    fs, n = 500.0, 5000
+    x = np.cos(2 * np.pi * 50 * np.arange(n) / fs) + 1e-4 * rng.normal(size=n)
+    s = sp.window_spectrum(x, fs)
+    c = sp.find_candidates(s, 20.0, 45.0, 50.0, refine="none", max_peaks=6)
+    assert len(c) == 6
+    step = s.f_hz[1]
+    nh = int(np.ceil(25 * s.bin_hz / step))
+    nl = int(np.ceil(sp.MAIN_LOBE_HALF_BINS * s.bin_hz / step))
+    excl = sp.excluded_mask(s.f_hz, 50.0, 5 * s.bin_hz)
+    for f, fl in zip(c.f_hz, c.floor_power, strict=True):
+        i = int(np.argmin(np.abs(s.f_hz - f)))
+        idx = np.arange(max(i - nh, 0), min(i + nh + 1, len(s.f_hz)))
+        keep = (np.abs(idx - i) > nl) & ~excl[idx]
+        assert fl == pytest.approx(np.median(s.power[idx[keep]]), rel=1e-12)

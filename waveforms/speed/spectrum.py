@@ -335,12 +335,16 @@ def find_candidates(
     pk, widths = pk[order], widths[order]
     nh = int(np.ceil(floor_half_bins * b / step))
     nl = int(np.ceil(MAIN_LOBE_HALF_BINS * b / step))
-    fl = np.empty(pk.size)
-    for j, i in enumerate(pk):  # per candidate (a handful), not per sample
-        lo_i, hi_i = max(i - nh, 0), min(i + nh + 1, len(f))
-        idx = np.arange(lo_i, hi_i)
-        ok = (np.abs(idx - i) > nl) & ~excl[lo_i:hi_i]
-        fl[j] = np.median(pw[idx[ok]]) if ok.sum() >= 8 else np.nan
+    off = np.arange(-nh, nh + 1)
+    idx = pk[:, None] + off[None, :]
+    inside = (idx >= 0) & (idx < len(f))
+    idx = np.clip(idx, 0, len(f) - 1)
+    ok = inside & (np.abs(off)[None, :] > nl) & ~excl[idx]
+    vals = np.sort(np.where(ok, pw[idx], np.nan), axis=1)  # NaN (left-out bins) sort last
+    cnt = ok.sum(axis=1)
+    lo_m = np.take_along_axis(vals, np.maximum((cnt - 1) // 2, 0)[:, None], axis=1)[:, 0]
+    hi_m = np.take_along_axis(vals, np.maximum(cnt // 2, 0)[:, None], axis=1)[:, 0]
+    fl = np.where(cnt >= 8, 0.5 * (lo_m + hi_m), np.nan)  # row-wise median of the kept bins
     with np.errstate(divide="ignore", invalid="ignore"):
         coarse = 10.0 * np.log10(pw[pk] / fl)
     keep = np.isfinite(coarse) & (coarse >= min_prominence_db - 1.0)
