@@ -11,6 +11,7 @@ import math
 from pathlib import Path
 
 import numpy as np
+import pandas as pd
 import pytest
 from click.testing import CliRunner
 
@@ -186,4 +187,6 @@ def test_recipe_chain_agrees_with_analyze(tmp_path):
     assert [(e.kind, e.phase) for e in state.events] == [(e.kind, e.phase) for e in ref.events]
     assert [e.kind for e in state.events].count("open_phase") == 1
     assert state.verdict == ref.verdict
+    assert state.speed is not None and len(state.speed) > 0
+    pd.testing.assert_frame_equal(state.speed, ref.speed)
     assert state.thermal.summary["thermal_capacity_used_pct"] == pytest.approx(ref.thermal.summary["thermal_capacity_used_pct"])

@@ -670,6 +670,7 @@ def _speed_settings_cls() -> type:
 
 _SPEED_OWN = (
     Param("enabled", "bool", True, "estimate the speed; false = leave the speed track empty", kwarg=""),
+    # window_s comes from SpeedSettings; absent = about a sixth of the capture, 0.5-10 s (as `analyze`)
     Param("pole_pairs", "int", None, "override the nameplate's pole pairs [-]", minimum=1),
     Param("rotor_bars", "int", None, "override the nameplate's rotor bar count [-]", minimum=4),
 )
@@ -686,6 +687,9 @@ def _stage_speed(state: RunState, params: dict[str, Any]) -> None:
     if not state.capture.phase_channels("current"):
         return
     stage = _STAGES["speed"]
+    if params["window_s"] is None:
+        # the same rule as waveforms.analysis.analyze: about six windows, 0.5 s to 10 s long
+        params = {**params, "window_s": float(min(10.0, max(0.5, round(state.capture.duration_s / 6.0, 2))))}
     settings = _build_settings(_speed_settings_cls(), params, stage)
     kw = {k: params[k] for k in ("pole_pairs", "rotor_bars") if params[k] is not None}
     supply = None
