@@ -38,8 +38,12 @@ def command(inputs: tuple[str, ...], out: str, recipe: str | None, jobs: int | N
     The results inform an investigation; they do not replace protective
     devices.  Work on energized equipment only by qualified people.
     """
-    res = run(list(inputs), recipe=recipe, out=out, jobs=jobs, motor=motor, motors=motors, force=force,
-              retry_errors=retry_errors, scheduler=scheduler, progress=not quiet)
+    try:
+        res = run(list(inputs), recipe=recipe, out=out, jobs=jobs, motor=motor, motors=motors, force=force,
+                  retry_errors=retry_errors, scheduler=scheduler, progress=not quiet)
+    except KeyboardInterrupt:  # before any capture was dispatched (while hashing the inputs)
+        click.echo("interrupted before any capture started; nothing was lost", err=True)
+        sys.exit(130)
     total = len(res.summary)
     click.echo(f"{total} captures: {res.n_done} analysed now, {res.n_skipped} already done, "
                f"{res.n_failed} failed" + (" (run interrupted)" if res.interrupted else ""))
