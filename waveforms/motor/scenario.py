@@ -208,6 +208,9 @@ def scenario_from_dict(data: dict[str, Any], path: str = "<scenario>", base: Pat
         for i, o in enumerate(ops):
             if o.line not in ("A", "B", "C") or o.action not in ("open", "close"):
                 raise CaptureReadError(path, f"key switches.ops[{i}]", f"line={o.line!r} must be A/B/C and action={o.action!r} open/close")
+            if "duration_s" in sc and not (0.0 < o.time_s < float(sc["duration_s"])):
+                raise CaptureReadError(path, f"key switches.ops[{i}].time_s",
+                                       f"{o.time_s} s is outside the capture (0, {float(sc['duration_s']):g}) s; give the state at t = 0 with closed_at_start")
 
         where = "logger"
         lg = _table(top.get("logger"), "logger", path, {"sample_rate_hz", "voltages", "start_time", "adc_bits", "voltage_range_v",
