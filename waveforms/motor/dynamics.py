@@ -177,11 +177,13 @@ def _commands(ops: Sequence[SwitchOp], t_end_s: float) -> dict[float, list[Switc
     for op in ops:
         if op.line not in ("A", "B", "C") or op.action not in ("open", "close"):
             raise InvalidParameterError(f"switch operation {op!r}: line must be A/B/C and action open/close")
-        if not (0.0 < op.time_s < t_end_s):
+        if not op.time_s > 0.0:
             raise InvalidParameterError(
-                f"switch operation {op.action} {op.line} at {op.time_s} s is outside the capture (0, {t_end_s:g}) s; "
+                f"switch operation {op.action} {op.line} at {op.time_s} s is not after t = 0; "
                 "give the state at t = 0 with closed_at_start"
             )
+        if op.time_s >= t_end_s:  # after the last sample: no effect on the capture
+            continue
         out.setdefault(float(op.time_s), []).append(op)
     return out
 
