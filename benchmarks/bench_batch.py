@@ -67,7 +67,8 @@ def make_captures(n: int) -> list[Path]:
 
 
 def load() -> str:
-    return "load average %.2f %.2f %.2f" % os.getloadavg()
+    a, b, c = os.getloadavg()
+    return f"load average {a:.2f} {b:.2f} {c:.2f}"
 
 
 def direct(files: list[Path], out: Path) -> float:

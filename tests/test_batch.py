@@ -81,7 +81,7 @@ def test_summary_rows_match_the_per_capture_results(tmp_path):
     assert res.ok and res.n_done == 3
     s = res.summary.set_index("file")
     assert list(res.summary.columns) == list(SUMMARY_COLUMNS)
-    for name, row in s.iterrows():
+    for _name, row in s.iterrows():
         folder = tmp_path / "out" / row["outputs"]
         ev = pd.read_csv(folder / "events.csv")
         cyc = pd.read_parquet(folder / "cycles.parquet")
@@ -109,6 +109,8 @@ def test_summary_rows_match_the_per_capture_results(tmp_path):
     pq = pd.read_parquet(tmp_path / "out" / "summary.parquet")
     pd.testing.assert_frame_equal(pq, res.summary)
     assert set(res.events["file"]) <= set(res.summary["file"])
+    pd.testing.assert_frame_equal(res.cycles("pump-house/logger01.h5"),
+                                  pd.read_parquet(tmp_path / "out" / s.loc["pump-house/logger01.h5", "outputs"] / "cycles.parquet"))
     assert (res.events["kind"] == "open_phase").sum() == 1
 
 

@@ -48,7 +48,7 @@ import time
 import tomllib
 import traceback
 from collections import deque
-from collections.abc import Callable, Iterable, Sequence
+from collections.abc import Callable, Sequence
 from pathlib import Path
 from typing import Any
 
@@ -461,6 +461,23 @@ class BatchResult:
     def ok(self) -> bool:
         return self.n_failed == 0 and not self.interrupted
 
+    def cycles(self, file: str) -> pd.DataFrame:
+        """The per-cycle table of one capture (by its ``file`` name), read from its output folder.
+
+        Needs an output folder and a recipe whose report stage writes the table
+        (``cycles = "parquet"`` or ``"csv"``, the shipped recipes do).
+        """
+        rows = self.summary[self.summary["file"] == file]
+        if rows.empty:
+            raise InvalidParameterError(f"{file!r} is not a capture of this run")
+        if self.out is None or not rows["outputs"].iloc[0]:
+            raise InvalidParameterError(f"{file!r}: no output folder, so no cycle table was kept")
+        folder = self.out / rows["outputs"].iloc[0]
+        for name, reader in (("cycles.parquet", pd.read_parquet), ("cycles.csv", pd.read_csv)):
+            if (folder / name).is_file():
+                return reader(folder / name)
+        raise InvalidParameterError(f"{file!r}: the recipe wrote no cycle table (report.cycles = 'none'?)")
+
 
 def run(
     inputs: Sequence[str | os.PathLike[str]] | str | os.PathLike[str],
@@ -814,7 +831,3 @@ def run_one(
     return CaptureResult(summary=summary_frame([row]).iloc[0], events=state.events_frame(), cycles=state.cycles,
                          speed=state.speed, state=state)
 
-
-def iter_inputs(inputs: Iterable[str]) -> list[str]:
-    """Paths of the captures `discover` finds (for a quick look before a run)."""
-    return [f.path for f in discover(list(inputs))]

@@ -35,7 +35,6 @@ import dataclasses
 import hashlib
 import importlib
 import json
-import math
 import os
 import re
 import time
