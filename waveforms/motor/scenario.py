@@ -74,6 +74,7 @@ from __future__ import annotations
 
 import dataclasses
 import datetime as _dt
+import hashlib
 import math
 import tomllib
 from os import PathLike
@@ -121,6 +122,7 @@ class Scenario:
     windows: tuple[Window, ...] = ()
     locked_rotor: bool = False
     source_path: str = ""
+    source_sha256: str = ""
 
     def __post_init__(self) -> None:
         if not (math.isfinite(self.duration_s) and 0.05 <= self.duration_s <= 3600.0):
@@ -265,10 +267,12 @@ def load_scenario(path: str | PathLike[str]) -> Scenario:
     """Read a scenario TOML file."""
     p = Path(path)
     try:
-        with open(p, "rb") as fh:
-            data = tomllib.load(fh)
+        raw = p.read_bytes()
     except FileNotFoundError:
         raise CaptureReadError(p, "", "scenario file not found") from None
-    except tomllib.TOMLDecodeError as e:
+    try:
+        data = tomllib.loads(raw.decode("utf-8"))
+    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as e:
         raise CaptureReadError(p, "", f"not valid TOML ({e})") from None
-    return scenario_from_dict(data, str(p), p.parent)
+    sc = scenario_from_dict(data, str(p), p.parent)
+    return dataclasses.replace(sc, source_sha256=hashlib.sha256(raw).hexdigest())

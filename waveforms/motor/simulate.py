@@ -19,9 +19,7 @@ With every line open the motor's neutral is taken at source-neutral potential
 from __future__ import annotations
 
 import dataclasses
-import hashlib
 import math
-from pathlib import Path
 
 import numpy as np
 
@@ -178,11 +176,8 @@ def _capture(sc: Scenario, sim: Simulation) -> Capture:
     recorded, clipped = record(sc.logger, sim.signals, kinds, sc.supply.f_hz, sc.seed)
     sim.clipped = clipped
     chans = tuple(dataclasses.replace(c, source_label=f"sim:{c.name}") for c in standard_channels(voltages=sc.logger.voltages, currents=True))
-    sha = ""
-    if sc.source_path and Path(sc.source_path).is_file():
-        sha = hashlib.sha256(Path(sc.source_path).read_bytes()).hexdigest()
     prov = Provenance(
-        source_path=sc.source_path, sha256=sha, importer="simulator",
+        source_path=sc.source_path, sha256=sc.source_sha256, importer="simulator",
         notes=(f"simulated scenario {sc.name!r} (waveforms.motor); invented data for demonstration and tests",),
     )
     return from_arrays(

@@ -164,7 +164,13 @@ def phasors(x: np.ndarray, t_s: np.ndarray, f_hz: float) -> np.ndarray:
 
 
 def sequence(p: np.ndarray) -> tuple[complex, complex, complex]:
-    """(X0, X1, X2) from phasors (Xa, Xb, Xc), Fortescue 1918."""
+    """(X0, X1, X2) from phasors (Xa, Xb, Xc).
+
+    References
+    ----------
+    C. L. Fortescue, "Method of symmetrical co-ordinates applied to the solution of
+    polyphase networks", Trans. AIEE 37, 1918.
+    """
     x0 = (p[0] + p[1] + p[2]) / 3
     x1 = (p[0] + A_OP * p[1] + A_OP**2 * p[2]) / 3  # Fortescue: X1 = (Xa + a Xb + a^2 Xc)/3
     x2 = (p[0] + A_OP**2 * p[1] + A_OP * p[2]) / 3
@@ -180,6 +186,15 @@ def _ph(z: complex, ref_deg: float) -> dict[str, float | None]:
 
 
 def window(sim: Simulation, name: str, start_s: float, end_s: float) -> dict[str, Any]:
+    """True phasors, sequence values, unbalance, speed and power over ``[start_s, end_s)``.
+
+    References
+    ----------
+    NEMA MG-1 (line-voltage unbalance: max deviation from the mean line voltage over the
+    mean; clause 14.36 in recent editions, from memory); P. Pillay, M. Manyage,
+    "Definitions of voltage unbalance", IEEE Power Engineering Review, 2001 (PVUR);
+    IEEE 1159 (VUF = |V2|/|V1|).
+    """
     sc = sim.scenario
     f1 = sc.supply.f_hz
     t = sim.t_s
