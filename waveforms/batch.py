@@ -65,7 +65,7 @@ CAPTURES_FOLDER = "captures"
 _MANIFEST_FORMAT = "waveforms batch entry"
 _GLOB_CHARS = re.compile(r"[*?\[]")
 #: Top-level packages whose already-imported modules the fork server pre-imports.
-_PRELOAD_ROOTS = ("waveforms", "numpy", "scipy", "pandas", "pyarrow", "h5py", "tqdm")
+_PRELOAD_ROOTS = ("waveforms", "numpy", "scipy", "pandas", "pyarrow", "h5py", "matplotlib", "PIL", "jinja2", "tqdm")
 
 
 # -- inputs -------------------------------------------------------------------------
@@ -667,7 +667,10 @@ def _warm_modules(recipe: Recipe) -> list[str]:
         if lib:
             with contextlib.suppress(ImportError):
                 importlib.import_module(lib)
-    for extra in ("waveforms.analysis", "waveforms.quality", "waveforms.motor.nameplate", "pyarrow.parquet"):
+    extras = ["waveforms.analysis", "waveforms.quality", "waveforms.motor.nameplate", "pyarrow.parquet"]
+    if "report" in recipe.stage_names:
+        extras += ["waveforms.report.plots", "waveforms.report.html", "matplotlib.backends.backend_agg"]
+    for extra in extras:
         with contextlib.suppress(ImportError):
             importlib.import_module(extra)
     with contextlib.suppress(ImportError):
