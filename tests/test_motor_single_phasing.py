@@ -157,3 +157,22 @@ def test_delta_with_one_third_impedances_equals_the_star_machine_at_the_terminal
                                     xlr_ohm=0.906, rr_ohm=0.684), "C")
     assert np.allclose(rms(star.i_line_a[:, -6000:]), rms(delta.i_line_a[:, -6000:]), rtol=1e-5)
     assert np.allclose(star.omega_m_rad_s[::100], delta.omega_m_rad_s[::100], rtol=1e-6)
+
+
+def test_power_balance_while_single_phased() -> None:
+    # Energy conservation over whole cycles of steady single-phased running: electrical input
+    # = stator and rotor copper losses + mechanical power T_e w_m (stored magnetic and kinetic
+    # energy return to the same values each cycle).  Copper loss of power-invariant space
+    # vectors is r |i|^2 (Krause et al. ch. 4; common practice).  Checks the torque equation and
+    # the constrained stator equation together.
+    sim = _single_phased_run(KRAUSE_50HP, "C")
+    sl = last_cycles(sim, 60)
+    m = sim.scenario.machine
+    y = sim.trajectory.states[:, sl]
+    i_s2 = y[0] ** 2 + y[1] ** 2
+    i_r = (y[2:4] - m.lm_h * y[0:2]) / m.lr_h
+    p_in = float(np.mean(np.sum(sim.v_logger_v[:, sl] * sim.i_line_smooth_a[:, sl], axis=0)))
+    p_cu = float(np.mean(m.rs_ohm * i_s2 + m.rr_ohm * (i_r[0] ** 2 + i_r[1] ** 2)))
+    p_mech = float(np.mean(sim.torque_n_m[sl] * sim.omega_m_rad_s[sl]))
+    assert p_in > 10e3
+    assert p_in == pytest.approx(p_cu + p_mech, rel=2e-4)
