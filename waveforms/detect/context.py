@@ -58,10 +58,15 @@ class DetectParams:
         NEMA MG-1 derating starts above 1 %).
     unbalance_window_s, unbalance_min_s : float
         Rolling-median window and shortest duration of a sustained unbalance [s] (1.0, 2.0).
+    upstream_residual_tol : float
+        Upstream of the logger when the open line's line-to-line voltages moved,
+        across the onset, by more than this fraction of the line-to-line voltage
+        beyond what the supply impedance explains [-] (0.03).
     upstream_mag_tol, upstream_angle_tol_deg, upstream_v2_rise_pct : float
-        Changes of the open line's voltage (relative magnitude, angle) or of
-        V2/V1 (percentage points) beyond which the open point is upstream
-        of the logger (0.07, 8 deg, 3 %).
+        Fallback when that test cannot be made (no synchrophasor angles, or no
+        "before"): changes of the open line's voltage (relative magnitude,
+        angle) or of V2/V1 (percentage points) beyond which the open point is
+        upstream (0.07, 8 deg, 3 %).
     """
 
     energised_frac_fla: float = 0.05
@@ -80,6 +85,7 @@ class DetectParams:
     unbalance_threshold_pct: float = 1.0
     unbalance_window_s: float = 1.0
     unbalance_min_s: float = 2.0
+    upstream_residual_tol: float = 0.03
     upstream_mag_tol: float = 0.07
     upstream_angle_tol_deg: float = 8.0
     upstream_v2_rise_pct: float = 3.0

@@ -66,7 +66,88 @@ def _ratio_series(inp: DetectionInput, line: str) -> tuple[np.ndarray, complex] 
     return r, ideal
 
 
-def _location(inp: DetectionInput, line: str, a: int, b: int) -> dict:
+def window_phasors(x: np.ndarray, fs_hz: float, f_hz: float, first: int, n_windows: int) -> np.ndarray:
+    """One-cycle least-squares phasors (RMS, complex) of each row of ``x`` in a common frame.
+
+    Window ``w`` covers samples ``first + w N .. first + (w + 1) N`` (``N = fs/f``
+    rounded); in each, ``x ~ Re(sqrt(2) X exp(j 2 pi f n / fs)) + c`` with ``n``
+    the absolute sample index, so phasors of different windows compare
+    directly.  Least squares (``numpy.linalg.lstsq``) rather than a DFT bin,
+    so a non-integer number of samples per cycle costs nothing.
+
+    Returns
+    -------
+    ndarray, complex, shape (n_rows, n_windows)
+    """
+    n_cyc = int(round(fs_hz / f_hz))
+    out = np.full((x.shape[0], n_windows), np.nan + 0j)
+    for w in range(n_windows):  # a handful of windows; each solved for all rows at once
+        a = first + w * n_cyc
+        if a < 0 or a + n_cyc > x.shape[1]:
+            continue
+        n = np.arange(a, a + n_cyc)
+        ph = 2 * np.pi * f_hz * n / fs_hz
+        basis = np.column_stack([np.cos(ph), -np.sin(ph), np.ones(n_cyc)])
+        coef, *_ = np.linalg.lstsq(basis, x[:, a : a + n_cyc].T, rcond=None)
+        out[:, w] = (coef[0] + 1j * coef[1]) / math.sqrt(2.0)
+    return out
+
+
+def source_corrected_residual(inp: DetectionInput, line: str, onset_s: float) -> dict | None:
+    """How far the open line's voltages moved beyond what the supply impedance explains.
+
+    With the open point downstream of the logger every line-to-line voltage the
+    logger sees stays tied to the source: ``dV(k,l) = -Zs (dI_k - dI_l)``
+    (source EMF constant across the onset, one series impedance per line).
+    ``Zs`` is fitted (least squares over several cycles after the onset) on
+    the one channel not touching the open line; the residual of the two
+    channels through it, relative to the line-to-line voltage, is near zero
+    downstream and large upstream, where the open terminal carries the
+    motor's own voltage.  Phasors come from the samples around the onset
+    (`window_phasors`), line-to-line so that the logger's neutral does not
+    matter.  (Circuit reasoning, common practice, no source.)
+    """
+    cap = inp.capture
+    if cap is None or len(inp.voltage_channels) != 3 or len(inp.current_channels) != 3:
+        return None
+    fs = cap.sample_rate_hz
+    f = 1.0 / inp.cycle_s
+    n_cyc = int(round(fs / f))
+    pre_first = int(round(onset_s * fs)) - 4 * n_cyc - 2
+    post_first = int(round(onset_s * fs)) + 3 * n_cyc
+    n_post = 8
+    lo, hi = pre_first, post_first + (n_post + 1) * n_cyc
+    if lo < 0 or hi > cap.n_samples:
+        return None
+    vlab = [inp.voltage_channels[c] for c in LINES]
+    ilab = [inp.current_channels[c] for c in LINES]
+    x = cap.read(lo, hi, vlab + ilab)
+    if not np.isfinite(x).all():
+        return None
+    if inp.voltage_reference == "LN":
+        x = np.vstack([x[0] - x[1], x[1] - x[2], x[2] - x[0], x[3:]])  # V(c, next c) = Vc - Vnext
+    pre = window_phasors(x, fs, f, pre_first - lo, 3)
+    post = window_phasors(x, fs, f, post_first - lo, n_post)
+    v_pre, i_pre = np.mean(pre[:3], axis=1), np.mean(pre[3:], axis=1)
+    dv = post[:3] - v_pre[:, None]
+    di = post[3:] - i_pre[:, None]
+    j = LINES.index(line)
+    h = (j + 1) % 3  # channel V(next, next-next) does not touch the open line
+    d_ih = di[h] - di[(h + 1) % 3]
+    den = float(np.sum(np.abs(d_ih) ** 2))
+    zs = complex(-np.sum(np.conj(d_ih) * dv[h]) / den) if den > 0 else 0j  # least squares dV = -Zs dI
+    v_ll = float(np.abs(v_pre[h]))
+    if not (v_ll > 0 and cmath.isfinite(zs)):
+        return None
+    res = []
+    for c in (j, (j + 2) % 3):  # V(line, next) and V(prev, line)
+        pred = -zs * (di[c] - di[(c + 1) % 3])
+        res.append(float(np.median(np.abs(dv[c] - pred))) / v_ll)
+    fit = float(np.median(np.abs(dv[h] + zs * d_ih))) / v_ll
+    return {"source_impedance_ohm": [zs.real, zs.imag], "open_line_residual_pu": max(res), "healthy_channel_fit_pu": fit}
+
+
+def _location(inp: DetectionInput, line: str, a: int, b: int, onset_s: float | None = None) -> dict:
     """Upstream / downstream call with its figures."""
     got = _ratio_series(inp, line)
     if got is None:
@@ -105,12 +186,26 @@ def _location(inp: DetectionInput, line: str, a: int, b: int) -> dict:
     dv2 = figs.get("v2_v1_pct_after", 0.0) - figs.get("v2_v1_pct_before", 0.0)
     moved = abs(change - 1.0)
     figs["open_line_voltage_change_pu"] = moved
-    upstream = moved > p.upstream_mag_tol or abs(figs["open_line_voltage_angle_shift_deg"]) > p.upstream_angle_tol_deg or dv2 > p.upstream_v2_rise_pct
+    corr = None
+    if basis == "before/after" and onset_s is not None and b - a >= 12:
+        corr = source_corrected_residual(inp, line, onset_s)
+    if corr is not None:
+        figs.update(corr)
+        figs["location_basis"] = "samples before/after, supply impedance taken out"
+        r = corr["open_line_residual_pu"]
+        upstream = r > p.upstream_residual_tol
+        figs["location_reason"] = (
+            f"the open line's voltages moved {100 * r:.1f} % beyond what the supply impedance explains: the logger sees the motor's regenerated terminal"
+            if upstream else
+            f"the voltages moved only as the supply impedance explains (residual {100 * r:.1f} %) while the current died: the logger sees the supply"
+        )
+    else:
+        upstream = moved > p.upstream_mag_tol or abs(figs["open_line_voltage_angle_shift_deg"]) > p.upstream_angle_tol_deg or dv2 > p.upstream_v2_rise_pct
+        figs["location_reason"] = (
+            f"open terminal's voltage moved by {100 * moved:.0f} % ({basis}), V2/V1 rose {dv2:.1f} points"
+            if upstream else f"voltages stayed normal (change {100 * moved:.1f} %, V2/V1 +{dv2:.1f} points) while the current died"
+        )
     figs["location"] = "upstream" if upstream else "downstream"
-    figs["location_reason"] = (
-        f"open terminal's voltage moved by {100 * moved:.0f} % ({basis}), V2/V1 rose {dv2:.1f} points"
-        if upstream else f"voltages stayed normal (change {100 * moved:.1f} %, V2/V1 +{dv2:.1f} points) while the current died"
-    )
     return figs
 
 
@@ -185,7 +280,7 @@ def detect_open_phase(inp: DetectionInput) -> list[Event]:
                 if loc.get("location") in ("upstream", "downstream"):
                     figs.update(loc)
             else:
-                figs.update(_location(inp, line, a, b))
+                figs.update(_location(inp, line, a, b, start_s if refined is not None else None))
             figs.update(_motor_after(inp, start_s, end_s))
             where = {"upstream": "upstream of the logger", "downstream": "downstream of the logger (between logger and motor)"}.get(figs["location"], "at an undetermined place")
             when = "present from the capture start" if at_start else "present at energisation" if from_energisation else f"opened at {start_s:.4f} s"
