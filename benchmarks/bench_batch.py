@@ -97,7 +97,12 @@ def timed_batch(files_root: Path, out: Path, recipe: Path, **kw) -> tuple[float,
 def main() -> None:
     ap = argparse.ArgumentParser()
     ap.add_argument("--n", type=int, default=20)
+    ap.add_argument("--repeat", type=int, default=2, help="runs of each configuration; the fastest is kept")
     args = ap.parse_args()
+    import distributed
+
+    from waveforms import batch
+
     t0 = time.perf_counter()
     files = make_captures(args.n)
     print(f"{len(files)} captures ready in {time.perf_counter() - t0:.1f} s ({DATA / 'captures'})")
@@ -109,34 +114,34 @@ def main() -> None:
 
     # warm-up: start the fork server and import everything once (not timed)
     timed_batch(root, work / "warm", recipe, jobs=1)
-
-    t_direct = direct(files, work / "direct")
-    print(f"direct analyze + write_report, 1 process: {t_direct:7.2f} s  ({t_direct / len(files):.3f} s per capture)")
-    t1, r1 = timed_batch(root, work / "jobs1", recipe, jobs=1)
-    print(f"batch --jobs 1:                           {t1:7.2f} s  ({r1.n_failed} failed)")
-    t2, r2 = timed_batch(root, work / "jobs2", recipe, jobs=2)
-    print(f"batch --jobs 2:                           {t2:7.2f} s  ({r2.n_failed} failed)")
-    t_skip, r3 = 0.0, None
-    t_skip = time.perf_counter()
-    from waveforms import batch
-
-    r3 = batch.run([root], recipe=recipe, out=work / "jobs2")
-    t_skip = time.perf_counter() - t_skip
-    print(f"rerun, all {r3.n_skipped} skipped (resume):      {t_skip:7.2f} s")
-
-    import distributed
-
+    times: dict[str, list[float]] = {"direct": [], "jobs1": [], "jobs2": [], "dask": []}
+    results: dict[str, object] = {}
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None) as cl:
         timed_batch(root, work / "dask_warm", recipe, scheduler=cl.scheduler_address)  # workers import once
-        td, rd = timed_batch(root, work / "dask", recipe, scheduler=cl.scheduler_address)
-    print(f"Dask LocalCluster, 2 workers:             {td:7.2f} s  ({rd.n_failed} failed)")
-
-    same = r1.summary.drop(columns=["elapsed_s"]).equals(r2.summary.drop(columns=["elapsed_s"]))
+        for _ in range(args.repeat):
+            times["direct"].append(direct(files, work / "direct"))
+            for key, kw in (("jobs1", {"jobs": 1}), ("jobs2", {"jobs": 2}), ("dask", {"scheduler": cl.scheduler_address})):
+                t, res = timed_batch(root, work / key, recipe, **kw)
+                times[key].append(t)
+                results[key] = res
+            print("  round: " + ", ".join(f"{k} {v[-1]:.2f} s" for k, v in times.items()), "|", load())
+    t_direct, t1, t2, td = (min(times[k]) for k in ("direct", "jobs1", "jobs2", "dask"))
+    n = len(files)
+    print(f"direct analyze + write_report, 1 process: {t_direct:7.2f} s  ({t_direct / n:.3f} s per capture)")
+    for key, label in (("jobs1", "batch --jobs 1:"), ("jobs2", "batch --jobs 2:"), ("dask", "Dask LocalCluster, 2 workers:")):
+        print(f"{label:42s}{min(times[key]):7.2f} s  ({results[key].n_failed} failed)")
+    t_skip = time.perf_counter()
+    r3 = batch.run([root], recipe=recipe, out=work / "jobs2")
+    t_skip = time.perf_counter() - t_skip
+    print(f"rerun, all {r3.n_skipped} skipped (resume):        {t_skip:7.2f} s")
+    drop = ["elapsed_s", "outputs", "report"]
+    same = results["jobs1"].summary.drop(columns=drop).equals(results["jobs2"].summary.drop(columns=drop))
+    same_dask = results["jobs1"].summary.drop(columns=drop).equals(results["dask"].summary.drop(columns=drop))
     print(f"speed-up jobs 2 / jobs 1:   {t1 / t2:5.2f}  (target >= 1.8)")
     print(f"speed-up Dask 2 / jobs 1:   {t1 / td:5.2f}")
-    print(f"batch overhead per capture (jobs 1 vs direct): {(t1 - t_direct) / len(files) * 1000:7.1f} ms "
+    print(f"batch overhead per capture (jobs 1 vs direct): {(t1 - t_direct) / n * 1000:7.1f} ms "
           f"({100 * (t1 - t_direct) / t_direct:+.1f} %)")
-    print(f"jobs 1 and jobs 2 summaries identical (bar elapsed_s): {same}")
+    print(f"summaries identical (bar elapsed_s, folders): jobs1 = jobs2 {same}, jobs1 = Dask {same_dask}")
     print(load())
 
 

@@ -259,9 +259,13 @@ def test_dask_localcluster_gives_the_same_summary(tmp_path):
     plate = write_nameplate(tmp_path / "plate.toml")
     local = batch.run([tmp_path / "in"], recipe=rec, out=tmp_path / "local", jobs=2, motor=plate)
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None) as cluster:
-        remote = batch.run([tmp_path / "in"], recipe=rec, out=tmp_path / "dask", motor=plate,
-                           scheduler=cluster.scheduler_address)
+        # the scheduler given in the recipe's [batch] table (the --scheduler option overrides it)
+        rec_dask = tmp_path / "recipe_dask.toml"
+        rec_dask.write_text(rec.read_text() + f'[batch]\nscheduler = "{cluster.scheduler_address}"\n', encoding="utf-8")
+        remote = batch.run([tmp_path / "in"], recipe=rec_dask, out=tmp_path / "dask", motor=plate)
+        prefixes = set(cluster.scheduler.task_prefixes)
     assert remote.n_done == 4 and remote.n_failed == 1
+    assert "waveforms-capture" in prefixes  # the tasks really went through the cluster
     drop = ["elapsed_s", "outputs", "report"]
     pd.testing.assert_frame_equal(local.summary.drop(columns=drop), remote.summary.drop(columns=drop))
     pd.testing.assert_frame_equal(local.events, remote.events)
