@@ -51,3 +51,19 @@ def test_upstream_even_lightly_loaded(x_ohm, torque):
     # lightly loaded, the motor regenerates nearly the right voltage on the open terminal: the hard case
     f = _run("upstream", x_ohm, torque)
     assert f["location"] == "upstream", f["location_reason"]
+
+
+def test_open_at_energisation_downstream_of_logger():
+    # contactor closes A and B only; the logger sits on the supply side, so it saw three healthy
+    # voltages before the start: the open line C is downstream, and the failed start is a stall
+    d = tomllib.loads((SAMPLES / "start_open_line.scenario.toml").read_text())
+    d["scenario"]["duration_s"] = 2.0
+    d.pop("truth", None)
+    d["switches"]["open_point"] = "downstream"
+    d["switches"]["ops"] = [op for op in d["switches"].get("ops", []) if op["time_s"] < 2.0]
+    cap, truth = simulate(scenario_from_dict(d, str(SAMPLES / "x.toml"), base=SAMPLES))
+    res = analyze(cap, speed=False, quality=False)
+    ops = res.events_of("open_phase")
+    assert len(ops) == 1 and ops[0].phase == "C" and ops[0].figures["present_at_energisation"]
+    assert ops[0].figures["location"] == "downstream", ops[0].figures["location_reason"]
+    assert {e.kind for e in res.events} == {"open_phase", "stall", "start"}

@@ -137,8 +137,8 @@ def source_corrected_residual(inp: DetectionInput, line: str, onset_s: float) ->
     den = float(np.sum(np.abs(d_ih) ** 2))
     zs = complex(-np.sum(np.conj(d_ih) * dv[h]) / den) if den > 0 else 0j  # least squares dV = -Zs dI
     v_ll = float(np.abs(v_pre[h]))
-    if not (v_ll > 0 and cmath.isfinite(zs)):
-        return None
+    if not (v_ll > 0.5 * float(np.median(np.abs(post[h]))) and cmath.isfinite(zs)):
+        return None  # no supply voltage before the onset (switched on together): nothing to compare
     res = []
     for c in (j, (j + 2) % 3):  # V(line, next) and V(prev, line)
         pred = -zs * (di[c] - di[(c + 1) % 3])
@@ -187,7 +187,7 @@ def _location(inp: DetectionInput, line: str, a: int, b: int, onset_s: float | N
     moved = abs(change - 1.0)
     figs["open_line_voltage_change_pu"] = moved
     corr = None
-    if basis == "before/after" and onset_s is not None and b - a >= 12:
+    if onset_s is not None and b - a >= 12:
         corr = source_corrected_residual(inp, line, onset_s)
     if corr is not None:
         figs.update(corr)
@@ -276,7 +276,7 @@ def detect_open_phase(inp: DetectionInput) -> list[Event]:
                 figs["i2_i1_pct"] = float(np.nanmedian(i2i1[a:b]))
             if from_energisation:
                 figs.update({"location": "unknown", "location_reason": "line was already open when the motor was energised"})
-                loc = _location(inp, line, a, b)
+                loc = _location(inp, line, a, b, start_s if refined is not None else None)
                 if loc.get("location") in ("upstream", "downstream"):
                     figs.update(loc)
             else:
