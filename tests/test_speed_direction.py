@@ -57,8 +57,15 @@ def test_single_phased_running_uses_regenerated_voltage():
     vb, vc = _polar(230, -120), _polar(230, 120)
     va_regen = _polar(190, -8)
     i = [0.0, _polar(40, -150), _polar(40, 30)]  # Ib = -Ic, Ia = 0 (open line, Fortescue 1918 open-line case)
-    d = direction_from_waveforms(_wave([va_regen, vb, vc]), _wave(i), sample_rate_hz=FS, f1_hz=50.0)
+    d = direction_from_waveforms(_wave([va_regen, vb, vc]), _wave(i), sample_rate_hz=FS, f1_hz=50.0,
+                                 open_point="upstream")
     assert (d.basis == "regenerated_voltage").all() and (d.rotation == "forward").all()
+    d = direction_from_waveforms(_wave([va_regen, vb, vc]), _wave(i), sample_rate_hz=FS, f1_hz=50.0)
+    assert (d.basis == "single_phased_voltage_unverified").all() and (d.rotation == "forward").all()
+    # downstream open point: the voltage inputs see the supply, which says nothing about the rotation
+    d = direction_from_waveforms(_wave([_polar(230, 0), vb, vc]), _wave(i), sample_rate_hz=FS, f1_hz=50.0,
+                                 open_point="downstream")
+    assert (d.basis == "supply_side_voltage").all() and (d.rotation == "").all()
 
 
 def test_single_phased_stalled_has_no_direction():
@@ -68,7 +75,7 @@ def test_single_phased_stalled_has_no_direction():
     _, v1, v2 = sequence_components(va, vb, vc)
     assert abs(v1) == pytest.approx(abs(v2))
     i = [0.0, _polar(150, -150), _polar(150, 30)]
-    d = direction_from_waveforms(_wave([va, vb, vc]), _wave(i), sample_rate_hz=FS, f1_hz=50.0)
+    d = direction_from_waveforms(_wave([va, vb, vc]), _wave(i), sample_rate_hz=FS, f1_hz=50.0, open_point="upstream")
     assert (d.rotation == "").all() and (d.basis == "regenerated_voltage").all()
 
 
@@ -80,15 +87,40 @@ def test_no_voltage_single_phased_and_clash():
     assert d.basis.tolist() == ["inconsistent"] and d.rotation.tolist() == [""]
     d = rotation_direction(np.array([230.0]), np.array([1.0]), None, None, np.zeros((3, 1)))
     assert d.basis.tolist() == ["no_current"]
+    # a de-energised stretch (noise-level currents) inside a record is no_current, not a random sequence
+    il = np.array([[40.0, 0.03], [40.0, 0.02], [40.0, 0.04]])
+    d = rotation_direction(np.array([230.0, 0.1]), np.array([1.0, 0.05]), None, None, il)
+    assert d.basis.tolist() == ["three_phase", "no_current"] and d.rotation.tolist() == ["forward", ""]
+    with pytest.raises(InvalidParameterError, match="open_point='left'"):
+        rotation_direction(np.array([1.0]), np.array([0.0]), open_point="left")
 
 
 def test_from_cycle_table_columns():
     cyc = pd.DataFrame({"t_s": [0.01, 0.03], "V1": [230.0, 230.0], "V2": [1.0, 1.0], "I1": [20.0, 20.0],
                         "I2": [0.5, 0.5], "Ia_mag": [20.0, 0.1], "Ib_mag": [20.0, 30.0], "Ic_mag": [20.0, 30.0]})
-    d = direction_from_cycles(cyc)
+    d = direction_from_cycles(cyc, open_point="upstream")
     assert d.t_s.tolist() == [0.01, 0.03]
     assert d.basis.tolist() == ["three_phase", "regenerated_voltage"]
     with pytest.raises(InvalidParameterError, match="no column 't_s'"):
         direction_from_cycles(cyc.drop(columns="t_s"))
     with pytest.raises(InvalidParameterError, match="needs voltage"):
         rotation_direction()
+
+
+def test_sample_capture_open_phase_stall_direction():
+    # sample capture (simulated, invented): line B interrupted upstream of the logger at 3.5026 s, single-phased
+    # running, stall from 9.2566 s, relay opens A and C at 12.0002 s (its truth file / sample_captures/README.md)
+    from pathlib import Path
+
+    from waveforms.io.registry import read_capture
+    from waveforms.measure import measure
+
+    path = Path(__file__).resolve().parent.parent / "sample_captures" / "open_phase_stall.h5"
+    cyc = measure(read_capture(path)).cycles
+    d = direction_from_cycles(cyc, open_point="upstream")
+    t = d.t_s
+    assert ((d.basis == "three_phase") & (d.rotation == "forward"))[t < 3.4].all()
+    single = d[(t > 3.7) & (t < 6.5)]
+    assert ((single.basis == "regenerated_voltage") & (single.rotation == "forward")).all()
+    assert (d.rotation[(t > 9.5) & (t < 11.9)] == "").all()   # stalled single-phased: no direction
+    assert (d.basis[t > 12.2] == "no_current").all()          # all lines dead

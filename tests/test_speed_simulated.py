@@ -102,7 +102,7 @@ def test_single_phased_running_and_regenerated_voltage():
     assert len(after) >= 4 and (after.status == "estimate").all()
     assert np.max(np.abs(after.slip - _true_slip(truth, after))) <= 2e-3
     x = cap.read(channels=["Va", "Vb", "Vc", "Ia", "Ib", "Ic"])
-    d = direction_from_waveforms(x[:3], x[3:], sample_rate_hz=FS, f1_hz=60.0)
+    d = direction_from_waveforms(x[:3], x[3:], sample_rate_hz=FS, f1_hz=60.0, open_point="upstream")
     late = d[d.t_s > 2.5]
     assert (late.basis == "regenerated_voltage").all() and (late.rotation == "forward").all()
 
