@@ -220,3 +220,21 @@ def test_zoom_refinement_gives_the_same_track():
     assert np.max(np.abs(b.slip - 0.027)) <= 2e-3
     with pytest.raises(InvalidParameterError, match="refine='fine'"):
         SpeedSettings(refine="fine")
+
+
+def test_track_transient_follows_a_run_up():
+    # linear run-up from standstill (s = 1) to 3 % slip over 8 s; 1 s windows with the whole slip range.
+    # Near standstill the sidebands sit inside the guard zone around f1: no estimate there, never a wrong one.
+    from waveforms.speed import track_transient
+
+    T = 10.0
+    t = np.arange(int(T * FS_HZ)) / FS_HZ
+    slip = np.clip(1 - t / 8.0, 0.03, 1.0)
+    x = synthetic_currents(T, FS_HZ, slip, seed=26)
+    tr = track_transient(x, 0.0, T, FS_HZ, plate(), window_s=1.0, hop_s=0.5)
+    centre = np.clip(1 - tr.t_s / 8.0, 0.03, 1.0)
+    est = tr.status == "estimate"
+    assert est.sum() >= 0.75 * len(tr)
+    # within a 1 s window the slip moves by 0.125: the estimate stays within 0.01 of the centre value
+    assert np.max(np.abs(tr.slip[est] - centre[est])) <= 0.01
+    assert tr.slip[tr.t_end_s < 1.0].isna().all()  # first second: sidebands within the guard around f1

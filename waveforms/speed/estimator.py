@@ -481,7 +481,10 @@ def track_speed(
         ``confidence_db`` (prominence of the weakest agreeing component over
         the local median floor), ``status``, ``n_components``,
         ``f_component_hz`` (strongest agreeing component), ``i_rms_a``
-        (largest phase RMS in the band searched).  ``slip``/``rpm`` are NaN
+        (current RMS below the highest searched frequency: with three
+        currents ``sqrt(mean |i_s|^2 / 2)`` of the space vector, which is the
+        phase RMS for balanced currents and 2/sqrt(3) x the line RMS for a
+        single-phased pair; else the largest line RMS).  ``slip``/``rpm`` are NaN
         unless ``status == "estimate"``.
 
     References
