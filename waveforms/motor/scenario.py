@@ -7,8 +7,14 @@ Layout (all tables optional except ``[scenario]``, ``[supply]`` and a machine)::
     description = "..."
     duration_s = 6.0
     seed = 1
-    machine = "pump2.machine.toml"      # or an inline [machine] table
+    machine = "pump2.machine.toml"      # or an inline [machine] table, or
+                                        # [machine_from_nameplate] (see below)
     nameplate = "pump2.nameplate.toml"  # optional, attached to the capture
+
+    [machine_from_nameplate]  # instead of a machine: estimate it from the nameplate
+    inertia_kg_m2 = 2.0       # required (not on a nameplate)
+    rs_per_rr = 1.0           # assumptions, see waveforms.motor.estimate
+    x1_share = 0.4
 
     [initial]
     state = "steady"      # "steady" (running at the load's operating point),
@@ -123,6 +129,7 @@ class Scenario:
     locked_rotor: bool = False
     source_path: str = ""
     source_sha256: str = ""
+    notes: tuple[str, ...] = ()
 
     def __post_init__(self) -> None:
         if not (math.isfinite(self.duration_s) and 0.05 <= self.duration_s <= 3600.0):
@@ -164,19 +171,34 @@ def _lines(s: Any, where: str, path: str) -> tuple[bool, bool, bool]:
 def scenario_from_dict(data: dict[str, Any], path: str = "<scenario>", base: Path | None = None) -> Scenario:
     """Build a `Scenario` from a parsed TOML mapping (see the module docstring)."""
     base = base or Path(".")
-    top = _table(data, "", path, {"scenario", "initial", "machine", "load", "supply", "switches", "logger", "signatures", "truth"})
+    top = _table(data, "", path, {"scenario", "initial", "machine", "machine_from_nameplate", "load", "supply", "switches", "logger",
+                                  "signatures", "truth"})
     sc = _table(top.get("scenario"), "scenario", path, {"name", "description", "duration_s", "seed", "machine", "nameplate", "locked_rotor"})
     where = "scenario"
     try:
-        if "machine" in sc and "machine" in top:
-            raise CaptureReadError(path, "key scenario.machine", "give a machine file or an inline [machine] table, not both")
+        given = [k for k, present in (("scenario.machine", "machine" in sc), ("[machine]", "machine" in top),
+                                      ("[machine_from_nameplate]", "machine_from_nameplate" in top)) if present]
+        if len(given) != 1:
+            raise CaptureReadError(path, "key scenario.machine", "give exactly one of a machine file (scenario.machine), an inline "
+                                   f"[machine] table or [machine_from_nameplate]; found {given or 'none'}")
+        notes: tuple[str, ...] = ()
         if "machine" in sc:
             machine = load_machine(base / sc["machine"])
         elif "machine" in top:
             machine = MachineParameters.from_dict(dict(top["machine"]), f"{path} [machine]")
-        else:
-            raise CaptureReadError(path, "key scenario.machine", "missing; give a machine file or an inline [machine] table")
         nameplate = load_nameplate(base / sc["nameplate"]) if "nameplate" in sc else None
+        if "machine_from_nameplate" in top:
+            where = "machine_from_nameplate"
+            est = _table(top["machine_from_nameplate"], "machine_from_nameplate", path, {"inertia_kg_m2", "rs_per_rr", "x1_share", "friction_n_m_s"})
+            if nameplate is None:
+                raise CaptureReadError(path, "key scenario.nameplate", "missing; [machine_from_nameplate] needs a nameplate file")
+            if "inertia_kg_m2" not in est:
+                raise CaptureReadError(path, "key machine_from_nameplate.inertia_kg_m2", "missing; inertia is not on a nameplate")
+            from .estimate import machine_from_nameplate
+
+            fit = machine_from_nameplate(nameplate, float(est["inertia_kg_m2"]), rs_per_rr=float(est.get("rs_per_rr", 1.0)),
+                                         x1_share=float(est.get("x1_share", 0.4)), friction_n_m_s=float(est.get("friction_n_m_s", 0.0)))
+            machine, notes = fit.machine, fit.warnings
 
         where = "initial"
         ini = _table(top.get("initial"), "initial", path, {"state", "speed_rpm"})
@@ -255,7 +277,7 @@ def scenario_from_dict(data: dict[str, Any], path: str = "<scenario>", base: Pat
             initial_state=str(ini.get("state", "steady")), initial_speed_rpm=float(ini.get("speed_rpm", 0.0)),
             load=load, supply=supply, closed_at_start=closed0,
             switch_ops=ops, open_point=str(sw.get("open_point", "upstream")), logger=logger, signatures=signatures,
-            windows=windows, locked_rotor=bool(sc.get("locked_rotor", False)), source_path=str(path),
+            windows=windows, locked_rotor=bool(sc.get("locked_rotor", False)), source_path=str(path), notes=notes,
         )
     except InvalidParameterError as e:
         raise CaptureReadError(path, f"table [{where}]", str(e)) from None

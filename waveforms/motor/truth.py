@@ -277,6 +277,7 @@ def build_truth(sim: Simulation) -> dict[str, Any]:
         "scenario": sc.name,
         "description": sc.description,
         "seed": sc.seed,
+        "notes": list(sc.notes),
         "time_reference": "seconds from the capture's first sample",
         "capture": {
             "sample_rate_hz": sc.logger.sample_rate_hz, "n_samples": int(sim.t_s.size), "duration_s": sim.t_s.size / sc.logger.sample_rate_hz,
