@@ -14,7 +14,9 @@ a fixed column order; `write_summary` writes the three files atomically.
 
 from __future__ import annotations
 
+import base64
 import dataclasses
+import hashlib
 import html
 import io
 import math
@@ -242,27 +244,39 @@ tr.error td{background:#fbeaea}
 .caution{font-size:12px;color:#555;max-width:60em}
 """
 
-# Our own few lines: sort on a header click (numbers numerically, blanks last), filter by verdict.
+# Our own few lines: sort on a header click (numbers numerically, blanks last), filter by verdict and text.
+# The page address may carry a view: index.html#sort=-max_current_x_fla&verdict=open%20phase
 _JS = """
 (function(){
 var tbody=document.getElementById('rows'), sel=document.getElementById('verdict'), txt=document.getElementById('text');
+var heads=Array.prototype.slice.call(document.querySelectorAll('th[data-col]'));
 function key(td){var v=td.getAttribute('data-v');if(v===null||v==='')return null;var x=Number(v);return isNaN(x)?v.toLowerCase():x;}
-var dir={};
-document.querySelectorAll('th[data-col]').forEach(function(th){th.addEventListener('click',function(){
- var i=Number(th.getAttribute('data-col'));dir[i]=!dir[i];var up=dir[i]?1:-1;
+function sortBy(i,up){
  var rows=Array.prototype.slice.call(tbody.rows);
  rows.sort(function(a,b){var x=key(a.cells[i]),y=key(b.cells[i]);
   if(x===null&&y===null)return 0;if(x===null)return 1;if(y===null)return -1;
   if(typeof x!==typeof y){x=String(x);y=String(y);}return x<y?-up:x>y?up:0;});
- rows.forEach(function(r){tbody.appendChild(r);});});});
+ rows.forEach(function(r){tbody.appendChild(r);});
+ heads.forEach(function(th){th.removeAttribute('aria-sort');});
+ heads[i].setAttribute('aria-sort',up>0?'ascending':'descending');}
+heads.forEach(function(th){th.addEventListener('click',function(){
+ var i=Number(th.getAttribute('data-col'));sortBy(i,th.getAttribute('aria-sort')==='ascending'?-1:1);});});
 function filt(){var v=sel.value,t=txt.value.toLowerCase(),n=0;
  Array.prototype.forEach.call(tbody.rows,function(r){
   var ok=(v===''||r.getAttribute('data-verdict')===v)&&(t===''||r.textContent.toLowerCase().indexOf(t)>=0);
   r.style.display=ok?'':'none';if(ok)n++;});
  document.getElementById('count').textContent=n;}
-sel.addEventListener('change',filt);txt.addEventListener('input',filt);filt();
+sel.addEventListener('change',filt);txt.addEventListener('input',filt);
+location.hash.slice(1).split('&').forEach(function(kv){
+ var j=kv.indexOf('=');if(j<0)return;var k=kv.slice(0,j),v=decodeURIComponent(kv.slice(j+1));
+ if(k==='verdict'){for(var o=0;o<sel.options.length;o++){if(sel.options[o].value===v)sel.value=v;}}
+ if(k==='sort'){var up=v.charAt(0)==='-'?-1:1,name=up<0?v.slice(1):v;
+  heads.forEach(function(th,i){if(th.getAttribute('data-name')===name)sortBy(i,up);});}});
+filt();
 })();
 """
+_CSP = ("default-src 'none'; style-src 'unsafe-inline'; img-src data:; "
+        f"script-src 'sha256-{base64.b64encode(hashlib.sha256(_JS.encode()).digest()).decode()}'")
 
 
 def index_html(frame: pd.DataFrame, title: str = "Capture summary") -> str:
@@ -274,7 +288,7 @@ def index_html(frame: pd.DataFrame, title: str = "Capture summary") -> str:
     esc = html.escape
     verdicts = sorted({str(v) for v in frame["verdict"]})
     opts = "".join(f'<option value="{esc(v)}">{esc(v or "(none)")}</option>' for v in verdicts)
-    head = "".join(f'<th data-col="{i}" title="click to sort">{esc(c)}</th>' for i, c in enumerate(_SHOWN))
+    head = "".join(f'<th data-col="{i}" data-name="{esc(c)}" title="click to sort">{esc(c)}</th>' for i, c in enumerate(_SHOWN))
     body = []
     for rec in frame.to_dict("records"):
         cells = []
@@ -293,6 +307,7 @@ def index_html(frame: pd.DataFrame, title: str = "Capture summary") -> str:
     n_err = int((frame["status"] == "error").sum()) if len(frame) else 0
     return (
         "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
+        f'<meta http-equiv="Content-Security-Policy" content="{_CSP}">'
         f"<title>{esc(title)}</title><style>{_CSS}</style></head><body>\n"
         f"<h1>{esc(title)}</h1>\n"
         f"<p>{len(frame)} captures, {n_err} could not be analysed. Showing <span id=\"count\">{len(frame)}</span>.</p>\n"
