@@ -51,3 +51,18 @@ def test_sample_capture_against_truth(path):
     # every steady running window (truth slip below 0.3 throughout) is estimated
     running = steady & (st[:, 2] < 0.3) & (tr.status != "no_current").to_numpy()
     assert np.all(est[running])
+
+
+def test_supply_frequency_from_the_measurement_engine():
+    # healthy_run: supply 59.98 Hz (sample_captures/README.md); the cycle table's frequency_hz feeds the track
+    from waveforms.measure import measure
+
+    path = SAMPLES / "healthy_run.h5"
+    cap = read_capture(path)
+    truth = json.loads((SAMPLES / "healthy_run.truth.json").read_text())
+    cyc = measure(cap).cycles
+    tr = track_speed(cap, supply_hz=cyc[["t_s", "frequency_hz"]], window_s=2.0, hop_s=1.0)
+    assert (tr.status == "estimate").all()
+    np.testing.assert_allclose(tr.f_supply_hz, 59.98, atol=2e-3)
+    st = _truth_stats(truth, tr)
+    assert np.max(np.abs(tr.slip - st[:, 0])) <= 2e-3
