@@ -14,7 +14,6 @@ Public API:
 
 from .direction import direction_from_cycles, direction_from_waveforms, rotation_direction
 from .estimator import TRACK_COLUMNS, SpeedSettings, WindowResult, track_speed, track_transient, window_detail
-from .plot import plot_spectrum
 from .transient import Transient, acceleration_interval, slowdown_interval
 
 __all__ = [
@@ -22,3 +21,12 @@ __all__ = [
     "direction_from_cycles", "direction_from_waveforms", "plot_spectrum", "rotation_direction",
     "slowdown_interval", "track_speed", "track_transient", "window_detail",
 ]
+
+
+def __getattr__(name: str):
+    # the plot pulls in matplotlib: import it only when asked for
+    if name == "plot_spectrum":
+        from .plot import plot_spectrum
+
+        return plot_spectrum
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
