@@ -18,7 +18,7 @@ from .readopts import options_from, read_options
 @click.option("--csv/--no-csv", "csv", default=True, show_default=True, help="Also write CSV beside Parquet.")
 @click.option("--intervals", "intervals", multiple=True, type=click.Choice(["basic", "3s", "10min"]),
               help="Also write aggregated intervals (10/12-cycle, 3 s, 10 min) with dip/interruption flags. Repeatable.")
-@click.option("--chunk", "chunk_samples", type=click.IntRange(min=1000), default=1 << 19, show_default=True,
+@click.option("--chunk", "chunk_samples", type=click.IntRange(min=1000), default=1 << 18, show_default=True,
               help="Samples per processing block (memory bound; results do not depend on it).")
 @read_options
 def command(source: str, out_dir: str, stem: str | None, csv: bool, intervals: tuple[str, ...],

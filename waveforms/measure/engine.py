@@ -32,7 +32,7 @@ from . import sequence as sq
 from . import unbalance as ub
 from . import windows as wn
 
-DEFAULT_CHUNK_SAMPLES = 1 << 19
+DEFAULT_CHUNK_SAMPLES = 1 << 18
 DEFAULT_OVERLAP_CYCLES = 30
 #: Survey: blocks read before the main pass to fix the reference level and
 #: (when unknown) the nominal frequency, the same for every block size.
