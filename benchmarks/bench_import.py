@@ -113,6 +113,7 @@ def main() -> None:
     ap.add_argument("--csv-mb", type=float, default=100.0)
     ap.add_argument("--h5-gb", type=float, default=1.0)
     ap.add_argument("--repeat", type=int, default=2)
+    ap.add_argument("--scale-mb", type=float, default=300.0, help="larger CSV for the memory-scaling figure (0: skip)")
     ap.add_argument("--keep", action="store_true", help="keep the generated files")
     a = ap.parse_args()
     DATA.mkdir(parents=True, exist_ok=True)
@@ -141,7 +142,20 @@ def main() -> None:
         print(f"  ratio ours / bare pandas pyarrow     {t_ours / t_pd_arrow:7.2f}")
         rss_csv, _ = max_rss_mb(py + ["inspect", str(csv_path)])
         print(f"  inspect peak RSS                     {rss_csv:7.0f} MB (the CSV importer holds the capture in memory)")
+        conv = DATA / "bench_from_csv.h5"
+        rss_conv, t_conv = max_rss_mb(py + ["convert", str(csv_path), str(conv)])
+        print(f"  convert CSV -> .h5 (streamed)        {t_conv:7.2f} s  peak RSS {rss_conv:.0f} MB (incl. start-up and gzip writing)")
+        conv.unlink()
         csv_path.unlink()
+        if a.scale_mb > 0:  # memory against file size: streamed convert vs the in-memory importer
+            big = DATA / "bench_big.csv"
+            make_csv(big, a.scale_mb)
+            rss_big_conv, _ = max_rss_mb(py + ["convert", str(big), str(conv)])
+            rss_big_insp, _ = max_rss_mb(py + ["inspect", str(big)])
+            print(f"  {big.stat().st_size / 1e6:.0f} MB CSV: convert (streamed) peak RSS {rss_big_conv:.0f} MB, "
+                  f"inspect (in memory) peak RSS {rss_big_insp:.0f} MB")
+            conv.unlink()
+            big.unlink()
         # -- native HDF5 ------------------------------------------------------------
         t0 = time.perf_counter()
         n_h5 = make_h5(h5_path, a.h5_gb)
@@ -175,7 +189,7 @@ def main() -> None:
               f"file holds {raw_gb * 1e3:.0f} MB of samples; {t_inspect:.1f} s)")
     finally:
         if not a.keep:
-            for p in (csv_path, h5_path):
+            for p in (csv_path, h5_path, DATA / "bench_from_csv.h5", DATA / "bench_big.csv"):
                 if p.exists():
                     p.unlink()
             if DATA.exists() and not any(DATA.iterdir()):

@@ -39,7 +39,7 @@ from .hdf5_native import _meta_of, write_native_blocks
 from .mapping import mapping_record, parse_mapping
 from .registry import ReadOptions
 
-BLOCK_BYTES = 1 << 24
+BLOCK_BYTES = 1 << 22
 NAN_BLOCK = 1 << 20
 
 

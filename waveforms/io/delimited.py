@@ -31,7 +31,7 @@ import pyarrow as pa
 import pyarrow.csv as pacsv
 
 from ..capture import ArraySource, Capture, Provenance
-from ..errors import CaptureReadError, InvalidParameterError, MappingError
+from ..errors import CaptureReadError, MappingError
 from ..hashing import sha256_file
 from .. import timebase
 from .mapping import (
@@ -68,9 +68,12 @@ class Layout:
 # -- layout -----------------------------------------------------------------------------
 def _head_text(path: Path, encoding: str | None) -> tuple[str, str, bool]:
     """First bytes of the file decoded; (text, encoding, whole_file_read)."""
-    with open(path, "rb") as fh:
-        raw = fh.read(HEAD_BYTES)
-        whole = len(fh.read(1)) == 0
+    try:
+        with open(path, "rb") as fh:
+            raw = fh.read(HEAD_BYTES)
+            whole = len(fh.read(1)) == 0
+    except OSError as e:
+        raise CaptureReadError(path, "", f"cannot be opened ({e.strerror or e})") from None
     if b"\x00" in raw:
         raise CaptureReadError(path, "", "contains NUL bytes: a binary file, not delimited text (use --format)")
     if not whole:
