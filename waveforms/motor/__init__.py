@@ -16,6 +16,7 @@ _LAZY = {
     "load_scenario": "scenario", "scenario_from_dict": "scenario", "Scenario": "scenario",
     "MachineParameters": "machine", "load_machine": "machine",
     "write_simulation": "output",
+    "machine_from_nameplate": "estimate",
 }
 
 __all__ = sorted(_LAZY)
