@@ -20,6 +20,7 @@ CSV_CASES = {
     "empty": (b"", r": file is empty$"),
     "blank": (b"\n\n  \n", r": no text lines: the file is blank"),
     "text_in_numbers": (b"time,Va,Ib\n0,1,2\n0.001,2,3\n0.002,3,abc\n0.003,4,5\n", r": line 4, column 'Ib': 'abc' is not a number"),
+    "text_after_blank_lines": (b"time,Va\r\n0,1\r\n\r\n0.001,2\r\n\r\n0.002,abc\r\n", r": line 6, column 'Va': 'abc' is not a number"),
     "text_in_time": (b"time,Va\n0,1\n0.001,2\nx,3\n", r": line 4, column 'time': 'x' is not a time stamp in seconds"),
     "unknown_column": (b"time,Va,Ix\n0,1,2\n0.001,2,3\n", r": line 1, column 'Ix': not a known channel name; did you mean 'In', 'Ic', 'Ib'\?"),
     "row_too_long": (b"time,Va,Ia\n0,1,2\n0.001,2,3,4\n0.002,3,4\n", r": line 3: 4 fields, but the header row \(line 1\) has 3"),

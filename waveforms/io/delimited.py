@@ -215,19 +215,37 @@ def _locate_bad_number(path: Path, layout: Layout, column: str) -> tuple[int, st
 
 
 def _line_of_row(path: Path, layout: Layout, row: int) -> int:
-    """1-based file line of data row ``row`` (blank lines after the header are skipped by the parser)."""
-    # Count blank lines only when there may be some: read the region once, vectorised.
+    """1-based file line of data row ``row`` (the parser skips empty lines after the header).
+
+    Scans the file in 16 MiB pieces (vectorised), so memory does not grow with the file.
+    """
     with open(path, "rb") as fh:
         for _ in range(layout.header_index + 1):
             fh.readline()
-        offset = fh.tell()
-    data = np.memmap(path, dtype=np.uint8, mode="r", offset=offset) if path.stat().st_size > offset else np.zeros(0, np.uint8)
-    nl = np.flatnonzero(data == 10)
-    starts = np.concatenate(([0], nl + 1))
-    ends = np.concatenate((nl, [data.size]))
-    nonempty = np.flatnonzero((ends - starts) > np.where(ends > starts, (data[np.maximum(ends - 1, 0)] == 13).astype(np.int64), 0))
-    line = int(nonempty[row]) if row < nonempty.size else int(starts.size - 1)
-    return layout.header_index + 2 + line
+        physical = 0  # complete lines read after the header
+        seen = -1  # index of the last non-empty data row found
+        carry = 0  # length of the line that continues from the previous piece
+        while True:
+            buf = fh.read(1 << 24)
+            if not buf:
+                break
+            a = np.frombuffer(buf, dtype=np.uint8)
+            nl = np.flatnonzero(a == 10)
+            if nl.size:
+                starts = np.concatenate(([0], nl[:-1] + 1))
+                lengths = nl - starts
+                lengths[0] += carry
+                has_cr = np.zeros(nl.size, dtype=bool)
+                has_cr[nl > 0] = a[nl[nl > 0] - 1] == 13
+                nonempty = np.flatnonzero(lengths - has_cr > 0)
+                if seen + nonempty.size >= row:
+                    return layout.header_index + 2 + physical + int(nonempty[row - seen - 1])
+                seen += nonempty.size
+                physical += nl.size
+                carry = a.size - int(nl[-1]) - 1
+            else:
+                carry += a.size
+        return layout.header_index + 2 + physical  # the last line, without a final newline
 
 
 def _parse(path: Path, layout: Layout, columns: list[str], types: dict[str, pa.DataType], time_col: str | None) -> pa.Table:
