@@ -90,7 +90,8 @@ def _speed_part(res: AnalysisResult) -> dict[str, Any]:
     for r in sp.to_dict("records"):
         track.append({
             "t_s": _num(r.get("t_s")), "t_start_s": _num(r.get("t_start_s")), "t_end_s": _num(r.get("t_end_s")),
-            "slip": _num(r.get("slip")), "rpm": _num(r.get("rpm")), "confidence_db": _num(r.get("confidence_db")),
+            "slip": _num(r.get("slip")), "rpm": _num(r.get("rpm")),
+            "confidence": _num(r.get("confidence_db")), "confidence_db": _num(r.get("confidence_db")),
             "f_supply_hz": _num(r.get("f_supply_hz")), "component": str(r.get("component") or ""),
             "status": str(r.get("status") or ""),
         })
