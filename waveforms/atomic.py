@@ -30,6 +30,11 @@ def atomic_path(target: str | os.PathLike[str]) -> Iterator[Path]:
         raise WriteError(f"{target}: cannot write here ({e.strerror})") from None
     os.close(fd)
     tmp_path = Path(tmp)
+    # mkstemp creates the file 0600; give the result the usual permissions (0666 less the umask).
+    umask = os.umask(0)
+    os.umask(umask)
+    with contextlib.suppress(OSError):
+        os.chmod(tmp_path, 0o666 & ~umask)
     try:
         yield tmp_path
         os.replace(tmp_path, target)
