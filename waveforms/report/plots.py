@@ -299,10 +299,19 @@ def spectrum_figure(res: AnalysisResult) -> tuple[Figure | None, str]:
             pick = after.iloc[int(np.argmax(after["confidence_db"].to_numpy(float)))]
     if pick is None:
         pick = est.iloc[int(np.argmax(est["confidence_db"].to_numpy(float)))] if len(est) else sp.iloc[len(sp) // 2]
-    opts = dict(res.parameters.get("speed") or {})
+    import dataclasses
+
+    from ..errors import WaveformsError
+    from ..speed import SpeedSettings
+
+    known = {f.name for f in dataclasses.fields(SpeedSettings)} | {"pole_pairs", "rotor_bars"}
+    opts = {k: v for k, v in dict(res.parameters.get("speed") or {}).items() if k in known and v is not None}
     cyc = res.cycles
     supply = cyc[["t_s", "frequency_hz"]] if "frequency_hz" in cyc else None
-    wr = window_detail(res.capture, float(pick["t_start_s"]), nameplate=res.nameplate, supply_hz=supply, **opts)
+    try:
+        wr = window_detail(res.capture, float(pick["t_start_s"]), nameplate=res.nameplate, supply_hz=supply, **opts)
+    except WaveformsError as e:
+        return None, f"the spectrum could not be drawn ({e})"
     fig = plot_spectrum(wr, width_in=WIDTH_IN)
     return fig, f"window {float(pick['t_start_s']):.2f}-{float(pick['t_end_s']):.2f} s ({pick['status']})"
 
