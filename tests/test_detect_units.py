@@ -44,11 +44,11 @@ def _table(v: np.ndarray, i: np.ndarray) -> tuple[pd.DataFrame, pd.DataFrame]:
         d[f"I{c}_rms"] = np.abs(i[k])
         d[f"I{c}_ang_deg"] = np.degrees(np.angle(i[k] * ref))
     d["V1"], d["V2"], d["I1"], d["I2"] = np.abs(v1), np.abs(v2), np.abs(i1), np.abs(i2)
-    d["V2_V1_pct"] = 100 * np.abs(v2) / np.abs(v1)
+    d["V2_V1_pct"] = 100 * np.abs(v2) / np.maximum(np.abs(v1), 1e-9)
     d["I2_I1_pct"] = 100 * np.abs(i2) / np.maximum(np.abs(i1), 1e-9)
     ll = np.abs(np.vstack([v[0] - v[1], v[1] - v[2], v[2] - v[0]]))
     # NEMA MG-1 line-voltage unbalance: 100 x max deviation from the mean / mean
-    d["V_unbal_nema_pct"] = 100 * np.max(np.abs(ll - ll.mean(0)), axis=0) / ll.mean(0)
+    d["V_unbal_nema_pct"] = 100 * np.max(np.abs(ll - ll.mean(0)), axis=0) / np.maximum(ll.mean(0), 1e-9)
     d["phase_sequence"] = np.where(np.abs(v1) > np.abs(v2), "ABC", "ACB")
     cyc = pd.DataFrame(d)
     half = pd.DataFrame({"t_s": np.repeat(t0 + 1 / F, 2) - np.tile([0.5 / F, 0.0], n)})
@@ -244,3 +244,36 @@ class TestStallStart:
         ev = _run(v, i)
         assert sorted(_kinds(ev)) == ["stall", "start"]
         assert next(e for e in ev if e.kind == "start").figures["success"] is False
+
+
+class TestSwellInterruption:
+    def test_swell(self):
+        # 115 % for 12 cycles: one swell, peak 115 %, IEEE 1159 instantaneous swell (0.5-30 cycles)
+        vp = np.ones(300)
+        vp[100:112] = 1.15
+        v, i = _balanced(300, vpu=vp)
+        ev = _run(v, i)
+        assert _kinds(ev) == ["swell"]
+        assert ev[0].figures["peak_pct"] == pytest.approx(115.0)
+        assert ev[0].figures["ieee1159_category"] == "instantaneous swell"
+
+    def test_interruption_inside_the_capture(self):
+        # all three voltages at 2 % for 1 s with the motor still connected: a momentary interruption
+        # (IEEE 1159: below 0.1 pu, 0.5 cycle-3 s); the dip around it is not reported separately
+        vp = np.ones(300)
+        vp[100:150] = 0.02
+        v, i = _balanced(300, vpu=vp, ipu=np.where(vp < 1, 0.3, 1.0))
+        ev = _run(v, i)
+        assert _kinds(ev) == ["interruption"]
+        assert ev[0].start_s == pytest.approx(100 / F, abs=1 / F)
+        assert ev[0].figures["ieee1159_category"] == "momentary interruption"
+
+    def test_dead_circuit_at_capture_start_is_not_an_interruption(self):
+        # no voltage and no current until the contactor closes: de-energised, not a supply interruption
+        vp = np.r_[np.zeros(100), np.ones(200)]
+        v, i = _balanced(300, vpu=vp, ipu=np.r_[np.zeros(100), np.ones(200)])
+        cyc, half = _table(v, i)
+        inp = DetectionInput(cycles=cyc, half_cycles=half, fla_a=FLA, locked_rotor_a=6 * FLA, declared_voltage_ll_v=VLN * math.sqrt(3))
+        ev = run_detectors(inp)
+        assert "interruption" not in _kinds(ev) and "dip" not in _kinds(ev)
+        assert any("de-energised" in n for n in inp.notes)
