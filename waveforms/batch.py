@@ -64,6 +64,10 @@ MANIFEST_FOLDER = "manifest"
 CAPTURES_FOLDER = "captures"
 _MANIFEST_FORMAT = "waveforms batch entry"
 _GLOB_CHARS = re.compile(r"[*?\[]")
+#: One fresh worker process per capture (memory and library state never carry
+#: over from one capture to the next).  False reuses each worker for many
+#: captures (the benchmark measures the difference).
+FRESH_PROCESS_PER_CAPTURE = True
 #: Top-level packages whose already-imported modules the fork server pre-imports.
 _PRELOAD_ROOTS = ("waveforms", "numpy", "scipy", "pandas", "pyarrow", "h5py", "matplotlib", "PIL", "jinja2", "tqdm")
 
@@ -677,8 +681,9 @@ def _warm_modules(recipe: Recipe) -> list[str]:
         from .detect import detector_names
 
         detector_names()  # loads the built-in detector modules
-    return sorted(m for m in list(sys.modules) if m.split(".")[0] in _PRELOAD_ROOTS and "._" not in m
-                  and not m.startswith(("numpy.tests", "scipy._lib.tests")))
+    names = sorted(m for m in list(sys.modules) if m.split(".")[0] in _PRELOAD_ROOTS and "._" not in m
+                   and not m.startswith(("numpy.tests", "scipy._lib.tests")))
+    return names + ["waveforms._batch_warmup"]  # last: runs the chain once in the server
 
 
 def _mp_context(recipe: Recipe) -> multiprocessing.context.BaseContext:
@@ -712,7 +717,8 @@ def _run_local(todo: Sequence[CaptureTask], jobs: int, collect: Callable[[dict[s
         while queue or suspects or inflight:
             if pool is None:
                 pool = cf.ProcessPoolExecutor(max_workers=min(jobs, len(queue) + len(suspects)) or 1,
-                                              mp_context=_mp_context(recipe), max_tasks_per_child=1)
+                                              mp_context=_mp_context(recipe),
+                                              max_tasks_per_child=1 if FRESH_PROCESS_PER_CAPTURE else None)
             if suspects:
                 if not inflight:
                     t = suspects.popleft()
