@@ -132,15 +132,19 @@ import sys, tempfile, time
 from waveforms.io import read_capture
 from waveforms.measure.output import write_measurements
 t0 = time.perf_counter()
-with tempfile.TemporaryDirectory(dir=sys.argv[2]) as d:
-    res = write_measurements(read_capture(sys.argv[1]), d, formats=("parquet",))
+if sys.argv[3] == "write":
+    with tempfile.TemporaryDirectory(dir=sys.argv[2]) as d:
+        res = write_measurements(read_capture(sys.argv[1]), d, formats=("parquet",))
+else:  # the engine alone, blocks discarded
+    from waveforms.measure.engine import iter_blocks
+    res = {"rows": {"cycles": sum(len(b[0]["t_s"]) for b in iter_blocks(read_capture(sys.argv[1])))}}
 hwm = [l for l in open("/proc/self/status") if l.startswith("VmHWM:")][0].split()[1]
 print(hwm, time.perf_counter() - t0, res["rows"]["cycles"])
 """
 
 
-def rss_of_streaming(path: Path) -> tuple[float, float, int]:
-    out = subprocess.run([sys.executable, "-c", _RSS_CHILD, str(path), str(DATA)], check=True,
+def rss_of_streaming(path: Path, mode: str = "write") -> tuple[float, float, int]:
+    out = subprocess.run([sys.executable, "-c", _RSS_CHILD, str(path), str(DATA), mode], check=True,
                          capture_output=True, text=True, cwd=ROOT.parent)
     kb, secs, rows = out.stdout.split()
     return int(kb) / 1024.0, float(secs), int(rows)
@@ -184,8 +188,12 @@ def main() -> None:
         print(f"streaming measure, {args.minutes:g} min : peak RSS {rs:6.0f} MB, {ts:6.1f} s, {ns} cycles")
         print(f"streaming measure, {args.long_minutes:g} min : peak RSS {rl:6.0f} MB, {tl:6.1f} s, {nl} cycles")
         print(f"ratio RSS long/short = {rl / rs:.2f}   (target <= 1.2)")
+        es, _, _ = rss_of_streaming(short, "iter")
+        el, _, _ = rss_of_streaming(long_, "iter")
+        print(f"engine blocks only (no writing): peak RSS {es:.0f} MB / {el:.0f} MB, ratio {el / es:.2f}")
         print(json.dumps({"a_s": a, "b_s": b, "c_s": c, "c_over_a": c / a, "b_over_c": b / c,
-                          "rss_short_mb": rs, "rss_long_mb": rl, "rss_ratio": rl / rs}))
+                          "rss_short_mb": rs, "rss_long_mb": rl, "rss_ratio": rl / rs,
+                          "engine_rss_short_mb": es, "engine_rss_long_mb": el}))
     finally:
         if not args.keep:
             for p in (short, long_):

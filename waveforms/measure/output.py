@@ -24,6 +24,9 @@ from ..errors import InvalidParameterError, WriteError
 from .engine import DEFAULT_CHUNK_SAMPLES, Columns, iter_blocks, prepare
 
 TABLES = ("cycles", "half_cycles", "harmonics")
+#: Parquet row groups are gathered up to about this many bytes: one row group per engine block
+#: would make the file's metadata (kept in memory until the file is closed) grow with the capture.
+ROW_GROUP_BYTES = 4 << 20
 
 
 class _TableSink:
@@ -35,6 +38,8 @@ class _TableSink:
         self.schema: pa.Schema | None = None
         self.csv_fh: Any = None
         self.rows = 0
+        self.pending: list[pa.Table] = []
+        self.pending_bytes = 0
 
     def add(self, cols: Columns) -> None:
         if not cols:
@@ -44,16 +49,27 @@ class _TableSink:
             self.schema = table.schema
         table = table.cast(self.schema)
         if self.parquet_tmp is not None:
-            if self.writer is None:
-                self.writer = pq.ParquetWriter(self.parquet_tmp, self.schema, compression="lz4")
-            self.writer.write_table(table)
+            self.pending.append(table)
+            self.pending_bytes += table.nbytes
+            if self.pending_bytes >= ROW_GROUP_BYTES:
+                self._flush()
         if self.csv_tmp is not None:
             if self.csv_fh is None:
                 self.csv_fh = pacsv.CSVWriter(str(self.csv_tmp), self.schema)
             self.csv_fh.write_table(table)
         self.rows += table.num_rows
 
+    def _flush(self) -> None:
+        if not self.pending:
+            return
+        if self.writer is None:
+            self.writer = pq.ParquetWriter(self.parquet_tmp, self.schema, compression="lz4")
+        self.writer.write_table(pa.concat_tables(self.pending))
+        self.pending, self.pending_bytes = [], 0
+
     def close(self) -> None:
+        if self.parquet_tmp is not None:
+            self._flush()
         if self.writer is not None:
             self.writer.close()
         if self.csv_fh is not None:
