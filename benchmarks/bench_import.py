@@ -7,8 +7,8 @@ Run from the repository root::
 
 Generates the files under benchmarks/_data/ (git-ignored) and deletes them at
 the end (``--keep`` to keep them).  Prints measured times and ratios; it is
-not a test and asserts nothing.  Each timing is the best of ``--repeat`` runs
-(the machine is shared).
+not a test and asserts nothing.  Each timing is the best of ``--repeat`` runs,
+interleaved with the bare-library runs it is compared with (the machine is shared).
 """
 
 from __future__ import annotations
@@ -86,13 +86,16 @@ def make_h5(path: Path, target_gb: float) -> int:
     return n_total
 
 
-def best(fn, repeat: int) -> float:
-    times = []
+def best_interleaved(fns: dict, repeat: int) -> dict[str, float]:
+    """Best wall time of each function, the runs interleaved (a, b, c, a, b, c...) so that a
+    change of load on the shared machine hits every contender alike."""
+    out = {k: float("inf") for k in fns}
     for _ in range(repeat):
-        t0 = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - t0)
-    return min(times)
+        for k, fn in fns.items():
+            t0 = time.perf_counter()
+            fn()
+            out[k] = min(out[k], time.perf_counter() - t0)
+    return out
 
 
 def max_rss_mb(args: list[str]) -> tuple[float, float]:
@@ -132,9 +135,12 @@ def main() -> None:
 
         importers()  # import the importers (and scipy.signal) before timing anything
         timebase.infer_nominal_frequency(np.sin(np.arange(4000) / 10.0), 4000.0)
-        t_pd = best(lambda: pd.read_csv(csv_path, skiprows=1), a.repeat)
-        t_pd_arrow = best(lambda: pd.read_csv(csv_path, skiprows=1, engine="pyarrow"), a.repeat)
-        t_ours = best(lambda: read_capture(csv_path).read(), a.repeat)
+        tt = best_interleaved({
+            "pd": lambda: pd.read_csv(csv_path, skiprows=1),
+            "pd_arrow": lambda: pd.read_csv(csv_path, skiprows=1, engine="pyarrow"),
+            "ours": lambda: read_capture(csv_path).read(),
+        }, a.repeat)
+        t_pd, t_pd_arrow, t_ours = tt["pd"], tt["pd_arrow"], tt["ours"]
         print(f"  bare pandas.read_csv (C parser)      {t_pd:7.2f} s  {size_mb / t_pd:6.1f} MB/s")
         print(f"  bare pandas.read_csv (pyarrow)       {t_pd_arrow:7.2f} s  {size_mb / t_pd_arrow:6.1f} MB/s")
         print(f"  waveforms read_capture + read()      {t_ours:7.2f} s  {size_mb / t_ours:6.1f} MB/s")
@@ -177,9 +183,8 @@ def main() -> None:
         def ours_whole() -> None:
             read_capture(h5_path).read()
 
-        t_h5 = best(bare_h5, a.repeat)
-        t_chunks = best(ours_chunks, a.repeat)
-        t_whole = best(ours_whole, a.repeat)
+        tt = best_interleaved({"bare": bare_h5, "chunks": ours_chunks, "whole": ours_whole}, a.repeat)
+        t_h5, t_chunks, t_whole = tt["bare"], tt["chunks"], tt["whole"]
         print(f"  bare h5py read of every dataset      {t_h5:7.2f} s  {raw_gb / t_h5 * 1e3:6.0f} MB/s")
         print(f"  waveforms iter_chunks(2^20)          {t_chunks:7.2f} s  {raw_gb / t_chunks * 1e3:6.0f} MB/s   ratio {t_chunks / t_h5:5.2f}")
         print(f"  waveforms read() whole               {t_whole:7.2f} s  {raw_gb / t_whole * 1e3:6.0f} MB/s   ratio {t_whole / t_h5:5.2f}")

@@ -273,6 +273,15 @@ def _parse(path: Path, layout: Layout, columns: list[str], types: dict[str, pa.D
     raise CaptureReadError(path, "", f"cannot be parsed ({msg})")
 
 
+def _column_into(out: np.ndarray, col: pa.ChunkedArray) -> None:
+    """Copy a float64 column into ``out`` chunk by chunk (one copy; nulls become NaN)."""
+    pos = 0
+    for chunk in col.chunks:
+        n = len(chunk)
+        out[pos : pos + n] = chunk.to_numpy(zero_copy_only=False)
+        pos += n
+
+
 def _parse_offset(text: str, source: str, where: str) -> _dt.timezone:
     if text in ("Z", "UTC", "utc"):
         return _dt.timezone.utc
@@ -459,7 +468,9 @@ def _read_csv(path: Path, options: ReadOptions, mapping: Mapping, digest: concur
     tbl = _parse(path, layout, plan.columns, plan.types, time_col)
     if tbl.num_rows == 0:
         raise CaptureReadError(path, f"line {layout.header_index + 1}", "header row but no data rows")
-    values = np.vstack([tbl.column(s.source_label).to_numpy(zero_copy_only=False).astype(np.float64) for s in specs])
+    values = np.empty((len(specs), tbl.num_rows))
+    for i, s in enumerate(specs):
+        _column_into(values[i], tbl.column(s.source_label))
     scales = plan.scales
     if np.any(scales != 1.0):
         values *= scales[:, None]
