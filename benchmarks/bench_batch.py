@@ -114,21 +114,25 @@ def main() -> None:
 
     # warm-up: start the fork server and import everything once (not timed)
     timed_batch(root, work / "warm", recipe, jobs=1)
-    times: dict[str, list[float]] = {"direct": [], "jobs1": [], "jobs2": [], "dask": []}
+    times: dict[str, list[float]] = {"direct": [], "jobs1": [], "jobs2": [], "dask": [], "jobs1_reuse": []}
     results: dict[str, object] = {}
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None) as cl:
         timed_batch(root, work / "dask_warm", recipe, scheduler=cl.scheduler_address)  # workers import once
         for _ in range(args.repeat):
             times["direct"].append(direct(files, work / "direct"))
-            for key, kw in (("jobs1", {"jobs": 1}), ("jobs2", {"jobs": 2}), ("dask", {"scheduler": cl.scheduler_address})):
+            for key, kw in (("jobs1", {"jobs": 1}), ("jobs2", {"jobs": 2}), ("dask", {"scheduler": cl.scheduler_address}),
+                            ("jobs1_reuse", {"jobs": 1})):
+                batch.FRESH_PROCESS_PER_CAPTURE = key != "jobs1_reuse"
                 t, res = timed_batch(root, work / key, recipe, **kw)
                 times[key].append(t)
                 results[key] = res
+            batch.FRESH_PROCESS_PER_CAPTURE = True
             print("  round: " + ", ".join(f"{k} {v[-1]:.2f} s" for k, v in times.items()), "|", load())
     t_direct, t1, t2, td = (min(times[k]) for k in ("direct", "jobs1", "jobs2", "dask"))
     n = len(files)
     print(f"direct analyze + write_report, 1 process: {t_direct:7.2f} s  ({t_direct / n:.3f} s per capture)")
-    for key, label in (("jobs1", "batch --jobs 1:"), ("jobs2", "batch --jobs 2:"), ("dask", "Dask LocalCluster, 2 workers:")):
+    for key, label in (("jobs1", "batch --jobs 1:"), ("jobs2", "batch --jobs 2:"), ("dask", "Dask LocalCluster, 2 workers:"),
+                       ("jobs1_reuse", "batch --jobs 1, workers reused:")):
         print(f"{label:42s}{min(times[key]):7.2f} s  ({results[key].n_failed} failed)")
     t_skip = time.perf_counter()
     r3 = batch.run([root], recipe=recipe, out=work / "jobs2")
@@ -141,7 +145,25 @@ def main() -> None:
     print(f"speed-up Dask 2 / jobs 1:   {t1 / td:5.2f}")
     print(f"batch overhead per capture (jobs 1 vs direct): {(t1 - t_direct) / n * 1000:7.1f} ms "
           f"({100 * (t1 - t_direct) / t_direct:+.1f} %)")
+    tr = min(times["jobs1_reuse"])
+    print(f"cost of a fresh process per capture (jobs 1 fresh vs reused): {(t1 - tr) / n * 1000:7.1f} ms per capture")
     print(f"summaries identical (bar elapsed_s, folders): jobs1 = jobs2 {same}, jobs1 = Dask {same_dask}")
+
+    # the machinery alone: a recipe that only reads each capture, batch (jobs 1) against a plain loop
+    from waveforms.recipe import run_recipe
+
+    light = DATA / "import_only.toml"
+    light.write_text('[recipe]\nname = "import-only"\nstages = ["import"]\n[import]\nquality = false\n', encoding="utf-8")
+    loop, mach = [], []
+    for _ in range(args.repeat):
+        t = time.perf_counter()
+        for f in files:
+            run_recipe(light, f)
+        loop.append(time.perf_counter() - t)
+        mach.append(timed_batch(root, work / "light", light, jobs=1)[0])
+    print(f"import-only recipe: plain loop {min(loop):.2f} s, batch --jobs 1 {min(mach):.2f} s -> "
+          f"machinery {(min(mach) - min(loop)) / n * 1000:.1f} ms per capture "
+          "(hash, fresh worker process, manifest entry, summary)")
     print(load())
 
 

@@ -42,6 +42,7 @@ import math
 import multiprocessing
 import os
 import re
+import socket
 import sys
 import tempfile
 import time
@@ -392,7 +393,8 @@ def process_capture(task: CaptureTask) -> dict[str, Any]:
         where = f" (at {Path(tb[-1].filename).name}:{tb[-1].lineno})" if tb else ""
         extra["elapsed_s"] = time.perf_counter() - t0
         row, events = error_row(f.name, f.site, f"{type(e).__name__}: {e}{where}", extra), []
-    return {"format": _MANIFEST_FORMAT, "key": task.key, "row": row, "events": events}
+    return {"format": _MANIFEST_FORMAT, "key": task.key, "row": row, "events": events,
+            "worker": f"{socket.gethostname()}:{os.getpid()}", "finished": time.time()}
 
 
 def _close(state: RunState) -> None:

@@ -454,10 +454,6 @@ def default_recipe() -> Recipe:
 
 
 # -- running --------------------------------------------------------------------
-class StageError(WaveformsError):
-    """A stage failed on a capture; the message names the capture and the stage."""
-
-
 def run_recipe(
     recipe: Recipe | str | os.PathLike[str] | None,
     capture: Any,
@@ -510,13 +506,13 @@ def run_recipe(
     state.out_dir = None if out_dir is None else Path(out_dir)
     for name, params in rec.steps:
         stage = get_stage(name)
+        if name == "report" and state.states is not None:
+            _assemble_analysis(state)  # the report is written from the assembled result
         t0 = time.perf_counter()
         stage.run(state, dict(params))
         state.timings_s[name] = time.perf_counter() - t0
-        if name == "report":
-            continue
-        if state.states is not None:  # the detect stage has run: keep the assembled result current
-            _assemble_analysis(state)
+    if state.states is not None:  # the detect stage has run
+        _assemble_analysis(state)
     return state
 
 
