@@ -284,3 +284,20 @@ def test_investigate_links_each_report_and_csv_is_formula_safe(tmp_path):
     assert f'href="{report.replace("=", "%3D")}"' in html  # URL-quoted relative link
     raw = (tmp_path / "out" / "summary.csv").read_text()
     assert "\n'=cmd.h5," in raw  # a spreadsheet must not run the file name as a formula
+
+
+def test_one_run_per_output_folder(tmp_path):
+    import socket
+
+    make_capture(tmp_path / "in" / "a.h5")
+    out = tmp_path / "out"
+    out.mkdir()
+    lock = out / batch.LOCK_FILE
+    lock.write_text(f"{socket.gethostname()}:{os.getpid()}")  # a live process holds it
+    with pytest.raises(InvalidParameterError, match=r"another batch run .* is writing this output folder"):
+        batch.run([tmp_path / "in"], recipe=_recipe(tmp_path), out=out, jobs=1)
+    gone = subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"], capture_output=True, text=True)
+    lock.write_text(f"{socket.gethostname()}:{gone.stdout.strip()}")  # left by a run that no longer exists
+    res = batch.run([tmp_path / "in"], recipe=_recipe(tmp_path), out=out, jobs=1)
+    assert res.ok and res.n_done == 1
+    assert not lock.exists()

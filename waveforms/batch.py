@@ -547,85 +547,134 @@ def run(
 
     if out_path is not None:
         out_path.mkdir(parents=True, exist_ok=True)
-    done = read_manifest(out_path) if out_path is not None else {}
-    hashes = _hash_all([f.path for f in files], n_jobs)
-    fp = rec.fingerprint()
-    tasks: list[CaptureTask] = []
-    keys: list[str] = []
-    todo: list[CaptureTask] = []
-    seen_keys: set[str] = set()
-    for f, sha in zip(files, hashes, strict=True):
-        plate, plate_src = mmap.for_input(f)
-        key = f"{sha[:32]}-{fp[:12]}-{_plate_digest(plate)[:8]}"
-        cap_dir = None if out_path is None else str(out_path / CAPTURES_FOLDER / capture_folder(f, sha))
-        t = CaptureTask(input=f, sha256=sha, key=key, recipe=rec, nameplate=None if plate is None else plate.to_dict(),
-                        nameplate_source=plate_src, out_dir=cap_dir, out_root=None if out_path is None else str(out_path))
-        tasks.append(t)
-        keys.append(key)
-        prior = done.get(key)
-        fresh = (prior is None or force or prior.get("retry", False)
-                 or (retry_errors and prior["row"].get("status") == "error"))
-        if fresh and key not in seen_keys:
-            todo.append(t)
-            seen_keys.add(key)
-    n_skipped = len({t.key for t in tasks} - seen_keys)
-    new: dict[str, dict[str, Any]] = {}
+    with _output_lock(out_path):
+        done = read_manifest(out_path) if out_path is not None else {}
+        hashes = _hash_all([f.path for f in files], n_jobs)
+        fp = rec.fingerprint()
+        tasks: list[CaptureTask] = []
+        keys: list[str] = []
+        todo: list[CaptureTask] = []
+        seen_keys: set[str] = set()
+        for f, sha in zip(files, hashes, strict=True):
+            plate, plate_src = mmap.for_input(f)
+            key = f"{sha[:32]}-{fp[:12]}-{_plate_digest(plate)[:8]}"
+            cap_dir = None if out_path is None else str(out_path / CAPTURES_FOLDER / capture_folder(f, sha))
+            t = CaptureTask(input=f, sha256=sha, key=key, recipe=rec, nameplate=None if plate is None else plate.to_dict(),
+                            nameplate_source=plate_src, out_dir=cap_dir, out_root=None if out_path is None else str(out_path))
+            tasks.append(t)
+            keys.append(key)
+            prior = done.get(key)
+            fresh = (prior is None or force or prior.get("retry", False)
+                     or (retry_errors and prior["row"].get("status") == "error"))
+            if fresh and key not in seen_keys:
+                todo.append(t)
+                seen_keys.add(key)
+        n_skipped = len({t.key for t in tasks} - seen_keys)
+        new: dict[str, dict[str, Any]] = {}
 
-    bar = _progress(len(todo), progress)
-    n_failed_new = 0
+        bar = _progress(len(todo), progress)
+        n_failed_new = 0
 
-    def collect(entry: dict[str, Any]) -> None:
-        nonlocal n_failed_new
+        def collect(entry: dict[str, Any]) -> None:
+            nonlocal n_failed_new
+            if out_path is not None:
+                _write_entry(out_path, entry)
+            new[entry["key"]] = entry
+            if entry["row"].get("status") == "error":
+                n_failed_new += 1
+            if bar is not None:
+                bar.update(1)
+                bar.set_postfix(failed=n_failed_new, refresh=False)
+            if on_result is not None:
+                on_result(entry)
+
+        interrupted = False
+        try:
+            if sched:
+                _run_dask(todo, sched, collect)
+            else:
+                _run_local(todo, n_jobs, collect, rec)
+        except KeyboardInterrupt:
+            interrupted = True
+        finally:
+            if bar is not None:
+                bar.close()
+
+        entries = {**done, **new}
+        rows, ev_frames = [], []
+        for t, key in zip(tasks, keys, strict=True):
+            e = entries.get(key)
+            if e is None:
+                continue  # not finished (interrupted)
+            row = dict(e["row"])
+            row.update(file=t.input.name, site=t.input.site, path=t.input.path)
+            rows.append(row)
+            if e.get("events"):
+                fr = pd.DataFrame.from_records(e["events"])
+                fr.insert(0, "site", t.input.site)
+                fr.insert(0, "file", t.input.name)
+                ev_frames.append(fr)
+        summary = summary_frame(rows)
+        events = pd.concat(ev_frames, ignore_index=True) if ev_frames else _empty_events()
+        written: dict[str, Path] = {}
         if out_path is not None:
-            _write_entry(out_path, entry)
-        new[entry["key"]] = entry
-        if entry["row"].get("status") == "error":
-            n_failed_new += 1
-        if bar is not None:
-            bar.update(1)
-            bar.set_postfix(failed=n_failed_new, refresh=False)
-        if on_result is not None:
-            on_result(entry)
+            written = write_summary(summary, out_path, title=f"Capture summary: recipe {rec.name}")
+            index = {"format": "waveforms batch manifest", "recipe": rec.name, "recipe_fingerprint": fp,
+                     "recipe_source": rec.source, "complete": not interrupted,
+                     "captures": [{"file": t.input.name, "path": t.input.path, "key": k, "done": k in entries}
+                                  for t, k in zip(tasks, keys, strict=True)]}
+            write_text(out_path / "manifest.json", json.dumps(index, indent=1))
+        n_failed = int((summary["status"] == "error").sum()) if len(summary) else 0
+        return BatchResult(summary=summary, events=events, n_done=len(new), n_skipped=n_skipped, n_failed=n_failed,
+                           interrupted=interrupted, out=out_path, files=written)
 
-    interrupted = False
+
+LOCK_FILE = ".batch.lock"
+
+
+@contextlib.contextmanager
+def _output_lock(out: Path | None):
+    """One batch run per output folder: a lock file holding host and pid (a stale one is taken over)."""
+    if out is None:
+        yield
+        return
+    lock = out / LOCK_FILE
+    me = f"{socket.gethostname()}:{os.getpid()}"
+    for _attempt in range(2):
+        try:
+            fd = os.open(lock, os.O_CREAT | os.O_EXCL | os.O_WRONLY, 0o644)
+        except FileExistsError:
+            try:
+                host, pid = lock.read_text(encoding="utf-8").strip().rsplit(":", 1)
+            except (OSError, ValueError):
+                host, pid = "", "0"
+            if host == socket.gethostname() and not _alive(int(pid)):
+                lock.unlink(missing_ok=True)  # left by a run that was killed
+                continue
+            raise InvalidParameterError(
+                f"{out}: another batch run ({host}, pid {pid}) is writing this output folder; "
+                f"wait for it, use another --out, or delete {lock} if that run is gone") from None
+        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            fh.write(me)
+        break
     try:
-        if sched:
-            _run_dask(todo, sched, collect)
-        else:
-            _run_local(todo, n_jobs, collect, rec)
-    except KeyboardInterrupt:
-        interrupted = True
+        yield
     finally:
-        if bar is not None:
-            bar.close()
+        with contextlib.suppress(OSError):
+            if lock.read_text(encoding="utf-8").strip() == me:
+                lock.unlink()
 
-    entries = {**done, **new}
-    rows, ev_frames = [], []
-    for t, key in zip(tasks, keys, strict=True):
-        e = entries.get(key)
-        if e is None:
-            continue  # not finished (interrupted)
-        row = dict(e["row"])
-        row.update(file=t.input.name, site=t.input.site, path=t.input.path)
-        rows.append(row)
-        if e.get("events"):
-            fr = pd.DataFrame.from_records(e["events"])
-            fr.insert(0, "site", t.input.site)
-            fr.insert(0, "file", t.input.name)
-            ev_frames.append(fr)
-    summary = summary_frame(rows)
-    events = pd.concat(ev_frames, ignore_index=True) if ev_frames else _empty_events()
-    written: dict[str, Path] = {}
-    if out_path is not None:
-        written = write_summary(summary, out_path, title=f"Capture summary: recipe {rec.name}")
-        index = {"format": "waveforms batch manifest", "recipe": rec.name, "recipe_fingerprint": fp,
-                 "recipe_source": rec.source, "complete": not interrupted,
-                 "captures": [{"file": t.input.name, "path": t.input.path, "key": k, "done": k in entries}
-                              for t, k in zip(tasks, keys, strict=True)]}
-        write_text(out_path / "manifest.json", json.dumps(index, indent=1))
-    n_failed = int((summary["status"] == "error").sum()) if len(summary) else 0
-    return BatchResult(summary=summary, events=events, n_done=len(new), n_skipped=n_skipped, n_failed=n_failed,
-                       interrupted=interrupted, out=out_path, files=written)
+
+def _alive(pid: int) -> bool:
+    if pid <= 0:
+        return False
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except PermissionError:
+        return True
+    return True
 
 
 def _empty_events() -> pd.DataFrame:
