@@ -33,6 +33,15 @@ def inspect_one(path: str, format_name: str | None, options: Any) -> dict[str, A
     }
 
 
+def _clean(obj: Any) -> Any:
+    """JSON-safe copy: non-finite floats become None, numpy scalars plain numbers."""
+    if isinstance(obj, dict):
+        return {str(k): _clean(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_clean(v) for v in obj]
+    return _plain(obj)
+
+
 def _plain(v: Any) -> Any:
     if isinstance(v, float) and not math.isfinite(v):
         return None
@@ -107,6 +116,6 @@ def command(files: tuple[str, ...], as_json: bool, **kw: Any) -> None:
         if not as_json:
             click.echo(render_text(r) + "\n")
     if as_json:
-        click.echo(json.dumps(results, indent=2, default=str, allow_nan=False))
+        click.echo(json.dumps(_clean(results), indent=2, default=str, allow_nan=False))
     if failed:
         raise SystemExit(2)
