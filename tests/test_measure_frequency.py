@@ -81,6 +81,7 @@ def test_interruption_fills_nominal_cycles_without_frequency():
     assert inside.sum() >= 10
     assert not cyc.loc[inside, "tracked"].any()
     assert cyc.loc[inside, "frequency_hz"].isna().all()
+    assert (cyc.loc[inside, "phase_sequence"] == "").all()  # noise has no rotation
     np.testing.assert_allclose(np.diff(cyc.loc[inside, "t_start_s"]), 0.02, atol=1e-12)
     late = cyc["t_start_s"] > 0.8
     assert cyc.loc[late, "tracked"].iloc[1:-2].all()

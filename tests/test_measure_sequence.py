@@ -78,6 +78,11 @@ class TestLabelsAgreeWithSequence:
         v2 = np.array([5.0, 90.0, 45.0])
         assert list(phase_sequence(v1, v2)) == ["ABC", "ACB", ""]
 
+    def test_noise_on_a_dead_supply_gets_no_sequence(self):
+        # Common practice, no source: millivolts of noise before a contactor closes have no rotation.
+        v1, v2 = np.array([0.002, 230.0]), np.array([0.02, 1.0])
+        assert list(phase_sequence(v1, v2, min_magnitude=23.0)) == ["", "ABC"]
+
 
 class TestLineToLine:
     def test_line_to_line_gives_line_to_neutral_equivalents(self):

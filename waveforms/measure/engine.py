@@ -71,6 +71,7 @@ class Settings:
     f_nom_hz: float
     harmonic_cycles: int
     min_slope_per_s: float
+    min_sequence_v: float
     overlap_samples: int
     sos: np.ndarray
     wiring: str
@@ -168,6 +169,7 @@ def prepare(capture: Capture, nominal_frequency_hz: float | None = None,
         raise InvalidParameterError(f"capture has {capture.n_samples} samples; too short to measure")
     lay = layout_of(capture)
     level, f_est = _survey(capture, lay)
+    voltage_level = level if lay.ref_kind == "voltage" else 0.0
     notes = []
     if (level <= 0.0 or not math.isfinite(level)) and lay.ref_kind == "voltage" and lay.iline:
         lay = _switch_to_currents(lay)
@@ -188,6 +190,7 @@ def prepare(capture: Capture, nominal_frequency_hz: float | None = None,
     settings = Settings(
         fs_hz=fs, f_nom_hz=float(f_nom), harmonic_cycles=hm.window_cycles(float(f_nom)),
         min_slope_per_s=float(min_slope) if level > 0 else math.inf,
+        min_sequence_v=MIN_LEVEL_FRACTION * voltage_level if voltage_level > 0 else math.inf,
         overlap_samples=int(math.ceil(overlap_cycles * fs / f_nom)),
         sos=fq.lowpass_sos(fs, float(f_nom)), wiring=capture.wiring,
         start_epoch_s=capture.start_time.timestamp(),
@@ -372,7 +375,7 @@ def _sequence_power_columns(cols: dict[str, Any], lay: Layout, st: Settings, pha
         if all(c in lay.vln for c in "ABC"):
             cols["V_unbal_pvur_pct"] = ub.max_deviation_pct(*(np.abs(phas[:, lay.vln[c]]) for c in "ABC"))  # Pillay 2001
         cols["V_unbal_iec_ll_pct"] = ub.iec_line_to_line_pct(*ll)          # IEC 61000-4-30 5.7.1
-        cols["phase_sequence"] = sq.phase_sequence(v1, v2).astype(str)
+        cols["phase_sequence"] = sq.phase_sequence(v1, v2, min_magnitude=st.min_sequence_v).astype(str)
     i1 = None
     if all(c in lay.iline for c in "ABC"):
         ia, ib, ic = (phas[:, lay.iline[c]] for c in "ABC")

@@ -51,14 +51,17 @@ def sequence_from_line_to_line(xab: np.ndarray, xbc: np.ndarray, xca: np.ndarray
     return y1 / k1, y2 / k2
 
 
-def phase_sequence(x1: np.ndarray, x2: np.ndarray, margin: float = 2.0) -> np.ndarray:
+def phase_sequence(x1: np.ndarray, x2: np.ndarray, margin: float = 2.0, min_magnitude: float = 0.0) -> np.ndarray:
     """``"ABC"`` where |X1| > margin |X2|, ``"ACB"`` where |X2| > margin |X1|, else ``""``.
 
     A factor of 2 (default) keeps a heavily unbalanced or single-phased set from
-    being given a sequence it does not clearly have (common practice, no source).
+    being given a sequence it does not clearly have, and ``min_magnitude`` (the
+    engine uses 10 % of the capture's typical voltage) keeps noise on a dead
+    supply from being given one (common practice, no source).
     """
     m1, m2 = np.abs(x1), np.abs(x2)
     out = np.full(np.shape(m1), "", dtype=object)
-    out[m1 > margin * m2] = "ABC"
-    out[m2 > margin * m1] = "ACB"
+    alive = np.maximum(m1, m2) >= min_magnitude
+    out[alive & (m1 > margin * m2)] = "ABC"
+    out[alive & (m2 > margin * m1)] = "ACB"
     return out
