@@ -361,6 +361,7 @@ def process_capture(task: CaptureTask) -> dict[str, Any]:
     input, or the exception type and text (plus the last frame) for anything else.
     """
     t0 = time.perf_counter()
+    started = time.time()
     f = task.input
     extra: dict[str, Any] = {"path": f.path, "sha256": task.sha256, "recipe": task.recipe.name,
                              "recipe_hash": task.recipe.fingerprint()[:16]}
@@ -394,7 +395,7 @@ def process_capture(task: CaptureTask) -> dict[str, Any]:
         extra["elapsed_s"] = time.perf_counter() - t0
         row, events = error_row(f.name, f.site, f"{type(e).__name__}: {e}{where}", extra), []
     return {"format": _MANIFEST_FORMAT, "key": task.key, "row": row, "events": events,
-            "worker": f"{socket.gethostname()}:{os.getpid()}", "finished": time.time()}
+            "worker": f"{socket.gethostname()}:{os.getpid()}", "started": started, "finished": time.time()}
 
 
 def _close(state: RunState) -> None:
@@ -737,9 +738,28 @@ def _warm_modules(recipe: Recipe) -> list[str]:
     return names + ["waveforms._batch_warmup"]  # last: runs the chain once in the server
 
 
+#: Worker processes use one BLAS / OpenMP thread each: the parallelism is one
+#: capture per process (--jobs), and threaded BLAS in every process would
+#: oversubscribe the cores (common practice, no source).
+_WORKER_ENV = {"OMP_NUM_THREADS": "1", "OPENBLAS_NUM_THREADS": "1", "MKL_NUM_THREADS": "1"}
+
+
 def _mp_context(recipe: Recipe) -> multiprocessing.context.BaseContext:
+    """The "forkserver" context, its server started (once per process) warm and with one BLAS thread."""
+    import multiprocessing.forkserver as fs
+
     ctx = multiprocessing.get_context("forkserver")
     ctx.set_forkserver_preload(_warm_modules(recipe))
+    saved = {k: os.environ.get(k) for k in _WORKER_ENV}
+    try:
+        for k, v in _WORKER_ENV.items():
+            if saved[k] is None:  # a value the user set is kept
+                os.environ[k] = v
+        fs.ensure_running()  # the server inherits this environment; ours is restored below
+    finally:
+        for k, v in saved.items():
+            if v is None:
+                os.environ.pop(k, None)
     return ctx
 
 
