@@ -121,18 +121,16 @@ def main() -> None:
         for _ in range(args.repeat):
             times["direct"].append(direct(files, work / "direct"))
             for key, kw in (("jobs1", {"jobs": 1}), ("jobs2", {"jobs": 2}), ("dask", {"scheduler": cl.scheduler_address}),
-                            ("jobs1_reuse", {"jobs": 1})):
-                batch.FRESH_PROCESS_PER_CAPTURE = key != "jobs1_reuse"
+                            ("jobs1_reuse", {"jobs": 1, "fresh_workers": False})):
                 t, res = timed_batch(root, work / key, recipe, **kw)
                 times[key].append(t)
                 results[key] = res
-            batch.FRESH_PROCESS_PER_CAPTURE = True
             print("  round: " + ", ".join(f"{k} {v[-1]:.2f} s" for k, v in times.items()), "|", load())
     t_direct, t1, t2, td = (min(times[k]) for k in ("direct", "jobs1", "jobs2", "dask"))
     n = len(files)
     print(f"direct analyze + write_report, 1 process: {t_direct:7.2f} s  ({t_direct / n:.3f} s per capture)")
     for key, label in (("jobs1", "batch --jobs 1:"), ("jobs2", "batch --jobs 2:"), ("dask", "Dask LocalCluster, 2 workers:"),
-                       ("jobs1_reuse", "batch --jobs 1, workers reused:")):
+                       ("jobs1_reuse", "batch --jobs 1 --reuse-workers:")):
         print(f"{label:42s}{min(times[key]):7.2f} s  ({results[key].n_failed} failed)")
     t_skip = time.perf_counter()
     r3 = batch.run([root], recipe=recipe, out=work / "jobs2")

@@ -139,6 +139,8 @@ def test_interrupted_run_resumes_and_skips_finished_captures(tmp_path):
     pd.testing.assert_frame_equal(third.summary.drop(columns="elapsed_s"), second.summary.drop(columns="elapsed_s"))
     forced = batch.run([tmp_path / "in"], recipe=rec, out=tmp_path / "out", jobs=2, force=True)
     assert (forced.n_skipped, forced.n_done) == (0, 4)
+    reused = batch.run([tmp_path / "in"], recipe=rec, out=tmp_path / "out", jobs=2, force=True, fresh_workers=False)
+    pd.testing.assert_frame_equal(reused.summary.drop(columns="elapsed_s"), second.summary.drop(columns="elapsed_s"))
     # a changed recipe parameter changes the fingerprint: everything reruns
     changed = batch.run([tmp_path / "in"], recipe=_recipe(tmp_path, "[detect]\nmin_stall_s = 3.0\n"), out=tmp_path / "out", jobs=2)
     assert changed.n_done == 4

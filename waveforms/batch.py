@@ -65,10 +65,6 @@ MANIFEST_FOLDER = "manifest"
 CAPTURES_FOLDER = "captures"
 _MANIFEST_FORMAT = "waveforms batch entry"
 _GLOB_CHARS = re.compile(r"[*?\[]")
-#: One fresh worker process per capture (memory and library state never carry
-#: over from one capture to the next).  False reuses each worker for many
-#: captures (the benchmark measures the difference).
-FRESH_PROCESS_PER_CAPTURE = True
 #: Top-level packages whose already-imported modules the fork server pre-imports.
 _PRELOAD_ROOTS = ("waveforms", "numpy", "scipy", "pandas", "pyarrow", "h5py", "matplotlib", "PIL", "jinja2", "tqdm")
 
@@ -498,6 +494,7 @@ def run(
     scheduler: Any = None,
     progress: bool = False,
     on_result: Callable[[dict[str, Any]], None] | None = None,
+    fresh_workers: bool = True,
 ) -> BatchResult:
     """Run a recipe over an archive of captures.
 
@@ -525,6 +522,10 @@ def run(
         Show a progress bar on stderr.
     on_result : callable, optional
         Called in the main process with each new entry (after it is saved).
+    fresh_workers : bool
+        Local runs: a fresh worker process for every capture (nothing carries
+        over from one capture to the next).  False reuses each worker for many
+        captures: faster (no fork per capture), less isolated.
 
     Returns
     -------
@@ -594,7 +595,7 @@ def run(
             if sched:
                 _run_dask(todo, sched, collect)
             else:
-                _run_local(todo, n_jobs, collect, rec)
+                _run_local(todo, n_jobs, collect, rec, fresh_workers)
         except KeyboardInterrupt:
             interrupted = True
         finally:
@@ -771,8 +772,9 @@ def _crash_entry(task: CaptureTask, why: str) -> dict[str, Any]:
     return {"format": _MANIFEST_FORMAT, "key": task.key, "row": row, "events": [], "retry": True}
 
 
-def _run_local(todo: Sequence[CaptureTask], jobs: int, collect: Callable[[dict[str, Any]], None], recipe: Recipe) -> None:
-    """Run tasks in a process pool, one fresh worker process per capture.
+def _run_local(todo: Sequence[CaptureTask], jobs: int, collect: Callable[[dict[str, Any]], None], recipe: Recipe,
+               fresh_workers: bool = True) -> None:
+    """Run tasks in a process pool, one fresh worker process per capture (unless ``fresh_workers`` is False).
 
     At most ``jobs`` tasks are in flight.  When the pool breaks (a worker
     killed), the tasks it held are retried alone; one that breaks the pool
@@ -789,7 +791,7 @@ def _run_local(todo: Sequence[CaptureTask], jobs: int, collect: Callable[[dict[s
             if pool is None:
                 pool = cf.ProcessPoolExecutor(max_workers=min(jobs, len(queue) + len(suspects)) or 1,
                                               mp_context=_mp_context(recipe),
-                                              max_tasks_per_child=1 if FRESH_PROCESS_PER_CAPTURE else None)
+                                              max_tasks_per_child=1 if fresh_workers else None)
             if suspects:
                 if not inflight:
                     t = suspects.popleft()

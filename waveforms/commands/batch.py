@@ -22,9 +22,12 @@ from ..batch import run
 @click.option("--scheduler", default=None, help="Dask distributed scheduler address (tcp://host:8786).")
 @click.option("--force", is_flag=True, help="Rerun captures already finished in this output folder.")
 @click.option("--retry-errors", is_flag=True, help="Rerun captures that failed last time.")
+@click.option("--reuse-workers", is_flag=True,
+              help="Reuse each worker process for many captures (faster; by default every capture gets a fresh process).")
 @click.option("--quiet", "-q", is_flag=True, help="No progress bar.")
 def command(inputs: tuple[str, ...], out: str, recipe: str | None, jobs: int | None, motor: str | None,
-            motors: str | None, scheduler: str | None, force: bool, retry_errors: bool, quiet: bool) -> None:
+            motors: str | None, scheduler: str | None, force: bool, retry_errors: bool, reuse_workers: bool,
+            quiet: bool) -> None:
     """Analyse every capture in INPUTS (files, folders, globs, fsspec URLs) with one recipe.
 
     Each capture runs in its own worker process (or on a Dask cluster with
@@ -40,7 +43,7 @@ def command(inputs: tuple[str, ...], out: str, recipe: str | None, jobs: int | N
     """
     try:
         res = run(list(inputs), recipe=recipe, out=out, jobs=jobs, motor=motor, motors=motors, force=force,
-                  retry_errors=retry_errors, scheduler=scheduler, progress=not quiet)
+                  retry_errors=retry_errors, scheduler=scheduler, progress=not quiet, fresh_workers=not reuse_workers)
     except KeyboardInterrupt:  # before any capture was dispatched (while hashing the inputs)
         click.echo("interrupted before any capture started; nothing was lost", err=True)
         sys.exit(130)
