@@ -177,3 +177,25 @@ def test_empty_cells_are_nan_not_zero(tmp_path):
     x = cap.read()
     assert np.isnan(x[0, 1]) and np.isnan(x[1, 2])
     assert np.count_nonzero(np.isnan(x)) == 2
+
+
+@pytest.mark.parametrize(("body", "names", "start"), [
+    # quoted headers and cells
+    ('"Time (s)","Va (V)","Ia (A)"\n"0","1.5","2"\n"0.001","2.5","3"\n"0.002","3.5","4"\n', ("Va", "Ia"), None),
+    # ISO stamps in the last column
+    ("Va;Ia;Timestamp\n1;2;2024-01-01T00:00:00.000+01:00\n2;3;2024-01-01T00:00:00.001+01:00\n3;4;2024-01-01T00:00:00.002+01:00\n",
+     ("Va", "Ia"), "2024-01-01T00:00:00+01:00"),
+    # a delimiter at the end of every line
+    ("Time;Va;Ia;\n0;1;2;\n0,001;2;3;\n0,002;3;4;\n", ("Va", "Ia"), None),
+    # ISO with a space instead of T and Z for UTC
+    ("Timestamp,Va,Ia\n2024-01-01 00:00:00.000Z,1,2\n2024-01-01 00:00:00.001Z,2,3\n2024-01-01 00:00:00.002Z,3,4\n", ("Va", "Ia"), "2024-01-01T00:00:00+00:00"),
+])
+def test_layout_variants(tmp_path, body, names, start):
+    p = tmp_path / "v.csv"
+    p.write_text(body, encoding="utf-8")
+    cap = read_capture(p, options=ReadOptions(nominal_frequency_hz=50.0))
+    assert cap.channel_names == names
+    assert cap.sample_rate_hz == 1000.0
+    np.testing.assert_array_equal(cap.read()[1], [2.0, 3.0, 4.0])
+    if start:
+        assert cap.start_time == dt.datetime.fromisoformat(start)  # reference: Python's ISO 8601 parser

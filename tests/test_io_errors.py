@@ -33,6 +33,8 @@ CSV_CASES = {
     "iso_without_offset": (b"time,Va\n2024-01-01T00:00:00.000,1\n2024-01-01T00:00:00.001,2\n", r": line 2, column 'time': time stamp '2024-01-01T00:00:00.000' has no UTC offset"),
     "bad_iso": (b"time,Va\n2024-01-01T00:00:00.000+00:00,1\n2024-01-01T00:00:00.001+00:00,2\n2024-13-01T00:00:00.002+00:00,2\n",
                 r": line 4, column 'time': '2024-13-01T00:00:00.002\+00:00' is not an ISO 8601 time stamp"),
+    "split_date_time": (b"Date,Time,Va\n2024-01-01,00:00:00.000,1\n2024-01-01,00:00:00.001,2\n",
+                        r": line 1, column 'Time': holds times of day .* separate date and time columns are not supported"),
     "no_rate": (b"Va,Ia\n1,2\n2,3\n", r": line 1: no time column and no sample rate; give --rate HZ"),
     "header_only": (b"time,Va,Ia\n", r": line 1: header row but no data rows"),
     "no_header": (b"1,2\n3,4\n", r": line 1: no header row above the data"),

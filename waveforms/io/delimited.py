@@ -50,6 +50,8 @@ _ISO_RE = re.compile(r"^\s*\d{4}-\d{2}-\d{2}[T ]\d{2}:\d{2}(:\d{2}(\.\d+)?)?\s*(
 _OFFSET_RE = re.compile(r"(Z|[+-]\d{2}:?\d{2})\s*$")
 _META_RE = re.compile(r"^\s*#?\s*(?P<key>[A-Za-z_][A-Za-z0-9_ ]*?)\s*[:=]\s*(?P<value>.*?)\s*$")
 EPOCH = _dt.datetime(1970, 1, 1, tzinfo=_dt.timezone.utc)
+#: Name given to the empty columns after a trailing delimiter (never read).
+TRAILING = "(after trailing delimiter) "
 
 
 @dataclasses.dataclass(frozen=True)
@@ -94,11 +96,14 @@ def _cells(line: str, delim: str) -> list[str]:
     return [c.strip().strip('"').strip() for c in line.split(delim)]
 
 
+_DATE_RE = re.compile(r"^\s*(\d{4}-\d{2}-\d{2}|\d{1,2}[./]\d{1,2}[./]\d{2,4})\s*$")
+_TOD_RE = re.compile(r"^\s*\d{1,2}:\d{2}(:\d{2}([.,]\d+)?)?\s*$")
+
+
 def _numeric_row(cells: list[str], decimal: str) -> bool:
-    """True when every cell but possibly the first (a time stamp) is a number or empty."""
+    """True when every cell is a number, empty, or a time stamp / date / time of day."""
     pat = _NUM_RE[decimal]
-    first_ok = bool(pat.match(cells[0])) or bool(_ISO_RE.match(cells[0]))
-    return first_ok and all(pat.match(c) for c in cells[1:])
+    return all(pat.match(c) or _ISO_RE.match(c) or _DATE_RE.match(c) or _TOD_RE.match(c) for c in cells)
 
 
 def detect_layout(path: Path, mapping: Mapping) -> Layout:
@@ -161,7 +166,13 @@ def detect_layout(path: Path, mapping: Mapping) -> Layout:
         if not before:
             raise CaptureReadError(path, f"line {first_numeric + 1}", "no header row above the data (the first line must name the columns)")
         header_index = before[-1]
-    headers = tuple(_cells(lines[header_index], delim))
+    headers = list(_cells(lines[header_index], delim))
+    # a delimiter at the end of every line (common in exports) gives empty trailing columns
+    k = len(headers)
+    while k > 1 and headers[k - 1] == "":
+        k -= 1
+    headers[k:] = [f"{TRAILING}{i}" for i in range(len(headers) - k)]
+    headers = tuple(headers)
     if any(h == "" for h in headers):
         col = headers.index("") + 1
         raise CaptureReadError(path, f"line {header_index + 1}, field {col}", "empty column name in the header row")
@@ -361,6 +372,22 @@ def _choose_time_column(layout: Layout, mapping: Mapping, path: Path) -> str | N
     return None
 
 
+def _refuse_split_date_time(layout: Layout, time_col: str | None, path: Path) -> None:
+    """Separate date and time-of-day columns are not read (yet): say so plainly."""
+    if time_col is None:
+        return
+    j = layout.headers.index(time_col)
+    sample = [r[j] for r in layout.first_data if len(r) > j and r[j]][:5]
+    dates = [h for h in layout.headers if re.fullmatch(r"(?i)date|datum|fecha", h.strip())]
+    if sample and all(_TOD_RE.match(c) for c in sample):
+        extra = f" and the date in column {dates[0]!r}" if dates else ""
+        raise CaptureReadError(
+            path, f"line {layout.header_index + 1}, column {time_col!r}",
+            f"holds times of day ({sample[0]!r}){extra}; separate date and time columns are not supported: "
+            "export one ISO 8601 time stamp column (2024-03-01T10:00:00.000+01:00) or seconds",
+        )
+
+
 def _float_opt(value: Any, source: str, where: str) -> float:
     try:
         v = float(value)
@@ -429,7 +456,8 @@ def plan_read(path: Path, options: ReadOptions, mapping: Mapping) -> Plan:
     if other_meta:
         notes.append(f"{len(other_meta)} metadata line(s) above the header kept as text: " + " | ".join(other_meta[:5])[:300])
     time_col = _choose_time_column(layout, mapping, path)
-    channel_headers = [h for h in layout.headers if h != time_col]
+    _refuse_split_date_time(layout, time_col, path)
+    channel_headers = [h for h in layout.headers if h != time_col and not h.startswith(TRAILING)]
     specs, map_notes = resolve_channels(channel_headers, mapping, path, "column",
                                         where_of=lambda h: f"line {layout.header_index + 1}, column {h!r}")
     notes += map_notes
