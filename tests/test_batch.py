@@ -238,6 +238,10 @@ def test_fsspec_url_input(tmp_path):
     res = batch.run([f"file://{tmp_path / 'in'}"], recipe=_recipe(tmp_path), out=tmp_path / "out", jobs=1)
     assert res.ok and res.summary["file"].tolist() == ["yard/a.h5"]
     assert res.summary["path"].iloc[0].startswith("file://")
+    (tmp_path / "in" / "yard" / "b.h5").write_bytes(b"not a capture at all")
+    res = batch.run([f"file://{tmp_path / 'in'}"], recipe=_recipe(tmp_path), out=tmp_path / "out", jobs=1)
+    err = res.summary.set_index("file").loc["yard/b.h5", "error"]
+    assert err.startswith(f"file://{tmp_path / 'in' / 'yard' / 'b.h5'}: ")  # the URL, not the temporary copy
 
 
 def test_index_html_escapes_names_and_links_reports(tmp_path):

@@ -370,8 +370,13 @@ def process_capture(task: CaptureTask) -> dict[str, Any]:
 
             plate = Nameplate.from_dict({k: v for k, v in task.nameplate.items() if k != "warnings"}, task.nameplate_source)
         with _local_copy(f.path) as local:
-            state = run_recipe(task.recipe, local, nameplate=plate, out_dir=task.out_dir,
-                               nameplate_source=task.nameplate_source)
+            try:
+                state = run_recipe(task.recipe, local, nameplate=plate, out_dir=task.out_dir,
+                                   nameplate_source=task.nameplate_source, origin=f.path if f.is_url else "")
+            except WaveformsError as e:
+                if f.is_url:  # name the URL, not the temporary copy
+                    raise _renamed(e, local, f.path) from None
+                raise
         report = state.outputs.get("html", "")
         if report and task.out_root:
             extra["report"] = os.path.relpath(report, task.out_root)
@@ -392,6 +397,14 @@ def process_capture(task: CaptureTask) -> dict[str, Any]:
         row, events = error_row(f.name, f.site, f"{type(e).__name__}: {e}{where}", extra), []
     return {"format": _MANIFEST_FORMAT, "key": task.key, "row": row, "events": events,
             "worker": f"{socket.gethostname()}:{os.getpid()}", "started": started, "finished": time.time()}
+
+
+class _UrlError(WaveformsError):
+    """A capture read through a local copy failed; the message names the URL."""
+
+
+def _renamed(err: WaveformsError, local: str, url: str) -> WaveformsError:
+    return _UrlError(str(err).replace(local, url))
 
 
 def _close(state: RunState) -> None:

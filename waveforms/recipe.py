@@ -150,6 +150,7 @@ class RunState:
 
     source: str
     out_dir: Path | None = None
+    origin: str = ""
     capture: Any = None
     nameplate: Any = None
     nameplate_source: str = ""
@@ -460,6 +461,7 @@ def run_recipe(
     nameplate: Any = None,
     out_dir: str | os.PathLike[str] | None = None,
     nameplate_source: str = "",
+    origin: str = "",
 ) -> RunState:
     """Run a recipe's chain on one capture.
 
@@ -474,6 +476,11 @@ def run_recipe(
     out_dir : path-like, optional
         Folder for the per-capture outputs (the ``report`` stage writes nothing
         without one).
+    nameplate_source : str
+        Where the nameplate came from (for the summary).
+    origin : str
+        The capture's name as the user gave it (an fsspec URL read through a
+        local copy); recorded as the capture's source path.
 
     Returns
     -------
@@ -504,6 +511,7 @@ def run_recipe(
         state.nameplate = nameplate
         state.nameplate_source = nameplate_source or "given"
     state.out_dir = None if out_dir is None else Path(out_dir)
+    state.origin = origin
     for name, params in rec.steps:
         stage = get_stage(name)
         if name == "report" and state.states is not None:
@@ -617,6 +625,9 @@ def _stage_import(state: RunState, params: dict[str, Any]) -> None:
             wiring=params["wiring"] or None,
         )
         state.capture = read_capture(state.source, format=params["format"] or None, options=opts)
+        if state.origin:  # read through a local copy: the provenance names the original
+            prov = dataclasses.replace(state.capture.provenance, source_path=state.origin)
+            state.capture = state.capture.replace(provenance=prov)
     if state.nameplate is not None:
         state.capture = state.capture.replace(nameplate=state.nameplate)
     elif state.capture.nameplate is not None:
