@@ -105,6 +105,10 @@ def test_summary_rows_match_the_per_capture_results(tmp_path):
     assert s.loc["pump-house/logger01.h5", "max_current_x_fla"] == pytest.approx(math.sqrt(3) * 20.0 / 21.0, rel=1e-3)
     assert s.loc["pump-house/logger01.h5", "n_open_phase"] == 1
     assert s.loc["pump-house/logger01.h5", "first_open_phase_s"] == pytest.approx(1.015, abs=0.02)
+    t_open = pd.Timestamp(s.loc["pump-house/logger01.h5", "first_open_phase_time"])
+    assert t_open - pd.Timestamp("2031-05-04T06:00:00+00:00") == pd.Timedelta(
+        seconds=s.loc["pump-house/logger01.h5", "first_open_phase_s"]).round("us")
+    assert s.loc["north-yard/logger00.h5", "first_open_phase_time"] == ""
     # Parquet and CSV hold the same table; the events table gathers every capture's events
     pq = pd.read_parquet(tmp_path / "out" / "summary.parquet")
     pd.testing.assert_frame_equal(pq, res.summary)

@@ -47,7 +47,8 @@ _EVENT_COLS = [c for k in EVENT_KINDS for c in (f"n_{k}", f"first_{k}_s")]
 _TAIL = ["verdict_text", "worst_i2_i1_pct", "max_current_x_fla", "thermal_capacity_used_pct", "nameplate", "error",
          "report", "outputs", "path", "sha256", "recipe", "recipe_hash", "elapsed_s", "notes"]
 #: Summary columns, in order.
-SUMMARY_COLUMNS: tuple[str, ...] = tuple(_HEAD + _EVENT_COLS + _TAIL)
+_EVENT_TIME_COLS = [f"first_{k}_time" for k in EVENT_KINDS]
+SUMMARY_COLUMNS: tuple[str, ...] = tuple(_HEAD + _EVENT_COLS + _TAIL + _EVENT_TIME_COLS)
 _FLOAT_COLS = {"duration_s", "worst_i2_i1_pct", "max_current_x_fla", "thermal_capacity_used_pct", "elapsed_s"} | {
     f"first_{k}_s" for k in EVENT_KINDS}
 _INT_COLS = {f"n_{k}" for k in EVENT_KINDS}
@@ -150,6 +151,10 @@ def summary_row(state: Any, file: str, site: str, extra: Mapping[str, Any] | Non
         sel = ev[ev["kind"] == k]
         row[f"n_{k}"] = int(len(sel)) if detected else None
         row[f"first_{k}_s"] = float(sel["start_s"].min()) if len(sel) else math.nan
+        if len(sel) and cap is not None:  # the same instant as a clock time, with the capture's UTC offset
+            from .analysis import iso_at
+
+            row[f"first_{k}_time"] = iso_at(cap.start_time, row[f"first_{k}_s"])
     cycles = state.cycles
     row["worst_i2_i1_pct"] = math.nan
     row["max_current_x_fla"] = math.nan
