@@ -311,3 +311,19 @@ def test_one_run_per_output_folder(tmp_path):
     res = batch.run([tmp_path / "in"], recipe=_recipe(tmp_path), out=out, jobs=1)
     assert res.ok and res.n_done == 1
     assert not lock.exists()
+
+
+def test_dry_run_lists_the_plan_and_writes_nothing(tmp_path):
+    _archive(tmp_path / "in", n_good=2, corrupt=True)
+    out = tmp_path / "out"
+    rec = _recipe(tmp_path)
+    p = batch.plan([tmp_path / "in"], recipe=rec, out=out)
+    assert p["plan"].tolist() == ["to run"] * 3 and not out.exists()
+    batch.run([tmp_path / "in"], recipe=rec, out=out, jobs=2)
+    p = batch.plan([tmp_path / "in"], recipe=rec, out=out).set_index("file")
+    assert p.loc["north-yard/logger00.h5", "plan"] == "done: skipped"
+    assert p.loc["north-yard/logger99.h5", "plan"].startswith("failed before")
+    assert batch.plan([tmp_path / "in"], recipe=rec, out=out, retry_errors=True).set_index("file").loc[
+        "north-yard/logger99.h5", "plan"] == "to run"
+    res = CliRunner().invoke(cli, ["batch", str(tmp_path / "in"), "--out", str(out), "--recipe", str(rec), "--dry-run"])
+    assert res.exit_code == 0 and "done: skipped" in res.output and "north-yard/logger99.h5" in res.output

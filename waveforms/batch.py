@@ -547,9 +547,7 @@ def run(
     rec = load_recipe(recipe)
     if isinstance(inputs, (str, os.PathLike)):
         inputs = [inputs]
-    if motor is not None and motors is not None:
-        raise InvalidParameterError("give either motor (one nameplate for all) or motors (a mapping), not both")
-    mmap = MotorMap.single(motor) if motor is not None else MotorMap.load(motors) if motors is not None else MotorMap(rules=())
+    mmap = _motor_map(motor, motors)
     out_path = None if out is None else Path(out)
     files = discover(inputs, exclude=[out_path] if out_path is not None else [])
     if not files:
@@ -564,27 +562,10 @@ def run(
         out_path.mkdir(parents=True, exist_ok=True)
     with _output_lock(out_path):
         done = read_manifest(out_path) if out_path is not None else {}
-        hashes = _hash_all([f.path for f in files], n_jobs)
+        tasks, todo, _states = _plan(files, rec, mmap, out_path, done, force, retry_errors, n_jobs)
+        keys = [t.key for t in tasks]
         fp = rec.fingerprint()
-        tasks: list[CaptureTask] = []
-        keys: list[str] = []
-        todo: list[CaptureTask] = []
-        seen_keys: set[str] = set()
-        for f, sha in zip(files, hashes, strict=True):
-            plate, plate_src = mmap.for_input(f)
-            key = f"{sha[:32]}-{fp[:12]}-{_plate_digest(plate)[:8]}"
-            cap_dir = None if out_path is None else str(out_path / CAPTURES_FOLDER / capture_folder(f, sha))
-            t = CaptureTask(input=f, sha256=sha, key=key, recipe=rec, nameplate=None if plate is None else plate.to_dict(),
-                            nameplate_source=plate_src, out_dir=cap_dir, out_root=None if out_path is None else str(out_path))
-            tasks.append(t)
-            keys.append(key)
-            prior = done.get(key)
-            fresh = (prior is None or force or prior.get("retry", False)
-                     or (retry_errors and prior["row"].get("status") == "error"))
-            if fresh and key not in seen_keys:
-                todo.append(t)
-                seen_keys.add(key)
-        n_skipped = len({t.key for t in tasks} - seen_keys)
+        n_skipped = len({t.key for t in tasks} - {t.key for t in todo})
         new: dict[str, dict[str, Any]] = {}
 
         bar = _progress(len(todo), progress)
@@ -642,6 +623,71 @@ def run(
         n_failed = int((summary["status"] == "error").sum()) if len(summary) else 0
         return BatchResult(summary=summary, events=events, n_done=len(new), n_skipped=n_skipped, n_failed=n_failed,
                            interrupted=interrupted, out=out_path, files=written)
+
+
+def _plan(files: Sequence[InputFile], rec: Recipe, mmap: MotorMap, out_path: Path | None,
+          done: dict[str, dict[str, Any]], force: bool, retry_errors: bool, n_jobs: int,
+          ) -> tuple[list[CaptureTask], list[CaptureTask], list[str]]:
+    """Every capture's task, the tasks to run, and what will happen to each capture."""
+    hashes = _hash_all([f.path for f in files], n_jobs)
+    fp = rec.fingerprint()
+    tasks: list[CaptureTask] = []
+    todo: list[CaptureTask] = []
+    states: list[str] = []
+    seen: set[str] = set()
+    for f, sha in zip(files, hashes, strict=True):
+        plate, plate_src = mmap.for_input(f)
+        key = f"{sha[:32]}-{fp[:12]}-{_plate_digest(plate)[:8]}"
+        cap_dir = None if out_path is None else str(out_path / CAPTURES_FOLDER / capture_folder(f, sha))
+        t = CaptureTask(input=f, sha256=sha, key=key, recipe=rec, nameplate=None if plate is None else plate.to_dict(),
+                        nameplate_source=plate_src, out_dir=cap_dir, out_root=None if out_path is None else str(out_path))
+        tasks.append(t)
+        prior = done.get(key)
+        failed = prior is not None and prior["row"].get("status") == "error"
+        fresh = prior is None or force or prior.get("retry", False) or (retry_errors and failed)
+        if key in seen:
+            states.append("same content as an earlier file: analysed once")
+        elif fresh:
+            todo.append(t)
+            seen.add(key)
+            states.append("to run")
+        else:
+            states.append("failed before: skipped (--retry-errors reruns it)" if failed else "done: skipped")
+    return tasks, todo, states
+
+
+def plan(
+    inputs: Sequence[str | os.PathLike[str]] | str | os.PathLike[str],
+    recipe: Recipe | str | os.PathLike[str] | None = None,
+    out: str | os.PathLike[str] | None = None,
+    motor: str | os.PathLike[str] | None = None,
+    motors: str | os.PathLike[str] | None = None,
+    force: bool = False,
+    retry_errors: bool = False,
+) -> pd.DataFrame:
+    """What `run` would do, without doing it: one row per capture (``file``, ``site``, ``path``,
+    ``sha256``, ``nameplate``, ``plan``).  Nothing is written."""
+    rec = load_recipe(recipe)
+    if isinstance(inputs, (str, os.PathLike)):
+        inputs = [inputs]
+    mmap = _motor_map(motor, motors)
+    out_path = None if out is None else Path(out)
+    files = discover(inputs, exclude=[out_path] if out_path is not None else [])
+    done = read_manifest(out_path) if out_path is not None else {}
+    tasks, _todo, states = _plan(files, rec, mmap, out_path, done, force, retry_errors, os.cpu_count() or 1)
+    return pd.DataFrame({
+        "file": [t.input.name for t in tasks], "site": [t.input.site for t in tasks],
+        "path": [t.input.path for t in tasks], "sha256": [t.sha256 for t in tasks],
+        "nameplate": [t.nameplate_source for t in tasks], "plan": states,
+    })
+
+
+def _motor_map(motor: str | os.PathLike[str] | None, motors: str | os.PathLike[str] | None) -> MotorMap:
+    if motor is not None and motors is not None:
+        raise InvalidParameterError("give either motor (one nameplate for all) or motors (a mapping), not both")
+    if motor is not None:
+        return MotorMap.single(motor)
+    return MotorMap.load(motors) if motors is not None else MotorMap(rules=())
 
 
 LOCK_FILE = ".batch.lock"

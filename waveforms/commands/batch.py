@@ -6,7 +6,7 @@ import sys
 
 import click
 
-from ..batch import run
+from ..batch import plan, run
 
 
 @click.command("batch")
@@ -24,10 +24,11 @@ from ..batch import run
 @click.option("--retry-errors", is_flag=True, help="Rerun captures that failed last time.")
 @click.option("--reuse-workers", is_flag=True,
               help="Reuse each worker process for many captures (faster; by default every capture gets a fresh process).")
+@click.option("--dry-run", is_flag=True, help="List what would be run or skipped, and stop (nothing is written).")
 @click.option("--quiet", "-q", is_flag=True, help="No progress bar.")
 def command(inputs: tuple[str, ...], out: str, recipe: str | None, jobs: int | None, motor: str | None,
             motors: str | None, scheduler: str | None, force: bool, retry_errors: bool, reuse_workers: bool,
-            quiet: bool) -> None:
+            dry_run: bool, quiet: bool) -> None:
     """Analyse every capture in INPUTS (files, folders, globs, fsspec URLs) with one recipe.
 
     Each capture runs in its own worker process (or on a Dask cluster with
@@ -41,6 +42,15 @@ def command(inputs: tuple[str, ...], out: str, recipe: str | None, jobs: int | N
     The results inform an investigation; they do not replace protective
     devices.  Work on energized equipment only by qualified people.
     """
+    if dry_run:
+        p = plan(list(inputs), recipe=recipe, out=out, motor=motor, motors=motors, force=force, retry_errors=retry_errors)
+        for state, n in p["plan"].value_counts().items():
+            click.echo(f"{n:6d}  {state}")
+        for rec in p.head(50).to_dict("records"):
+            click.echo(f"  {rec['file']}  [{rec['site']}]  {rec['plan']}" + (f"  nameplate {rec['nameplate']}" if rec["nameplate"] else ""))
+        if len(p) > 50:
+            click.echo(f"  ... and {len(p) - 50} more")
+        return
     try:
         res = run(list(inputs), recipe=recipe, out=out, jobs=jobs, motor=motor, motors=motors, force=force,
                   retry_errors=retry_errors, scheduler=scheduler, progress=not quiet, fresh_workers=not reuse_workers)
