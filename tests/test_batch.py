@@ -99,7 +99,8 @@ def test_summary_rows_match_the_per_capture_results(tmp_path):
         assert row["duration_s"] == pytest.approx(2.0)
         assert row["start"] == "2031-05-04T06:00:00+00:00"
         assert 0 < row["thermal_capacity_used_pct"] < 100
-    # the healthy capture at 20 A RMS: max current x FLA is 20/21 (steady sinusoid, RMS = peak / sqrt(2))
+    # the healthy capture at 20 A RMS: max current x FLA is 20/21 (a sinusoid of peak sqrt(2) x 20 A has RMS 20 A;
+    # common practice, no source)
     assert s.loc["north-yard/logger00.h5", "max_current_x_fla"] == pytest.approx(20.0 / 21.0, rel=1e-3)
     # the open-phase capture: lines A and B carry sqrt(3) x 20 A after line C opens (Kirchhoff, common practice)
     assert s.loc["pump-house/logger01.h5", "max_current_x_fla"] == pytest.approx(math.sqrt(3) * 20.0 / 21.0, rel=1e-3)
