@@ -72,3 +72,50 @@ def test_cli_convert_streams_csv(tmp_path):
     assert "streamed" in r.stdout
     b = read_capture(tmp_path / "c.h5")
     assert any("converted to c.h5" in h for h in b.provenance.history)
+
+
+from hypothesis import HealthCheck, given, settings, strategies as st  # noqa: E402
+
+from waveforms.errors import WaveformsError  # noqa: E402
+
+
+@settings(max_examples=30, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture, HealthCheck.too_slow])
+@given(
+    n=st.integers(2, 6000),
+    drop=st.lists(st.integers(0, 299), max_size=20),
+    decimal=st.sampled_from([".", ","]),
+    block=st.integers(64, 4096),
+    jitter=st.floats(0, 0.15),  # clearly regular; the irregular case has its own tests
+    seed=st.integers(0, 2**16),
+)
+def test_streamed_equals_in_memory_property(tmp_path_factory, n, drop, decimal, block, jitter, seed):
+    rng = np.random.default_rng(seed)
+    rows = np.setdiff1d(np.arange(n), drop)
+    if rows.size < 2:
+        rows = np.arange(2)
+    t = (rows + rng.uniform(-jitter, jitter, rows.size)) / 2000.0
+    v = rng.normal(0, 100, (2, rows.size)).round(5)
+    sep = ";" if decimal == "," else ","
+    fmt = (lambda x: f"{x:.7f}".replace(".", ",")) if decimal == "," else (lambda x: f"{x:.7f}")
+    d = tmp_path_factory.mktemp("prop")
+    p = d / "p.csv"
+    p.write_text(f"time{sep}Va{sep}Ib\n" + "".join(f"{fmt(a)}{sep}{fmt(b)}{sep}{fmt(c)}\n" for a, b, c in zip(t, v[0], v[1], strict=True)), encoding="utf-8")
+    opts = ReadOptions(nominal_frequency_hz=50.0)
+    csv_stream_block = csv_stream.BLOCK_BYTES
+    try:
+        csv_stream.BLOCK_BYTES = block
+        try:
+            mem = read_capture(p, options=opts)
+        except WaveformsError as e:
+            with pytest.raises(WaveformsError):
+                convert_csv_to_native(p, d / "p.h5", opts)
+            assert not (d / "p.h5").exists(), e
+            return
+        convert_csv_to_native(p, d / "p.h5", opts)
+    finally:
+        csv_stream.BLOCK_BYTES = csv_stream_block
+    got = read_capture(d / "p.h5")
+    np.testing.assert_array_equal(mem.read(), got.read())
+    assert got.sample_rate_hz == pytest.approx(mem.sample_rate_hz, rel=1e-12)  # sums taken in another order
+    for f in ("start_time", "channels", "gaps", "n_samples"):
+        assert getattr(mem, f) == getattr(got, f), f

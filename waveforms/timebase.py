@@ -142,7 +142,16 @@ def analyse_stamps(t_s: np.ndarray) -> TimebaseReport:
         if k == n:
             break
         k = min(n, 8 * k)
+    # refit until the grid indices and the period agree (usually at once, at most a few rounds)
     idx = np.rint(rel / dt).astype(np.int64)
+    for _ in range(5):
+        if idx[-1] <= 0:
+            break
+        dt = float(np.dot(idx, rel) / np.dot(idx, idx))
+        new_idx = np.rint(rel / dt).astype(np.int64)
+        if np.array_equal(new_idx, idx):
+            break
+        idx = new_idx
     resid = rel - idx * dt
     same = np.flatnonzero((np.diff(idx) == 0) & (d != 0))
     first_coll = int(same[0] + 1) if same.size else None

@@ -41,6 +41,9 @@ from .registry import ReadOptions
 
 BLOCK_BYTES = 1 << 22
 NAN_BLOCK = 1 << 20
+#: The first blocks are combined until they hold this many rows before the grid is fitted,
+#: so that the period comes from enough stamps whatever the block size.
+FIRST_ROWS = 4096
 
 
 class _LengthOnly:
@@ -120,9 +123,19 @@ def _batches(path: Path, plan: Plan) -> Iterator[pa.RecordBatch]:
             convert_options=pacsv.ConvertOptions(include_columns=plan.columns, column_types=plan.types, decimal_point=lay.decimal,
                                                  strings_can_be_null=True, quoted_strings_can_be_null=True),
         )
+        pending: list[pa.RecordBatch] | None = []
         for batch in reader:
-            if batch.num_rows:
+            if not batch.num_rows:
+                continue
+            if pending is None:
                 yield batch
+                continue
+            pending.append(batch)
+            if sum(b.num_rows for b in pending) >= FIRST_ROWS:
+                yield pa.concat_batches(pending)
+                pending = None
+        if pending:
+            yield pa.concat_batches(pending)
     except pa.ArrowInvalid as e:
         raise _arrow_error(path, plan, str(e)) from None
     except (OSError, UnicodeDecodeError, pa.ArrowException) as e:
