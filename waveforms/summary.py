@@ -236,15 +236,15 @@ def _fmt(value: Any, col: str) -> str:
     return str(value)
 
 
-_SHOWN = ["file", "site", "verdict", "start", "duration_s"] + _EVENT_COLS + [
-    "worst_i2_i1_pct", "max_current_x_fla", "thermal_capacity_used_pct", "nameplate", "error"]
+_SHOWN = ["file", "site", "verdict", "start", "duration_s", "max_current_x_fla", "worst_i2_i1_pct",
+          "thermal_capacity_used_pct"] + _EVENT_COLS + ["nameplate", "error"]
 
 _CSS = """
 body{font-family:sans-serif;margin:1.5em;color:#222}
 table{border-collapse:collapse;font-size:13px}
 th,td{border:1px solid #bbb;padding:3px 6px;text-align:left;vertical-align:top}
 th{background:#eee;cursor:pointer;position:sticky;top:0}
-td.n{text-align:right;font-variant-numeric:tabular-nums}
+td.n{text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap}
 tr.error td{background:#fbeaea}
 .caution{font-size:12px;color:#555;max-width:60em}
 """
