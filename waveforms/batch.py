@@ -914,7 +914,7 @@ def _run_dask(todo: Sequence[CaptureTask], scheduler: Any, collect: Callable[[di
     try:
         from distributed import Client, as_completed
     except ImportError:
-        raise InvalidParameterError("scheduler given but the 'distributed' package is not installed") from None
+        raise InvalidParameterError("scheduler given but the 'distributed' package is not installed (pip install 'motor-waveforms[cluster]')") from None
     own = not isinstance(scheduler, Client)
     try:
         client = Client(scheduler) if own else scheduler
