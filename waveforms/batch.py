@@ -46,7 +46,6 @@ import socket
 import sys
 import tempfile
 import time
-import tomllib
 import traceback
 from collections import deque
 from collections.abc import Callable, Sequence
@@ -58,6 +57,7 @@ import pandas as pd
 from .atomic import write_text
 from .errors import CaptureReadError, InvalidParameterError, WaveformsError
 from .hashing import sha256_file
+from .tomlfile import read_toml
 from .recipe import Recipe, RunState, load_recipe, run_recipe
 from .summary import error_row, events_frame, summary_frame, summary_row, write_summary
 
@@ -256,12 +256,7 @@ class MotorMap:
         from .motor.nameplate import load_nameplate
 
         path = Path(path)
-        try:
-            data = tomllib.loads(path.read_text(encoding="utf-8"))
-        except FileNotFoundError:
-            raise CaptureReadError(path, "", "motor mapping file not found") from None
-        except (tomllib.TOMLDecodeError, UnicodeDecodeError) as e:
-            raise CaptureReadError(path, "", f"not valid TOML ({e})") from None
+        data, _ = read_toml(path, "motor mapping file")
         for key in data:
             if key not in ("default", "motor"):
                 raise CaptureReadError(path, f"key {key}", "unknown key; known keys: ['default', 'motor']")

@@ -53,13 +53,13 @@ import dataclasses
 import difflib
 import math
 import re
-import tomllib
 from collections.abc import Iterable, Sequence
 from pathlib import Path
 from typing import Any
 
 from ..capture import BASE_UNIT, LL_PAIR, Channel
 from ..errors import CaptureReadError, MappingError
+from ..tomlfile import read_toml
 
 TOP_KEYS = ("unknown", "ignore", "capture", "time", "csv", "hdf5", "channels")
 SECTION_KEYS = {
@@ -240,16 +240,7 @@ class Mapping:
 def load_mapping_file(path: str | Path) -> dict[str, Any]:
     """Read a mapping TOML file into a plain dict (validated by `parse_mapping`)."""
     p = Path(path)
-    try:
-        text = p.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise MappingError(p, "", "mapping file not found") from None
-    except (OSError, UnicodeDecodeError) as e:
-        raise MappingError(p, "", f"cannot read the mapping file ({e})") from None
-    try:
-        d = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as e:
-        raise MappingError(p, "", f"not valid TOML ({e})") from None
+    d, _ = read_toml(p, "mapping file", MappingError)
     parse_mapping(d, str(p))  # validate early, with the file's name in messages
     return d
 

@@ -31,13 +31,13 @@ from __future__ import annotations
 
 import dataclasses
 import math
-import tomllib
 from os import PathLike
 from typing import Any
 
 import numpy as np
 
 from ..errors import CaptureReadError, InvalidParameterError
+from ..tomlfile import read_toml, table_or_top
 
 CONNECTIONS = ("star", "delta")
 
@@ -160,17 +160,8 @@ class MachineParameters:
 
 def load_machine(path: str | PathLike[str]) -> MachineParameters:
     """Read machine parameters from a TOML file (table ``[machine]`` or top-level keys)."""
-    try:
-        with open(path, "rb") as fh:
-            data = tomllib.load(fh)
-    except FileNotFoundError:
-        raise CaptureReadError(path, "", "machine file not found") from None
-    except tomllib.TOMLDecodeError as e:
-        raise CaptureReadError(path, "", f"not valid TOML ({e})") from None
-    table = data.get("machine", data)
-    if not isinstance(table, dict):
-        raise CaptureReadError(path, "key machine", "must be a table")
-    return MachineParameters.from_dict(dict(table), str(path))
+    data, _ = read_toml(path, "machine file")
+    return MachineParameters.from_dict(table_or_top(data, "machine", path), str(path))
 
 
 #: Krause et al. [1] 50 hp, 460 V, 4-pole machine (reactances at 60 Hz); the values

@@ -22,11 +22,11 @@ from __future__ import annotations
 
 import dataclasses
 import math
-import tomllib
 from os import PathLike
 from typing import Any
 
 from ..errors import CaptureReadError, InvalidParameterError
+from ..tomlfile import read_toml, table_or_top
 
 HP_TO_KW = 0.745699872  # 1 hp (mechanical, 550 ft lbf/s) in kW; exact definition, NIST SP 811 appendix B.
 
@@ -227,14 +227,5 @@ def _build(d: dict[str, Any], source: str) -> Nameplate:
 
 def load_nameplate(path: str | PathLike[str]) -> Nameplate:
     """Read a nameplate TOML file (table ``[motor]`` or top-level keys)."""
-    try:
-        with open(path, "rb") as fh:
-            data = tomllib.load(fh)
-    except FileNotFoundError:
-        raise CaptureReadError(path, "", "nameplate file not found") from None
-    except tomllib.TOMLDecodeError as e:
-        raise CaptureReadError(path, "", f"not valid TOML ({e})") from None
-    table = data.get("motor", data)
-    if not isinstance(table, dict):
-        raise CaptureReadError(path, "key motor", "must be a table")
-    return _build(dict(table), str(path))
+    data, _ = read_toml(path, "nameplate file")
+    return _build(table_or_top(data, "motor", path), str(path))

@@ -82,12 +82,12 @@ import dataclasses
 import datetime as _dt
 import hashlib
 import math
-import tomllib
 from os import PathLike
 from pathlib import Path
 from typing import Any
 
 from ..errors import CaptureReadError, InvalidParameterError
+from ..tomlfile import read_toml
 from .dynamics import SwitchOp
 from .loads import Jam, Load, LoadStep
 from .logger import ChannelError, Logger
@@ -288,13 +288,6 @@ def scenario_from_dict(data: dict[str, Any], path: str = "<scenario>", base: Pat
 def load_scenario(path: str | PathLike[str]) -> Scenario:
     """Read a scenario TOML file."""
     p = Path(path)
-    try:
-        raw = p.read_bytes()
-    except FileNotFoundError:
-        raise CaptureReadError(p, "", "scenario file not found") from None
-    try:
-        data = tomllib.loads(raw.decode("utf-8"))
-    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as e:
-        raise CaptureReadError(p, "", f"not valid TOML ({e})") from None
+    data, raw = read_toml(p, "scenario file")
     sc = scenario_from_dict(data, str(p), p.parent)
     return dataclasses.replace(sc, source_sha256=hashlib.sha256(raw).hexdigest())
