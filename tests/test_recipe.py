@@ -190,3 +190,63 @@ def test_recipe_chain_agrees_with_analyze(tmp_path):
     assert state.speed is not None and len(state.speed) > 0
     pd.testing.assert_frame_equal(state.speed, ref.speed)
     assert state.thermal.summary["thermal_capacity_used_pct"] == pytest.approx(ref.thermal.summary["thermal_capacity_used_pct"])
+    # both paths call the same step functions of waveforms.analysis: notes, parameters and states agree exactly
+    assert state.analysis.notes == ref.notes
+    assert state.analysis.parameters == ref.parameters
+    assert state.analysis.quality == ref.quality
+    pd.testing.assert_frame_equal(state.timeline, ref.timeline)
+
+
+def test_recipe_chain_agrees_with_analyze_without_nameplate_or_speed(tmp_path):
+    """Consistency of two paths (no external source): no nameplate (no speed, no thermal), and triage (no speed stage)."""
+    from waveforms.analysis import analyze
+    from waveforms.io import read_capture
+
+    path = make_capture(tmp_path / "open_c.h5", seconds=3.0, open_c_at_s=1.5)
+    state = run_recipe(load_recipe("investigate").without("report"), path)
+    ref = analyze(read_capture(path))
+    assert state.verdict == ref.verdict and "No nameplate was given" in ref.verdict
+    assert state.analysis.notes == ref.notes
+    assert any(n.startswith("speed: not estimated, no nameplate") for n in ref.notes)
+    assert state.speed is None and state.thermal is None and ref.thermal is None
+    assert state.analysis.parameters == ref.parameters
+    plate = load_nameplate(write_nameplate(tmp_path / "plate.toml"))
+    tri = run_recipe(load_recipe("triage").without("report"), path, nameplate=plate)
+    ref2 = analyze(read_capture(path), plate, speed=False)
+    assert tri.verdict == ref2.verdict and tri.analysis.notes == ref2.notes
+    assert tri.analysis.parameters == ref2.parameters and ref2.parameters["speed_enabled"] is False
+
+
+def test_default_speed_window_rule():
+    """The project's own rule (our choice, no external source): a sixth of the capture, clamped to 0.5-10 s."""
+    from waveforms.analysis import (
+        default_speed_window_s,
+        resolve_speed_options,
+        speed_record,
+    )
+
+    assert default_speed_window_s(1.0) == 0.5
+    assert default_speed_window_s(14.0) == 2.33
+    assert default_speed_window_s(60.0) == 10.0
+    assert default_speed_window_s(3600.0) == 10.0
+    cap = type("C", (), {"duration_s": 30.0})()
+    assert resolve_speed_options(cap, None) == {"window_s": 5.0}
+    assert resolve_speed_options(cap, {"window_s": 2.0}) == {"window_s": 2.0}
+    assert "window_s" not in resolve_speed_options(cap, {"settings": object()})
+    # the record leaves out a setting given at its library default (SpeedSettings.threshold_db = 12.0)
+    assert speed_record({"window_s": 5.0, "threshold_db": 12.0, "slot_nus": [-1, 1], "max_slip": 0.3}) == {
+        "window_s": 5.0, "max_slip": 0.3}
+
+
+def test_with_params_checks_values_like_a_recipe_file():
+    rec = load_recipe("investigate")
+    changed = rec.with_params("thermal", {"motor_tau_s": 900.0})
+    assert changed.params("thermal")["motor_tau_s"] == 900.0
+    assert rec.params("thermal")["motor_tau_s"] is None  # the original is unchanged (frozen)
+    assert changed.fingerprint() != rec.fingerprint()
+    with pytest.raises(RecipeError, match=r"key thermal.motor_tau_s: .*below the minimum"):
+        rec.with_params("thermal", {"motor_tau_s": 0.5})
+    with pytest.raises(RecipeError, match=r"key speed.windw_s: unknown parameter"):
+        rec.with_params("speed", {"windw_s": 2.0})
+    with pytest.raises(RecipeError, match=r"stage 'speed' is not in recipe.stages"):
+        load_recipe("triage").with_params("speed", {"window_s": 2.0})

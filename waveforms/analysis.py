@@ -1,9 +1,13 @@
 """One capture, start to finish: measure -> speed -> detectors -> thermal -> verdict.
 
-`analyze` is the library's main entry point (the ``waveforms analyze`` command
-and the report are thin layers over it).  It returns an `AnalysisResult`
-holding every table and a plain-language verdict; writing files is left to
-`waveforms.report`.
+Each step is a small public function taking and returning plain objects
+(`measure_capture`, `estimate_speed`, `detect_events`, `assess_motor_thermal`,
+`build_result`, with `analysis_parameters` for the parameter record).
+`analyze` calls them in order and is the library's main entry point; the
+recipe stages of `waveforms.recipe` (behind ``waveforms analyze`` and
+``waveforms batch``) call the same functions, so each rule and note text is
+written once.  The result is an `AnalysisResult` holding every table and a
+plain-language verdict; writing files is left to `waveforms.report`.
 """
 
 from __future__ import annotations
@@ -255,6 +259,198 @@ def verdict_text(
     return " ".join(p for p in parts if p)
 
 
+# -- the steps of the chain ------------------------------------------------------
+# Each step takes and returns plain objects (no file I/O).  `analyze` calls them in
+# order; the recipe stages (`waveforms.recipe`) call the same functions, so the
+# rules and the note texts below exist once.
+
+NO_NAMEPLATE_NOTE = "no nameplate: thresholds scaled to the capture's own running current; thermal stress not assessed"
+SPEED_NO_NAMEPLATE_NOTE = "speed: not estimated, no nameplate (pole count unknown)"
+THERMAL_TAU_ASSUMED_NOTE = "thermal: motor heating time constant 600 s assumed (no maker's figure given)"
+
+
+def nameplate_notes(plate: Nameplate | None) -> list[str]:
+    """Notes on the nameplate: that there is none, or its own warnings."""
+    if plate is None:
+        return [NO_NAMEPLATE_NOTE]
+    return [f"nameplate: {w}" for w in plate.warnings]
+
+
+def measure_capture(capture: Capture, options: dict[str, Any] | None = None) -> Any:
+    """`waveforms.measure.measure` with ``options``; raises when not one full cycle could be measured.
+
+    Raises
+    ------
+    InvalidParameterError
+        Naming the capture's source file.
+    """
+    from .measure import measure
+
+    m = measure(capture, **(options or {}))
+    if len(m.cycles) == 0:
+        raise InvalidParameterError(f"{capture.provenance.source_path or 'capture'}: no complete fundamental cycle could be measured")
+    return m
+
+
+def default_speed_window_s(duration_s: float) -> float:
+    """Speed-track window for a capture of ``duration_s`` [s]: about a sixth of it, 0.5 s to 10 s [s].
+
+    Short captures then still give about six windows; 10 s is the speed
+    engine's own default (our choice, no source).
+    """
+    return float(min(10.0, max(0.5, round(float(duration_s) / 6.0, 2))))
+
+
+def resolve_speed_options(capture: Capture, options: dict[str, Any] | None = None) -> dict[str, Any]:
+    """Keyword arguments for `waveforms.speed.track_speed`: ``options`` with the default window filled in.
+
+    The window is `default_speed_window_s` of the capture's duration unless
+    ``options`` gives ``window_s`` or a ``settings`` object.
+    """
+    opts = dict(options or {})
+    if "window_s" not in opts and "settings" not in opts:
+        opts["window_s"] = default_speed_window_s(capture.duration_s)
+    return opts
+
+
+def speed_record(options: dict[str, Any]) -> dict[str, Any]:
+    """The speed options as recorded in `AnalysisResult.parameters`: the window and what differs from the default.
+
+    A `SpeedSettings` field given at its default value is left out, so the
+    record (and its digest) depend on the settings in effect, not on how they
+    were spelled.
+    """
+    from .speed import SpeedSettings
+
+    defaults = {f.name: f.default for f in dataclasses.fields(SpeedSettings)}
+    out = {}
+    for k, v in options.items():
+        vv = tuple(v) if isinstance(v, list) else v
+        if k == "window_s" or k not in defaults or vv != defaults[k]:
+            out[k] = v
+    return out
+
+
+def estimate_speed(
+    capture: Capture, cycles: pd.DataFrame | None, nameplate: Nameplate | None, options: dict[str, Any] | None = None,
+) -> tuple[pd.DataFrame | None, list[str]]:
+    """The speed track and its notes.
+
+    Parameters
+    ----------
+    capture : Capture
+    cycles : DataFrame or None
+        Per-cycle table; its ``frequency_hz`` is the supply frequency the track uses.
+    nameplate : Nameplate or None
+        Pole count; without it (and without ``pole_pairs`` in ``options``) no track.
+    options : dict, optional
+        Keyword arguments for `waveforms.speed.track_speed`; `resolve_speed_options` fills the window.
+
+    Returns
+    -------
+    (DataFrame or None, list of str)
+        None when not estimated (no nameplate, no current channel, or the
+        speed engine's error, told in the notes).
+    """
+    opts = resolve_speed_options(capture, options)
+    if nameplate is None and opts.get("pole_pairs") is None:
+        return None, [SPEED_NO_NAMEPLATE_NOTE]
+    if not capture.phase_channels("current"):
+        return None, []
+    from .speed import track_speed
+
+    supply = cycles[["t_s", "frequency_hz"]] if cycles is not None and "frequency_hz" in cycles else None
+    try:
+        return track_speed(capture, nameplate=nameplate, supply_hz=supply, **opts), []
+    except WaveformsError as e:
+        return None, [f"speed: not estimated ({e})"]
+
+
+def detection_input(
+    capture: Capture, measurements: Any, speed: pd.DataFrame | None, nameplate: Nameplate | None, params: DetectParams,
+) -> DetectionInput:
+    """The detectors' shared input: tables, nameplate figures (FLA, locked-rotor current) and declared voltage."""
+    plate = nameplate
+    return DetectionInput(
+        cycles=measurements.cycles, half_cycles=getattr(measurements, "half_cycles", None), speed=speed,
+        fla_a=None if plate is None else float(plate.fla_a), locked_rotor_a=locked_rotor_a(plate),
+        declared_voltage_ll_v=capture.nominal_voltage_v or (None if plate is None else float(plate.rated_voltage_v)),
+        capture=capture, params=params,
+        current_channels={c: ch.label for c, ch in capture.phase_channels("current").items()},
+    )
+
+
+def detect_events(
+    capture: Capture, measurements: Any, speed: pd.DataFrame | None, nameplate: Nameplate | None,
+    params: DetectParams | None = None, only: tuple[str, ...] | None = None,
+) -> tuple[list[Event], pd.DataFrame, pd.DataFrame, list[str]]:
+    """Run the detectors; the per-cycle motor states and their merged timeline.
+
+    Returns
+    -------
+    (events, states, timeline, notes)
+        ``states`` as `motor_states`, ``timeline`` as `merge_periods`.
+    """
+    inp = detection_input(capture, measurements, speed, nameplate, params or DetectParams())
+    events = run_detectors(inp, only=only)
+    notes = [f"detect: {n}" for n in dict.fromkeys(inp.notes)]
+    states = motor_states(inp, events)
+    return events, states, merge_periods(states), notes
+
+
+def assess_motor_thermal(
+    cycles: pd.DataFrame | None, nameplate: Nameplate | None, params: ThermalParams | None = None,
+) -> tuple[ThermalResult | None, list[str]]:
+    """Thermal stress from the per-cycle line currents and the nameplate, with its notes.
+
+    Returns
+    -------
+    (ThermalResult or None, list of str)
+        None without a nameplate or without a line-current column.
+    """
+    if nameplate is None or cycles is None or not any(f"I{c}_rms" in cycles for c in "abc"):
+        return None, []
+    tparams = params or ThermalParams()
+    thermal = assess_thermal(
+        cycles, fla_a=float(nameplate.fla_a), service_factor=float(nameplate.service_factor),
+        locked_rotor_a=locked_rotor_a(nameplate), connection=nameplate.connection, params=tparams,
+    )
+    notes = [f"thermal: {n}" for n in thermal.summary["notes"]]
+    if tparams.motor_tau_s == ThermalParams().motor_tau_s:
+        notes.append(THERMAL_TAU_ASSUMED_NOTE)
+    return thermal, notes
+
+
+def analysis_parameters(
+    capture: Capture, *, detect_params: DetectParams | None = None, thermal_params: ThermalParams | None = None,
+    speed_options: dict[str, Any] | None = None, speed_enabled: bool = True,
+    detectors: tuple[str, ...] | None = None, measure_options: dict[str, Any] | None = None,
+) -> dict[str, Any]:
+    """Every parameter used, as recorded in `AnalysisResult.parameters` (and result.json)."""
+    return {
+        "detect": (detect_params or DetectParams()).to_dict(),
+        "thermal": dataclasses.asdict(thermal_params or ThermalParams()),
+        "speed": speed_record(resolve_speed_options(capture, speed_options)),
+        "speed_enabled": bool(speed_enabled), "detectors": list(detectors) if detectors else None,
+        "measure": dict(measure_options or {}),
+    }
+
+
+def build_result(
+    capture: Capture, nameplate: Nameplate | None, measurements: Any, *, speed: pd.DataFrame | None,
+    events: list[Event], thermal: ThermalResult | None, states: pd.DataFrame, timeline: pd.DataFrame,
+    notes: list[str], quality: list[dict], parameters: dict, timings_s: dict,
+) -> AnalysisResult:
+    """The `AnalysisResult`, with the verdict written from the events, thermal result and quality warnings."""
+    n_warn = sum(1 for q in quality if q.get("severity") == "warning")
+    verdict = verdict_text(events, thermal, timeline, capture.start_time, nameplate, n_warn)
+    return AnalysisResult(
+        capture=capture, nameplate=nameplate, measurements=measurements, speed=speed, events=list(events),
+        thermal=thermal, states=states, timeline=timeline, verdict=verdict, notes=list(notes), quality=list(quality),
+        parameters=dict(parameters), versions=versions(), timings_s=dict(timings_s),
+    )
+
+
 def analyze(
     capture: Capture,
     nameplate: Nameplate | None = None,
@@ -269,6 +465,10 @@ def analyze(
 ) -> AnalysisResult:
     """Analyse one capture: events, speed, thermal stress and a verdict.
 
+    The steps, in order: `measure_capture`, `estimate_speed`, `detect_events`,
+    `assess_motor_thermal`, `waveforms.quality.quality_notes`, `build_result`
+    (the recipe stages of `waveforms.recipe` call the same functions).
+
     Parameters
     ----------
     capture : Capture
@@ -281,7 +481,8 @@ def analyze(
     speed : bool
         Estimate the speed track (needs a nameplate for the pole count).
     speed_options : dict, optional
-        Keyword arguments for `waveforms.speed.track_speed` (``window_s`` ...).
+        Keyword arguments for `waveforms.speed.track_speed` (``window_s`` ...);
+        the window defaults to `default_speed_window_s`.
     detectors : tuple of str, optional
         Run only these detectors (see `waveforms.detect.detector_names`).
     quality : bool
@@ -293,66 +494,29 @@ def analyze(
     -------
     AnalysisResult
     """
-    from .measure import measure
-
     timings: dict[str, float] = {}
-    notes: list[str] = []
     plate = nameplate if nameplate is not None else capture.nameplate
-    if plate is None:
-        notes.append("no nameplate: thresholds scaled to the capture's own running current; thermal stress not assessed")
-    else:
-        notes.extend(f"nameplate: {w}" for w in plate.warnings)
+    notes = nameplate_notes(plate)
     t0 = time.perf_counter()
-    m = measure(capture, **(measure_options or {}))
+    m = measure_capture(capture, measure_options)
     timings["measure"] = time.perf_counter() - t0
-    cycles = m.cycles
-    if len(cycles) == 0:
-        raise InvalidParameterError(f"{capture.provenance.source_path or 'capture'}: no complete fundamental cycle could be measured")
 
     track = None
-    speed_opts = dict(speed_options or {})
-    if "window_s" not in speed_opts and "settings" not in speed_opts:
-        # short captures: about six windows, 0.5 s to 10 s long (our choice; 10 s is the speed engine's default)
-        speed_opts["window_s"] = float(min(10.0, max(0.5, round(capture.duration_s / 6.0, 2))))
-    if speed and plate is not None and capture.phase_channels("current"):
+    if speed:
         t0 = time.perf_counter()
-        from .speed import track_speed
-
-        supply = cycles[["t_s", "frequency_hz"]] if "frequency_hz" in cycles else None
-        try:
-            track = track_speed(capture, nameplate=plate, supply_hz=supply, **speed_opts)
-        except WaveformsError as e:
-            notes.append(f"speed: not estimated ({e})")
+        track, speed_notes = estimate_speed(capture, m.cycles, plate, speed_options)
+        notes.extend(speed_notes)
         timings["speed"] = time.perf_counter() - t0
-    elif speed and plate is None:
-        notes.append("speed: not estimated, no nameplate (pole count unknown)")
 
     t0 = time.perf_counter()
-    dparams = detect_params or DetectParams()
-    inp = DetectionInput(
-        cycles=cycles, half_cycles=getattr(m, "half_cycles", None), speed=track,
-        fla_a=None if plate is None else float(plate.fla_a), locked_rotor_a=locked_rotor_a(plate),
-        declared_voltage_ll_v=capture.nominal_voltage_v or (None if plate is None else float(plate.rated_voltage_v)),
-        capture=capture, params=dparams,
-        current_channels={c: ch.label for c, ch in capture.phase_channels("current").items()},
-    )
-    events = run_detectors(inp, only=detectors)
-    notes.extend(f"detect: {n}" for n in dict.fromkeys(inp.notes))
-    states = motor_states(inp, events)
-    timeline = merge_periods(states)
+    events, states, timeline, detect_notes = detect_events(capture, m, track, plate, detect_params, detectors)
+    notes.extend(detect_notes)
     timings["detect"] = time.perf_counter() - t0
 
-    thermal = None
-    tparams = thermal_params or ThermalParams()
-    if plate is not None and any(f"I{c}_rms" in cycles for c in "abc"):
-        t0 = time.perf_counter()
-        thermal = assess_thermal(
-            cycles, fla_a=float(plate.fla_a), service_factor=float(plate.service_factor),
-            locked_rotor_a=locked_rotor_a(plate), connection=plate.connection, params=tparams,
-        )
-        notes.extend(f"thermal: {n}" for n in thermal.summary["notes"])
-        if thermal_params is None or thermal_params.motor_tau_s == ThermalParams().motor_tau_s:
-            notes.append("thermal: motor heating time constant 600 s assumed (no maker's figure given)")
+    t0 = time.perf_counter()
+    thermal, thermal_notes = assess_motor_thermal(m.cycles, plate, thermal_params)
+    notes.extend(thermal_notes)
+    if thermal is not None:
         timings["thermal"] = time.perf_counter() - t0
 
     qnotes: list[dict] = []
@@ -362,18 +526,35 @@ def analyze(
 
         qnotes = quality_notes(capture)
         timings["quality"] = time.perf_counter() - t0
-    n_warn = sum(1 for q in qnotes if q.get("severity") == "warning")
-    verdict = verdict_text(events, thermal, timeline, capture.start_time, plate, n_warn)
-    params = {
-        "detect": dparams.to_dict(), "thermal": dataclasses.asdict(tparams), "speed": speed_opts,
-        "speed_enabled": bool(speed), "detectors": list(detectors) if detectors else None,
-        "measure": dict(measure_options or {}),
-    }
-    return AnalysisResult(
-        capture=capture, nameplate=plate, measurements=m, speed=track, events=events, thermal=thermal,
-        states=states, timeline=timeline, verdict=verdict, notes=notes, quality=qnotes,
-        parameters=params, versions=versions(), timings_s=timings,
+    params = analysis_parameters(
+        capture, detect_params=detect_params, thermal_params=thermal_params, speed_options=speed_options,
+        speed_enabled=speed, detectors=detectors, measure_options=measure_options,
+    )
+    return build_result(
+        capture, plate, m, speed=track, events=events, thermal=thermal, states=states, timeline=timeline,
+        notes=notes, quality=qnotes, parameters=params, timings_s=timings,
     )
 
 
-__all__ = ["AnalysisResult", "SAFETY_CAUTIONS", "STATES", "analyze", "iso_at", "locked_rotor_a", "verdict_text"]
+__all__ = [
+    "SAFETY_CAUTIONS",
+    "STATES",
+    "AnalysisResult",
+    "analysis_parameters",
+    "analyze",
+    "assess_motor_thermal",
+    "build_result",
+    "default_speed_window_s",
+    "detect_events",
+    "detection_input",
+    "estimate_speed",
+    "iso_at",
+    "locked_rotor_a",
+    "measure_capture",
+    "merge_periods",
+    "motor_states",
+    "nameplate_notes",
+    "resolve_speed_options",
+    "speed_record",
+    "verdict_text",
+]

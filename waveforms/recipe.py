@@ -18,9 +18,11 @@ which parameters::
 The *stage registry* in this module is the one place that lists the stage
 names, their parameters (type, default, meaning) and which earlier stages each
 needs; validation, ``waveforms recipes`` and docs/batch.md read it.  Each stage
-wraps the public library function of the module that owns the work
-(`waveforms.io.read_capture`, `waveforms.measure.measure`,
-`waveforms.speed.track_speed`, `waveforms.analysis`, `waveforms.report`).
+turns its recipe table into arguments and calls the public library function
+that owns the work (`waveforms.io.read_capture`; the step functions of
+`waveforms.analysis`: `measure_capture`, `estimate_speed`, `detect_events`,
+`assess_motor_thermal`, `build_result`; `waveforms.report.write_report`).  A
+stage holds no rule of its own: the same functions make `waveforms.analysis.analyze`.
 
 The recipes shipped with the package live in ``waveforms/pipelines_data/``
 (``pipelines/`` at the top of the repository holds the same files).
@@ -44,7 +46,7 @@ from importlib import resources
 from pathlib import Path
 from typing import Any
 
-from .errors import CaptureReadError, InvalidParameterError, WaveformsError
+from .errors import CaptureReadError, InvalidParameterError
 
 #: Name of the recipe `analyze` and `waveforms batch` use when none is given.
 DEFAULT_RECIPE = "investigate"
@@ -162,6 +164,9 @@ class RunState:
     thermal: Any = None
     quality: list[dict[str, Any]] = dataclasses.field(default_factory=list)
     parameters: dict[str, Any] = dataclasses.field(default_factory=dict)
+    #: the settings objects the stages used (DetectParams, ThermalParams, speed options ...), from which
+    #: `waveforms.analysis.analysis_parameters` writes ``parameters`` when the result is assembled
+    settings: dict[str, Any] = dataclasses.field(default_factory=dict)
     analysis: Any = None
     outputs: dict[str, str] = dataclasses.field(default_factory=dict)
     notes: list[str] = dataclasses.field(default_factory=list)
@@ -316,6 +321,28 @@ class Recipe:
     def without(self, *names: str) -> Recipe:
         """The same recipe with some stages left out (e.g. ``"report"`` for a notebook)."""
         return dataclasses.replace(self, steps=tuple(s for s in self.steps if s[0] not in names))
+
+    def with_params(self, stage: str, values: Mapping[str, Any]) -> Recipe:
+        """The same recipe with some of one stage's parameters changed (checked as in a recipe file).
+
+        Raises
+        ------
+        RecipeError
+            The stage is not in the recipe, or a key or value is wrong.
+        """
+        if stage not in self.stage_names:
+            raise RecipeError(self.source or self.name, f"table [{stage}]",
+                              f"stage {stage!r} is not in recipe.stages {list(self.stage_names)}")
+        spec = get_stage(stage)
+        _check_table(values, spec.params, stage, self.source or self.name)  # the new values only
+        full = {**self.params(stage), **values}
+        if spec.check is not None:
+            try:
+                spec.check(full)
+            except InvalidParameterError as e:
+                raise RecipeError(self.source or self.name, f"table [{stage}]", str(e)) from None
+        steps = tuple((n, full if n == stage else p) for n, p in self.steps)
+        return dataclasses.replace(self, steps=steps)
 
 
 _BATCH_PARAMS = (
@@ -525,16 +552,19 @@ def run_recipe(
 
 
 def _assemble_analysis(state: RunState) -> None:
-    """Build the analysis engineer's `AnalysisResult` (verdict included) from the stages run so far."""
-    from .analysis import AnalysisResult, verdict_text, versions
+    """Build the `AnalysisResult` (verdict included) from the stages run so far, as `analyze` does."""
+    from .analysis import analysis_parameters, build_result
 
-    n_warn = sum(1 for q in state.quality if q.get("severity") == "warning")
-    verdict = verdict_text(state.events, state.thermal, state.timeline, state.capture.start_time, state.nameplate, n_warn)
-    state.analysis = AnalysisResult(
-        capture=state.capture, nameplate=state.nameplate, measurements=state.measurements, speed=state.speed,
-        events=list(state.events), thermal=state.thermal, states=state.states, timeline=state.timeline,
-        verdict=verdict, notes=list(state.notes), quality=list(state.quality), parameters=dict(state.parameters),
-        versions=versions(), timings_s=dict(state.timings_s),
+    st = state.settings
+    state.parameters = analysis_parameters(
+        state.capture, detect_params=st.get("detect"), thermal_params=st.get("thermal"),
+        speed_options=st.get("speed"), speed_enabled=st.get("speed_enabled", False),
+        detectors=st.get("detectors"), measure_options=st.get("measure"),
+    )
+    state.analysis = build_result(
+        state.capture, state.nameplate, state.measurements, speed=state.speed, events=state.events,
+        thermal=state.thermal, states=state.states, timeline=state.timeline, notes=state.notes,
+        quality=state.quality, parameters=state.parameters, timings_s=state.timings_s,
     )
 
 
@@ -633,14 +663,15 @@ def _stage_import(state: RunState, params: dict[str, Any]) -> None:
     elif state.capture.nameplate is not None:
         state.nameplate = state.capture.nameplate
         state.nameplate_source = "stored in the capture"
-    if state.nameplate is None:
-        state.notes.append("no nameplate: thresholds scaled to the capture's own running current; thermal stress not assessed")
-    else:
-        state.notes.extend(f"nameplate: {w}" for w in state.nameplate.warnings)
+    from .analysis import nameplate_notes
+
+    state.notes.extend(nameplate_notes(state.nameplate))
     if params["quality"]:
         from .quality import quality_notes
 
+        t0 = time.perf_counter()
         state.quality = quality_notes(state.capture)
+        state.timings_s["quality"] = time.perf_counter() - t0  # part of the import stage's time
 
 
 def _known_format(value: str) -> str | None:
@@ -651,13 +682,11 @@ def _known_format(value: str) -> str | None:
 
 
 def _stage_measure(state: RunState, params: dict[str, Any]) -> None:
-    from .measure import measure
+    from .analysis import measure_capture
 
     kw = library_kwargs(params, _STAGES["measure"])
-    state.measurements = measure(state.capture, **kw)
-    state.parameters["measure"] = kw
-    if len(state.measurements.cycles) == 0:
-        raise InvalidParameterError(f"{state.source}: no complete fundamental cycle could be measured")
+    state.settings["measure"] = kw
+    state.measurements = measure_capture(state.capture, kw)
 
 
 def _measure_params() -> tuple[Param, ...]:
@@ -676,37 +705,23 @@ def _speed_settings_cls() -> type:
 
 _SPEED_OWN = (
     Param("enabled", "bool", True, "estimate the speed; false = leave the speed track empty", kwarg=""),
-    # window_s comes from SpeedSettings; absent = about a sixth of the capture, 0.5-10 s (as `analyze`)
+    # window_s comes from SpeedSettings; absent = `waveforms.analysis.default_speed_window_s`
     Param("pole_pairs", "int", None, "override the nameplate's pole pairs [-]", minimum=1),
     Param("rotor_bars", "int", None, "override the nameplate's rotor bar count [-]", minimum=4),
 )
 
 
 def _stage_speed(state: RunState, params: dict[str, Any]) -> None:
-    from .speed import track_speed
+    from .analysis import estimate_speed
 
+    # the speed-track keyword arguments the recipe gives (absent window_s: `analysis.default_speed_window_s`)
+    opts = {k: (tuple(v) if isinstance(v, list) else v) for k, v in library_kwargs(params, _STAGES["speed"]).items()}
+    state.settings["speed"] = opts
+    state.settings["speed_enabled"] = bool(params["enabled"])
     if not params["enabled"]:
         return
-    if state.nameplate is None and params["pole_pairs"] is None:
-        state.notes.append("speed: not estimated, no nameplate (pole count unknown)")
-        return
-    if not state.capture.phase_channels("current"):
-        return
-    stage = _STAGES["speed"]
-    if params["window_s"] is None:
-        # the same rule as waveforms.analysis.analyze: about six windows, 0.5 s to 10 s long
-        params = {**params, "window_s": float(min(10.0, max(0.5, round(state.capture.duration_s / 6.0, 2))))}
-    settings = _build_settings(_speed_settings_cls(), params, stage)
-    kw = {k: params[k] for k in ("pole_pairs", "rotor_bars") if params[k] is not None}
-    supply = None
-    cyc = state.cycles
-    if cyc is not None and "frequency_hz" in cyc:
-        supply = cyc[["t_s", "frequency_hz"]]
-    state.parameters["speed"] = {**library_kwargs(params, stage)}
-    try:
-        state.speed = track_speed(state.capture, nameplate=state.nameplate, supply_hz=supply, settings=settings, **kw)
-    except WaveformsError as e:
-        state.notes.append(f"speed: not estimated ({e})")
+    state.speed, notes = estimate_speed(state.capture, state.cycles, state.nameplate, opts)
+    state.notes.extend(notes)
 
 
 def _check_speed(params: dict[str, Any]) -> None:
@@ -734,27 +749,15 @@ _DETECT_OWN = (
 
 
 def _stage_detect(state: RunState, params: dict[str, Any]) -> None:
-    from .analysis import locked_rotor_a, merge_periods, motor_states
-    from .detect import DetectionInput, run_detectors
+    from .analysis import detect_events
 
-    m = state.measurements
-    plate = state.nameplate
-    cap = state.capture
     dparams = _build_settings(_detect_params_cls(), params, _STAGES["detect"])
-    inp = DetectionInput(
-        cycles=m.cycles, half_cycles=getattr(m, "half_cycles", None), speed=state.speed,
-        fla_a=None if plate is None else float(plate.fla_a), locked_rotor_a=locked_rotor_a(plate),
-        declared_voltage_ll_v=cap.nominal_voltage_v or (None if plate is None else float(plate.rated_voltage_v)),
-        capture=cap, params=dparams,
-        current_channels={c: ch.label for c, ch in cap.phase_channels("current").items()},
-    )
     only = None if params["detectors"] is None else tuple(params["detectors"])
-    state.events = run_detectors(inp, only=only)
-    state.notes.extend(f"detect: {n}" for n in dict.fromkeys(inp.notes))
-    state.states = motor_states(inp, state.events)
-    state.timeline = merge_periods(state.states)
-    state.parameters["detect"] = dparams.to_dict()
-    state.parameters["detectors"] = None if only is None else list(only)
+    state.events, state.states, state.timeline, notes = detect_events(
+        state.capture, state.measurements, state.speed, state.nameplate, dparams, only)
+    state.notes.extend(notes)
+    state.settings["detect"] = dparams
+    state.settings["detectors"] = only
 
 
 def _check_detect(params: dict[str, Any]) -> None:
@@ -775,23 +778,12 @@ def _thermal_overrides() -> dict[str, dict[str, Any]]:
 
 
 def _stage_thermal(state: RunState, params: dict[str, Any]) -> None:
-    from .motor.thermal import assess_thermal
-
-    plate = state.nameplate
-    cycles = state.cycles
-    if plate is None or cycles is None or not any(f"I{c}_rms" in cycles for c in "abc"):
-        return
-    from .analysis import locked_rotor_a
+    from .analysis import assess_motor_thermal
 
     tparams = _build_settings(_thermal_params_cls(), params, _STAGES["thermal"])
-    state.thermal = assess_thermal(
-        cycles, fla_a=float(plate.fla_a), service_factor=float(plate.service_factor),
-        locked_rotor_a=locked_rotor_a(plate), connection=plate.connection, params=tparams,
-    )
-    state.notes.extend(f"thermal: {n}" for n in state.thermal.summary["notes"])
-    if tparams.motor_tau_s == _thermal_params_cls()().motor_tau_s:
-        state.notes.append("thermal: motor heating time constant 600 s assumed (no maker's figure given)")
-    state.parameters["thermal"] = dataclasses.asdict(tparams)
+    state.settings["thermal"] = tparams
+    state.thermal, notes = assess_motor_thermal(state.cycles, state.nameplate, tparams)
+    state.notes.extend(notes)
 
 
 def _check_thermal(params: dict[str, Any]) -> None:

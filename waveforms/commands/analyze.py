@@ -1,9 +1,13 @@
-"""``waveforms analyze CAPTURE [--motor NAMEPLATE] --out DIR``: the tool's main job.
+"""``waveforms analyze CAPTURE [--motor NAMEPLATE] [--recipe NAME|FILE] --out DIR``: the tool's main job.
 
-Reads one capture, runs `waveforms.analysis.analyze` (measure, speed,
-detectors, thermal, verdict) and writes result.json, events.csv and
-report.html into DIR, each atomically.  Prints the verdict and the files
-written.
+Reads one capture and runs a recipe on it through `waveforms.recipe.run_recipe`
+(the default recipe, ``investigate``: measure, speed, detectors, thermal,
+report), which writes result.json, events.csv and report.html into DIR, each
+atomically.  Prints the verdict and the files written.
+
+The command-line options change the chosen recipe's parameters
+(`waveforms.recipe.Recipe.with_params`); the reading options say how the file
+is read, and fill in what the recipe's ``import`` table leaves open.
 """
 
 from __future__ import annotations
@@ -14,20 +18,48 @@ from typing import Any
 
 import click
 
-from ..analysis import SAFETY_CAUTIONS, analyze
+from ..analysis import SAFETY_CAUTIONS
 from ..errors import InvalidParameterError
-from ..io.registry import read_capture
+from ..io.registry import ReadOptions, read_capture
 from ..motor.nameplate import load_nameplate
-from ..motor.thermal import ThermalParams
-from ..report import write_report
+from ..recipe import DEFAULT_RECIPE, Recipe, RecipeError, load_recipe, run_recipe
 from .readopts import options_from, read_options
+
+
+def _set(rec: Recipe, stage: str, values: dict[str, Any], option: str) -> Recipe:
+    """``rec`` with ``values`` in ``stage``; a stage missing from the recipe or a bad value names the option."""
+    if stage not in rec.stage_names:
+        raise InvalidParameterError(f"{option}: recipe {rec.name!r} has no {stage!r} stage (stages: {list(rec.stage_names)})")
+    try:
+        return rec.with_params(stage, values)
+    except RecipeError as e:
+        raise InvalidParameterError(f"{option}: {e.problem}") from None
+
+
+def _reading(rec: Recipe, fmt: str | None, options: ReadOptions) -> tuple[str | None, ReadOptions]:
+    """The command line's reading options, with what it leaves open taken from the recipe's ``import`` table."""
+    if "import" not in rec.stage_names:
+        return fmt, options
+    p = rec.params("import")
+    if fmt is None and p["format"]:
+        fmt = p["format"]
+    fill = {k: p[k] for k in ("nominal_frequency_hz", "nominal_voltage_v") if getattr(options, k) is None and p[k] is not None}
+    if options.wiring is None and p["wiring"]:
+        fill["wiring"] = p["wiring"]
+    if "nominal_frequency_hz" in fill:
+        fill["nominal_frequency_hz"] = float(fill["nominal_frequency_hz"])
+    return fmt, dataclasses.replace(options, **fill) if fill else options
 
 
 @click.command("analyze")
 @click.argument("capture", type=click.Path(dir_okay=False))
 @click.option("--motor", "motor", type=click.Path(dir_okay=False), help="Motor nameplate TOML file (default: the one stored in the capture, if any).")
 @click.option("--out", "out_dir", required=True, type=click.Path(file_okay=False), help="Folder for result.json, events.csv and report.html.")
+@click.option("--recipe", "recipe_name", default=DEFAULT_RECIPE, show_default=True, metavar="NAME|FILE",
+              help="Recipe to run: a shipped name (see `waveforms recipes`) or a recipe TOML file. It needs the detect and report stages.")
 @click.option("--no-html", is_flag=True, help="Write result.json and events.csv only.")
+@click.option("--cycles", "cycles", type=click.Choice(["parquet", "csv", "none"]), default="none", show_default=True,
+              help="Also write the per-cycle table as cycles.parquet or cycles.csv.")
 @click.option("--no-speed", is_flag=True, help="Skip the speed track (faster).")
 @click.option("--speed-window", "speed_window_s", type=float, help="Speed-track window [s] (default: about a sixth of the capture, 0.5-10 s).")
 @click.option("--motor-tau", "motor_tau_s", type=float, help="Motor heating time constant [s] (default 600, an assumption).")
@@ -35,8 +67,9 @@ from .readopts import options_from, read_options
 @click.option("--relay-setting", "relay_setting_a", type=float, help="Overload relay current setting [A] (default: nameplate FLA).")
 @click.option("--hot-start", is_flag=True, help="Start the thermal models from rated-current steady state instead of cold.")
 @read_options
-def command(capture: str, motor: str | None, out_dir: str, no_html: bool, no_speed: bool, speed_window_s: float | None,
-            motor_tau_s: float | None, k_neg: float | None, relay_setting_a: float | None, hot_start: bool, **kw: Any) -> None:
+def command(capture: str, motor: str | None, out_dir: str, recipe_name: str, no_html: bool, cycles: str, no_speed: bool,
+            speed_window_s: float | None, motor_tau_s: float | None, k_neg: float | None, relay_setting_a: float | None,
+            hot_start: bool, **kw: Any) -> None:
     """Find open phase, stall, starts, dips and unbalance in CAPTURE; judge thermal stress; write a report.
 
     The report informs; it does not replace protective devices. Work on
@@ -46,22 +79,30 @@ def command(capture: str, motor: str | None, out_dir: str, no_html: bool, no_spe
     out = Path(out_dir)
     if out.exists() and not out.is_dir():
         raise InvalidParameterError(f"--out {out}: is a file, not a folder")
+    rec = load_recipe(recipe_name)
+    missing = [s for s in ("detect", "report") if s not in rec.stage_names]
+    if missing:
+        raise InvalidParameterError(f"--recipe {recipe_name}: recipe {rec.name!r} has no {' and no '.join(missing)} stage; "
+                                    f"analyze needs both (stages: {list(rec.stage_names)})")
+    for value, opt in ((motor_tau_s, "--motor-tau"), (relay_setting_a, "--relay-setting"), (k_neg, "--k-neg")):
+        if value is not None and not value >= (0 if opt == "--k-neg" else 1e-9):
+            raise InvalidParameterError(f"{opt} {value!r} must be {'non-negative' if opt == '--k-neg' else 'positive'}")
+    rec = _set(rec, "report", {"cycles": cycles, **({"html": False} if no_html else {})}, "--no-html" if no_html else "--cycles")
+    if no_speed and "speed" in rec.stage_names:
+        rec = _set(rec, "speed", {"enabled": False}, "--no-speed")
+    if speed_window_s is not None:
+        rec = _set(rec, "speed", {"window_s": speed_window_s}, "--speed-window")
+    for value, key, opt in ((motor_tau_s, "motor_tau_s", "--motor-tau"), (k_neg, "k_neg", "--k-neg"),
+                            (relay_setting_a, "relay_setting_a", "--relay-setting"), (True if hot_start else None, "hot_start", "--hot-start")):
+        if value is not None:
+            rec = _set(rec, "thermal", {key: value}, opt)
+    fmt, options = _reading(rec, fmt, options)
     cap = read_capture(capture, fmt, options)
     plate = load_nameplate(motor) if motor else None
-    tp = ThermalParams()
-    changes = {k: v for k, v in {"motor_tau_s": motor_tau_s, "k_neg": k_neg, "relay_setting_a": relay_setting_a}.items() if v is not None}
-    if hot_start:
-        changes["hot_start"] = True
-    for key, opt in (("motor_tau_s", "--motor-tau"), ("relay_setting_a", "--relay-setting"), ("k_neg", "--k-neg")):
-        if key in changes and not changes[key] >= (0 if key == "k_neg" else 1e-9):
-            raise InvalidParameterError(f"{opt} {changes[key]!r} must be {'non-negative' if key == 'k_neg' else 'positive'}")
-    tp = dataclasses.replace(tp, **changes)
-    speed_opts = {"window_s": speed_window_s} if speed_window_s is not None else None
-    res = analyze(cap, plate, thermal_params=tp if changes else None, speed=not no_speed, speed_options=speed_opts)
-    written = write_report(res, out, html=not no_html)
-    click.echo(res.verdict)
+    state = run_recipe(rec, cap, nameplate=plate, out_dir=out, nameplate_source=motor or "")
+    click.echo(state.verdict)
     click.echo("")
-    for name, p in written.items():
+    for p in state.outputs.values():
         click.echo(f"wrote {p}")
     click.echo("")
     click.echo(SAFETY_CAUTIONS[-1])
