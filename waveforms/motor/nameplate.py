@@ -110,8 +110,15 @@ class Nameplate:
     def locked_rotor_current_range_a(self) -> tuple[float, float] | None:
         """Locked-rotor current [A] given on the plate, or the range its NEMA code letter implies.
 
-        I_LR = kVA/hp x hp x 1000 / (sqrt(3) V_LL)  (NEMA MG-1 10.37.2).
+        Returns ``(low, high)`` [A]; both equal the plate's figure when one is given.
+
+        References
+        ----------
+        .. [1] NEMA MG 1, Motors and Generators, Part 10, 10.37.2 "Locked-rotor
+           kVA": code letters by locked-rotor kVA per horsepower, with
+           I_LR = (kVA/hp) x hp x 1000 / (sqrt(3) V_LL).
         """
+        # [1] 10.37.2: kVA = sqrt(3) V_LL I_LR / 1000
         if self.locked_rotor_current_a is not None:
             return (self.locked_rotor_current_a, self.locked_rotor_current_a)
         if self.nema_code_letter is None:
@@ -135,8 +142,14 @@ def poles_from_rated_speed(rated_speed_rpm: float, frequency_hz: float) -> int:
     """Smallest even pole count whose synchronous speed exceeds the rated speed.
 
     An induction motor runs a few percent below synchronous speed, so the
-    synchronous speed just above the rated speed gives the poles (common
-    practice, no source).
+    synchronous speed n_s = 120 f / poles just above the rated speed gives the
+    poles (slip under 20 % accepted).
+
+    References
+    ----------
+    .. [1] Fitzgerald, Kingsley & Umans, Electric Machinery, chapter on
+       polyphase induction machines: n_s = 120 f_e / poles (equation number
+       from memory).
     """
     if rated_speed_rpm <= 0:
         raise InvalidParameterError(f"{rated_speed_rpm=} must be positive")
