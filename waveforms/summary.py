@@ -240,14 +240,26 @@ _SHOWN = ["file", "site", "verdict", "start", "duration_s", "max_current_x_fla",
           "thermal_capacity_used_pct"] + _EVENT_COLS + ["nameplate", "error"]
 
 _CSS = """
-body{font-family:sans-serif;margin:1.5em;color:#222}
-table{border-collapse:collapse;font-size:13px}
-th,td{border:1px solid #bbb;padding:3px 6px;text-align:left;vertical-align:top}
-th{background:#eee;cursor:pointer;position:sticky;top:0}
+body{font-family:"DejaVu Sans",Verdana,sans-serif;margin:1.5em;color:#1b1b1b;background:#f4f4ef}
+h1{font-size:22px;color:#12344d;border-bottom:3px solid #0072b2;padding-bottom:6px}
+table{border-collapse:collapse;font-size:13px;background:#fff}
+th,td{border:1px solid #c9c9c9;padding:3px 6px;text-align:left;vertical-align:top}
+th{background:#e8eef2;cursor:pointer;position:sticky;top:0;font-weight:600}
+th small{display:block;font-weight:400;color:#555}
 td.n{text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap}
+td.t{white-space:nowrap}
+tr[data-verdict*="open phase"] td.v,tr[data-verdict*="stall"] td.v{background:#fbe3cf;font-weight:600}
+tr[data-verdict="dip"] td.v,tr[data-verdict*="interruption"] td.v,tr[data-verdict*="unbalance"] td.v{background:#fdf3d0}
 tr.error td{background:#fbeaea}
+tbody tr:hover td{outline:1px solid #0072b2}
 .caution{font-size:12px;color:#555;max-width:60em}
 """
+
+#: Column headings shown above the machine names (the names stay as in summary.csv).
+_LABELS = {
+    "duration_s": "duration [s]", "max_current_x_fla": "max current / FLA", "worst_i2_i1_pct": "worst I2/I1 [%]",
+    "thermal_capacity_used_pct": "thermal capacity used [%]", "start": "start (local)",
+}
 
 # Our own few lines: sort on a header click (numbers numerically, blanks last), filter by verdict and text.
 # The page address may carry a view: index.html#sort=-max_current_x_fla&verdict=open%20phase
@@ -293,7 +305,13 @@ def index_html(frame: pd.DataFrame, title: str = "Capture summary") -> str:
     esc = html.escape
     verdicts = sorted({str(v) for v in frame["verdict"]})
     opts = "".join(f'<option value="{esc(v)}">{esc(v or "(none)")}</option>' for v in verdicts)
-    head = "".join(f'<th data-col="{i}" data-name="{esc(c)}" title="click to sort">{esc(c)}</th>' for i, c in enumerate(_SHOWN))
+    def heading(c: str) -> str:
+        label = _LABELS.get(c, c.replace("_", " "))
+        return esc(label) + (f"<small>{esc(c)}</small>" if label != c else "")
+
+    head = "".join(
+        f'<th data-col="{i}" data-name="{esc(c)}" title="click to sort">{heading(c)}</th>' for i, c in enumerate(_SHOWN)
+    )
     body = []
     for rec in frame.to_dict("records"):
         cells = []
@@ -306,7 +324,8 @@ def index_html(frame: pd.DataFrame, title: str = "Capture summary") -> str:
             if c == "file" and rec.get("report"):
                 href = urllib.parse.quote(str(rec["report"]), safe="/")
                 inner = f'<a href="{esc(href, quote=True)}">{inner}</a>'
-            cells.append(f'<td{" class=n" if num else ""} data-v="{esc(sort_v, quote=True)}">{inner}</td>')
+            css = "n" if num else {"verdict": "v", "start": "t"}.get(c, "")
+            cells.append(f'<td{f" class={css}" if css else ""} data-v="{esc(sort_v, quote=True)}">{inner}</td>')
         cls = ' class="error"' if rec.get("status") == "error" else ""
         body.append(f'<tr{cls} data-verdict="{esc(str(rec.get("verdict", "")), quote=True)}">{"".join(cells)}</tr>')
     n_err = int((frame["status"] == "error").sum()) if len(frame) else 0
