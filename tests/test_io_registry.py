@@ -8,9 +8,11 @@ from waveforms.io.registry import detect_format, importers
 
 from _io_support import DATA
 
-FIXTURES = sorted(p for p in DATA.iterdir() if p.suffix in (".csv", ".tsv", ".h5", ".toml", ".py"))
+FIXTURES = sorted(p for p in DATA.iterdir() if p.suffix in (".csv", ".tsv", ".h5", ".toml", ".py", ".cfg", ".dat", ".cff"))
 EXPECTED = {"csv_comma_seconds.csv": "csv", "csv_semicolon_decimal_comma.csv": "csv", "csv_tab_iso8601.tsv": "csv",
-            "csv_no_time.csv": "csv", "hdf5_generic.h5": "hdf5-mapped", "native.h5": "hdf5-native"}
+            "csv_no_time.csv": "csv", "hdf5_generic.h5": "hdf5-mapped", "native.h5": "hdf5-native",
+            "comtrade_ascii.cfg": "comtrade", "comtrade_ascii.dat": "comtrade",
+            "comtrade_binary.cfg": "comtrade", "comtrade_binary.dat": "comtrade"}
 
 
 def test_fixtures_present():

@@ -7,3 +7,4 @@ To add a format: write ``waveforms/io/<format>.py`` that calls
 from . import hdf5_native  # noqa: F401
 from . import hdf5_mapped  # noqa: F401
 from . import delimited  # noqa: F401
+from . import comtrade  # noqa: F401
