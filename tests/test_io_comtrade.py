@@ -16,6 +16,7 @@ memory) or are the invented fixtures under ``tests/data/``.
 from __future__ import annotations
 
 import datetime as _dt
+import json
 import math
 from pathlib import Path
 
@@ -24,13 +25,14 @@ import pytest
 
 comtrade = pytest.importorskip("comtrade")
 
-from waveforms import ReadOptions, read_capture  # noqa: E402
-from waveforms.errors import CaptureReadError, MappingError  # noqa: E402
-from waveforms.io.comtrade import sniff_comtrade  # noqa: E402
-from waveforms.io.registry import detect_format  # noqa: E402
+from _comtrade_support import Analog, capture_to_comtrade, write_comtrade
+from _io_support import DATA, assert_clean_failure, run_cli, wave
 
-from _comtrade_support import Analog, capture_to_comtrade, write_comtrade  # noqa: E402
-from _io_support import DATA, assert_clean_failure, run_cli, wave  # noqa: E402
+from waveforms import ReadOptions, read_capture
+from waveforms.errors import CaptureReadError, MappingError
+from waveforms.io.comtrade import sniff_comtrade
+from waveforms.io.registry import detect_format
+from waveforms.report import validate
 
 SAMPLES = Path(__file__).resolve().parent.parent / "sample_captures"
 RATE = 1000.0
@@ -74,20 +76,20 @@ def test_fixture_scaling_by_hand():
     assert s[3] == pytest.approx(-323 * 0.0001 * 400 / 5)  # Ia: secondary A x 400/5 to primary (PS = S)
     assert cap.channel("Ia").scale == pytest.approx(80.0)
     assert cap.channel("Va").scale == pytest.approx(1000.0)  # kV -> V
-    assert any("PS = S" in n and "400/5" in n for n in cap.provenance.notes)
-    assert any("Va: primary values" in n for n in cap.provenance.notes)
+    assert "Ia: a*x+b in A, secondary values (PS = S) scaled to primary by 400/5 = 80" in cap.provenance.notes
+    assert "Va: a*x+b in kV (x 1000 to V), primary values (PS = P)" in cap.provenance.notes
 
 
 def test_fixture_time_base():
     a = read_capture(DATA / "comtrade_ascii.cfg")
     # 1999 has no time code: the start is naive, taken as UTC with a note
-    assert a.start_time == _dt.datetime(2024, 3, 1, 10, 15, 30, 250000, tzinfo=_dt.timezone.utc)
+    assert a.start_time == _dt.datetime(2024, 3, 1, 10, 15, 30, 250000, tzinfo=_dt.UTC)
     assert any("taken as UTC" in n for n in a.provenance.notes)
     assert any("trigger at t = 0.100000 s" in n for n in a.provenance.notes)
     b = read_capture(DATA / "comtrade_binary.cfg")
     # 2013 time code '+1': stamps are UTC+1 (IEEE C37.111-2013 time_code, from memory)
     assert b.start_time.utcoffset() == _dt.timedelta(hours=1)
-    assert b.start_time.astimezone(_dt.timezone.utc) == _dt.datetime(2024, 3, 1, 9, 15, 30, 250000, tzinfo=_dt.timezone.utc)
+    assert b.start_time.astimezone(_dt.UTC) == _dt.datetime(2024, 3, 1, 9, 15, 30, 250000, tzinfo=_dt.UTC)
     given = _dt.datetime(2024, 3, 1, 10, 0, tzinfo=_dt.timezone(_dt.timedelta(hours=-4)))
     c = read_capture(DATA / "comtrade_ascii.cfg", options=ReadOptions(start_time=given))
     assert c.start_time == given
@@ -164,6 +166,8 @@ def test_ascii_blank_is_missing(tmp_path):
     cfg = write_comtrade(tmp_path, "blank", analogs, vals, rate, file_type="ASCII", rev="1991")
     cap = read_capture(cfg)
     assert np.isnan(cap.read()[2, 10]) and [(g.start_index, g.stop_index) for g in cap.gaps] == [(10, 11)]
+    # 1991 dates are mm/dd/yyyy: '01/03/2024' is 3 January (IEEE C37.111-1991, from memory; the package agrees)
+    assert cap.start_time.replace(tzinfo=None) == _oracle(cfg).start_timestamp == _dt.datetime(2024, 1, 3, 10, 15, 30, 250000)
 
 
 def test_cff_equals_cfg_dat(tmp_path):
@@ -206,6 +210,17 @@ def test_mapping_names_a_channel(tmp_path):
     cap = read_capture(cfg, options=ReadOptions(mapping={"channels": {"Vb": {"column": "Kanal 3", "ratio": "11000:110"}}}))
     assert cap.channel_names == ("Va", "Vb")
     assert cap.read()[1, 5] == pytest.approx(raw[1, 5] * 0.1 * 100)  # a*x, then the mapping's ratio 100
+    # a key alone (as --ratio Va=2 builds it) applies to the channel recognised as Va
+    cap = read_capture(cfg, options=ReadOptions(mapping={"channels": {"Va": {"ratio": 2}, "Vb": {"column": "Kanal 3"}}}))
+    assert cap.read()[0, 5] == pytest.approx(raw[0, 5] * 0.1 * 2)
+
+
+def test_mapping_ratio_replaces_secondary_ratio(tmp_path):
+    analogs, raw, rate = _three_phase(n=50)
+    cfg = write_comtrade(tmp_path, "ratio", analogs, raw, rate)
+    cap = read_capture(cfg, options=ReadOptions(mapping={"channels": {"Ia": {"ratio": "300:1"}}}))
+    assert cap.read()[3, 7] == pytest.approx(raw[3, 7] * 0.5e-3 * 300)  # mA -> A, x 300 instead of the cfg's 200/1
+    assert cap.read()[4, 7] == pytest.approx(raw[4, 7] * 0.5e-3 * 200)  # Ib keeps the cfg's ratio
 
 
 # -- time stamps -------------------------------------------------------------------------------
@@ -216,6 +231,18 @@ def test_stamps_checked_against_the_rate(tmp_path):
     cap = read_capture(write_comtrade(tmp_path, "st", analogs, raw, rate, file_type="BINARY32", stamps_us=stamps))
     assert cap.n_samples == 100 and cap.sample_rate_hz == rate  # the cfg rate wins, samples not moved
     assert any("skip 1 stretch" in n for n in cap.provenance.notes)
+
+
+def test_sample_numbers_checked(tmp_path):
+    analogs, raw, rate = _three_phase(n=30)
+    cfg = write_comtrade(tmp_path, "sn", analogs, np.clip(raw, -32767, 32767), rate, file_type="BINARY")
+    dat = tmp_path / "sn.dat"
+    rec = np.frombuffer(dat.read_bytes(), dtype=np.dtype([("n", "<u4"), ("rest", "V16")])).copy()
+    rec["n"][10:] += 5  # sample numbers jump from 10 to 16 (IEEE C37.111: consecutive numbers, from memory)
+    dat.write_bytes(rec.tobytes())
+    cap = read_capture(cfg)
+    assert cap.n_samples == 30
+    assert any("not consecutive (1 place(s), first at record 11: 10 then 16)" in n for n in cap.provenance.notes)
 
 
 def test_no_rate_uses_the_stamps(tmp_path):
@@ -369,3 +396,10 @@ def test_open_phase_through_comtrade(tmp_path):
     res = run_cli("inspect", cfg)
     assert res.exit_code == 0, res.output
     assert "comtrade" in res.stdout and "Ia" in res.stdout
+    out = tmp_path / "out"
+    res = run_cli("analyze", tmp_path / "open_phase_restored.dat", "--out", out, "--no-speed")
+    assert res.exit_code == 0, res.output
+    doc = json.loads((out / "result.json").read_text())
+    validate(doc)
+    assert [(e["kind"], e["phase"]) for e in doc["events"]] == [("open_phase", "A")]
+    assert doc["capture"]["importer"] == "comtrade"

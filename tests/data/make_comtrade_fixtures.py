@@ -14,7 +14,7 @@ import numpy as np
 HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE.parent))
 
-from _comtrade_support import Analog, write_comtrade  # noqa: E402
+from _comtrade_support import Analog, write_comtrade
 
 RATE_HZ = 1000.0
 N = 100

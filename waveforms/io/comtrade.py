@@ -47,11 +47,19 @@ import numpy as np
 import pandas as pd
 
 from .. import timebase
-from ..capture import ArraySource, BASE_UNIT, Capture, Gap, Provenance
+from ..capture import BASE_UNIT, ArraySource, Capture, Gap, Provenance
 from ..errors import CaptureReadError, InvalidParameterError
 from ..hashing import sha256_file
 from .delimited import _system_values, parse_start_time
-from .mapping import Mapping, _UNIT_RE, mapping_record, parse_mapping, parse_ratio, recognise, resolve_channels, unit_factor
+from .mapping import (
+    _UNIT_RE,
+    Mapping,
+    mapping_record,
+    parse_mapping,
+    recognise,
+    resolve_channels,
+    unit_factor,
+)
 from .registry import Importer, ReadOptions, register
 
 FILE_TYPES = ("ASCII", "BINARY", "BINARY32", "FLOAT32")
@@ -226,7 +234,7 @@ def parse_cfg(text: str, path: Path, first_line: int = 1) -> Config:
             raise CaptureReadError(path, f"line {ln}", f"analog channel line has {len(f)} fields, expected {need} ({','.join(names[:need])}){hint}")
         f = f + [""] * (13 - len(f))
 
-        def fld(i: int, default: float | None = None) -> float:
+        def fld(i: int, default: float | None = None, f: list[str] = f, ln: int = ln) -> float:
             return _num(f[i], path, f"line {ln}, field {i + 1} ({names[i]})", default)
 
         idx = _int(f[0], path, f"line {ln}, field 1 (An)")
@@ -563,6 +571,8 @@ def _channel_plan(cfg: Config, mapping: Mapping, path: Path) -> tuple[list[Any],
     for s in specs:
         c = by_header[s.source_label]
         entry = next((e for e in m2.channels.values() if (e.get("column") or e.get("dataset")) == s.source_label), None)
+        if entry is None:
+            entry = m2.channels.get(s.name)  # a key alone (--ratio Ia=400:5) applies to the channel recognised as it
         if entry is not None and "unit" in entry:
             factor, unit = s.prefix_factor, s.unit
         elif c.unit.strip():
@@ -572,20 +582,21 @@ def _channel_plan(cfg: Config, mapping: Mapping, path: Path) -> tuple[list[Any],
             factor, unit = 1.0, BASE_UNIT[s.kind]
             notes.append(f"analog channel {c.index} {c.ch_id!r}: no unit on line {c.line}, taken as {unit}")
         ratio = s.ratio
+        how = f"{s.name}: a*x+b in {unit}" + (f" (x {factor:g} to {BASE_UNIT[s.kind]})" if factor != 1.0 else "")
         if c.ps == "S":
             if entry is not None and "ratio" in entry:
-                notes.append(f"{s.name}: given as secondary values; the mapping's ratio {ratio:g} is used instead of the cfg's {c.primary:g}/{c.secondary:g}")
+                how += f", secondary values (PS = S) scaled by the mapping's ratio {ratio:g} instead of the cfg's {c.primary:g}/{c.secondary:g}"
             else:
                 if not (np.isfinite(c.primary) and np.isfinite(c.secondary) and c.primary > 0 and c.secondary > 0):
                     raise CaptureReadError(path, f"line {c.line}, fields 11-12 (primary, secondary)",
                                            f"channel {c.ch_id!r} is secondary (PS = S) but the ratio {c.primary:g}/{c.secondary:g} cannot scale it to primary; give --ratio {s.name}=RATIO")
                 ratio *= c.primary / c.secondary
-                notes.append(f"{s.name}: secondary values (PS = S) scaled to primary by {c.primary:g}/{c.secondary:g} = {c.primary / c.secondary:g}")
+                how += f", secondary values (PS = S) scaled to primary by {c.primary:g}/{c.secondary:g} = {c.primary / c.secondary:g}"
         else:
-            notes.append(f"{s.name}: primary values (PS = P), a*x+b taken as they are")
+            how += ", primary values (PS = P)" + (f", x the mapping's ratio {ratio:g}" if ratio != 1.0 else "")
         if c.skew_us:
-            notes.append(f"{s.name}: skew {c.skew_us:g} us on line {c.line} not corrected")
-        notes.append(f"{s.name}: a*x+b in {unit}" + (f", x {factor:g} to {BASE_UNIT[s.kind]}" if factor != 1.0 else ""))
+            how += f"; skew {c.skew_us:g} us (line {c.line}) not corrected"
+        notes.append(how)
         out.append(dataclasses.replace(s, unit=unit, prefix_factor=factor, ratio=ratio, guessed=s.guessed or c.header in guessed))
         used.append(c)
     return out, used, notes, m2
@@ -632,6 +643,12 @@ def read_comtrade(path: Path, options: ReadOptions | None = None) -> Capture:
         notes.append(f"the .dat holds {n} records, fewer than the {endsamp} declared on cfg line {cfg.rates[-1][2]}; the capture ends there")
     if n < 2:
         raise CaptureReadError(parts.dat_path, "", f"{n} data record(s); at least two are needed")
+    if not np.isnan(nums).any():
+        jumps = np.flatnonzero(np.diff(nums) != 1)
+        if jumps.size:
+            j = int(jumps[0])
+            notes.append(f"sample numbers in the .dat are not consecutive ({jumps.size} place(s), first at record {j + 2}: "
+                         f"{nums[j]:.0f} then {nums[j + 1]:.0f}); records are taken in file order")
     a = np.array([c.a for c in used_defs])[:, None]
     b = np.array([c.b for c in used_defs])[:, None]
     scales = np.array([s.scale for s in specs])[:, None]
@@ -707,7 +724,7 @@ def read_comtrade(path: Path, options: ReadOptions | None = None) -> Capture:
         start = cfg.start.replace(tzinfo=cfg.utc_offset)
         notes.append(f"start time from cfg line {cfg.start_line}, UTC offset from the time code on line {cfg.time_code_line}")
     else:
-        start = cfg.start.replace(tzinfo=_dt.timezone.utc)
+        start = cfg.start.replace(tzinfo=_dt.UTC)
         notes.append(f"the cfg start time (line {cfg.start_line}) has no UTC offset (no 2013 time code); taken as UTC: give --start to set it")
     trig_s = (cfg.trigger - cfg.start).total_seconds()
     notes.append(f"trigger at t = {trig_s:.6f} s")
@@ -774,7 +791,7 @@ def sniff_comtrade(path: Path) -> bool:
             with open(path, "rb") as fh:
                 return _looks_like_cfg(fh.read(4096))
         return False
-    except Exception:
+    except Exception:  # noqa: BLE001 - a sniffer never raises
         return False
 
 
