@@ -26,6 +26,7 @@ EXPECTED = {
     "unbalanced_supply": {"unbalance"},
     "jam": {"stall"},
     "open_phase_restored": {"open_phase"},
+    "open_phase_50hz": {"open_phase"},
 }
 
 
