@@ -7,7 +7,6 @@ import pytest
 
 from _measure_support import capture_of, three_phase
 from waveforms.measure import measure
-from waveforms.measure.sequence import sequence_components
 
 FS = 10_000.0
 
@@ -69,16 +68,19 @@ def test_line_to_line_voltages_give_the_same_total_power():
 
 
 def test_positive_sequence_power_under_unbalance():
-    # IEEE 1459-2010: P1+ = 3 Re(V1+ I1+*); with unbalanced phasors it differs from P. Reference: the
-    # sequence components of the known test phasors (Fortescue 1918).
+    # IEEE 1459-2010: S1+ = 3 V1+ I1+*, P1+ = Re, Q1+ = Im; with unbalanced phasors P1+ differs from P.
+    # Reference: the positive-sequence components of the known test phasors from the Fortescue matrix
+    # written out here, A = 1/3 [[1,1,1],[1,a,a^2],[1,a^2,a]], a = 1/120 deg (Fortescue, AIEE 1918).
     t = np.arange(int(FS * 0.5)) / FS
     mags_v, angs_v = np.array([240.0, 225.0, 230.0]), np.radians([0.0, -118.0, 121.0])
     mags_i, angs_i = np.array([11.0, 8.0, 10.0]), np.radians([-25.0, -150.0, 95.0])
     v = {c: np.sqrt(2) * m * np.cos(2 * np.pi * 50 * t + a) for c, m, a in zip("ABC", mags_v, angs_v, strict=True)}
     i = {c: np.sqrt(2) * m * np.cos(2 * np.pi * 50 * t + a) for c, m, a in zip("ABC", mags_i, angs_i, strict=True)}
     cyc = interior(measure(capture_of(v, i, FS)).cycles)
-    _, v1, _ = sequence_components(*(mags_v * np.exp(1j * angs_v)))
-    _, i1, _ = sequence_components(*(mags_i * np.exp(1j * angs_i)))
+    a = np.exp(1j * np.radians(120.0))
+    fortescue = np.array([[1, 1, 1], [1, a, a * a], [1, a * a, a]]) / 3.0
+    v1 = (fortescue @ (mags_v * np.exp(1j * angs_v)))[1]
+    i1 = (fortescue @ (mags_i * np.exp(1j * angs_i)))[1]
     s1 = 3 * v1 * np.conj(i1)
     np.testing.assert_allclose(cyc["P1_w"], s1.real, rtol=1e-7)
     np.testing.assert_allclose(cyc["Q1_var"], s1.imag, rtol=1e-7)
