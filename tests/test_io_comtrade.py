@@ -23,8 +23,6 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-comtrade = pytest.importorskip("comtrade")
-
 from _comtrade_support import Analog, capture_to_comtrade, write_comtrade
 from _io_support import DATA, assert_clean_failure, run_cli, wave
 
@@ -41,7 +39,11 @@ CT = 400.0 / 5.0
 
 
 def _oracle(path: Path):
-    """The comtrade package's reading (a * x + b, in the cfg's unit, secondary left as secondary)."""
+    """The comtrade package's reading (a * x + b, in the cfg's unit, secondary left as secondary).
+
+    Only the tests that compare with it need the package (in the ``test`` extra); the others run without it.
+    """
+    comtrade = pytest.importorskip("comtrade")
     rec = comtrade.Comtrade(use_numpy_arrays=True, use_double_precision=True, ignore_warnings=True)
     rec.load(str(path))
     return rec
