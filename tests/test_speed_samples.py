@@ -46,10 +46,18 @@ def test_sample_capture_against_truth(path):
     steady = (st[:, 2] - st[:, 1]) < 0.002
     stalled = st[:, 1] > 0.9
     err = np.abs(tr.slip.to_numpy() - st[:, 0])
+    # the rotor runs (truth slip below 0.3) somewhere in the capture, or it is stalled throughout
+    runs = bool(np.any(np.asarray(truth["speed_track"]["slip"]) < 0.3))
+    running = steady & (st[:, 2] < 0.3) & (tr.status != "no_current").to_numpy()
+    if runs:
+        # the checks below must see at least one window, or they pass on nothing
+        assert (est & steady).any()
+        assert running.any()
+    else:
+        assert stalled.all()
     assert np.all(err[est & steady] <= 2e-3)  # issue target for 2 s windows
     assert not np.any(est & stalled)          # zero false estimates on a stalled rotor
     # every steady running window (truth slip below 0.3 throughout) is estimated
-    running = steady & (st[:, 2] < 0.3) & (tr.status != "no_current").to_numpy()
     assert np.all(est[running])
 
 
