@@ -44,10 +44,10 @@ def test_locked_rotor_current_is_several_times_full_load(pump2_locked: tuple[flo
     plate = load_nameplate(SAMPLES / "pump2.nameplate.toml")
     i_lr, t_lr = pump2_locked
     assert 5.0 <= i_lr / plate.fla_a <= 8.0
-    # and there is starting torque: more than the rated torque (NEMA design B minimum for a
-    # 4-pole 50 hp motor is well above 100 %; common practice, no source for the figure)
+    # and there is starting torque: NEMA MG-1 12.38.1 gives a Design B minimum locked-rotor
+    # torque of 140 % of full-load torque for a 50 hp, 4-pole, 60 Hz motor (from memory)
     rated_torque = plate.rated_power_kw * 1000 / (plate.rated_speed_rpm * 2 * math.pi / 60)
-    assert t_lr > 1.5 * rated_torque
+    assert t_lr >= 1.4 * rated_torque
 
 
 def test_nameplate_full_load_current_matches_the_model_at_rated_output() -> None:
