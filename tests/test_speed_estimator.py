@@ -238,3 +238,26 @@ def test_track_transient_follows_a_run_up():
     # within a 1 s window the slip moves by 0.125: the estimate stays within 0.01 of the centre value
     assert np.max(np.abs(tr.slip[est] - centre[est])) <= 0.01
     assert tr.slip[tr.t_end_s < 1.0].isna().all()  # first second: sidebands within the guard around f1
+
+
+def test_tones_written_from_the_worked_numbers_alone():
+    # Independent of the package's signature formulas: three line currents built from the literal
+    # worked frequencies of REFERENCES.md [calc] for 50 Hz, p = 2, s = 0.03 (1455 rpm): mixed-
+    # eccentricity sidebands at 25.75 and 74.25 Hz (Thomson & Fenger 2001, from memory), at -50 dB,
+    # plus white noise at 60 dB SNR.  The estimator must read back s = 0.03.
+    rng = np.random.default_rng(21)
+    t = np.arange(int(20.0 * FS_HZ)) / FS_HZ
+    amp = 100.0 * np.sqrt(2)
+    side = amp * 10 ** (-50 / 20)
+    rows = []
+    for k in range(3):
+        shift = -2 * np.pi * k / 3
+        x = amp * np.cos(2 * np.pi * 50.0 * t + shift)
+        x += side * np.cos(2 * np.pi * 25.75 * t + shift) + side * np.cos(2 * np.pi * 74.25 * t + shift)
+        x += rng.normal(0.0, amp / np.sqrt(2) * 10 ** (-60 / 20), t.size)
+        rows.append(x)
+    tr = track_speed(np.vstack(rows), FS_HZ, plate(), window_s=10.0, supply_hz=50.0)
+    est = _estimates(tr)
+    assert len(est) == len(tr)
+    assert np.max(np.abs(est.slip - 0.03)) <= 5e-4  # issue target for >= 10 s windows
+    assert np.max(np.abs(est.rpm - 1455.0)) <= 0.75  # 1455 rpm (REFERENCES.md [calc]); 5e-4 slip = 0.75 rpm
