@@ -155,7 +155,13 @@ class TestNoFalseAlarms:
         assert _kinds(ev) == ["unbalance"]
         u = ev[0].figures["v_unbal_nema_pct_mean"]
         assert 2.5 < u < 3.5
-        assert ev[0].figures["nema_derating_factor"] == pytest.approx(float(nema_derating_factor(u)))
+        # NEMA MG-1 derating curve, points typed from REFERENCES.md [pub] (read off the figure, sources
+        # differ: lower/upper readings), linear between the points, +/-0.02 reading tolerance; for u about
+        # 2.84 % this is about 0.87-0.90 (between 2.5 % -> 0.93 and 3 % -> 0.88-0.90)
+        px = [1.0, 2.0, 2.5, 3.0, 4.0, 5.0]
+        lo = float(np.interp(u, px, [1.00, 0.95, 0.93, 0.88, 0.82, 0.75])) - 0.02
+        hi = float(np.interp(u, px, [1.00, 0.95, 0.93, 0.90, 0.82, 0.76])) + 0.02
+        assert lo <= ev[0].figures["nema_derating_factor"] <= hi
 
     def test_load_step(self):
         ip = np.r_[np.full(200, 0.5), np.full(300, 1.1)]
