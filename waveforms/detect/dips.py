@@ -23,6 +23,7 @@ import math
 
 import numpy as np
 
+from ..errors import InvalidParameterError
 from .context import LINES, DetectionInput, runs, schmitt
 from .event import Event
 from .registry import register
@@ -32,9 +33,33 @@ _CYCLES_INSTANT = 30.0
 _MOMENTARY_S = 3.0
 _TEMPORARY_S = 60.0
 
+#: IEEE 1159 Table 2 magnitude bands [pu] [2]: interruptions below 0.1 pu; sags
+#: 0.1-0.9 pu at every duration up to 1 min; swells 1.1-1.8 pu (instantaneous),
+#: 1.1-1.4 pu (momentary), 1.1-1.2 pu (temporary); over 1 min undervoltage
+#: 0.8-0.9 pu and overvoltage 1.1-1.2 pu.  The temporary-sag, temporary-swell,
+#: sustained-interruption and overvoltage bands are recalled (from memory).
+_INTERRUPTION_PU = 0.1
+_SAG_PU = (0.1, 0.9)
+_SWELL_PU = {"instantaneous": (1.1, 1.8), "momentary": (1.1, 1.4), "temporary": (1.1, 1.2)}
+_UNDERVOLTAGE_PU = (0.8, 0.9)
+_OVERVOLTAGE_PU = (1.1, 1.2)
+
+#: Category returned when the magnitude lies in no IEEE 1159 band of the event's kind.
+OUTSIDE_IEEE1159 = "outside IEEE 1159 bands"
+
 
 def ieee1159_category(kind: str, duration_s: float | None, magnitude_pu: float, cycle_s: float) -> str:
     """IEEE 1159 Table 2 category of a dip ("sag"), swell or interruption.
+
+    The duration picks the column (instantaneous, momentary, temporary, long
+    duration) and the magnitude the row.  ``kind`` limits the rows to the
+    event's side of nominal: a dip may be a sag or undervoltage, or an
+    interruption when one channel's residual is below 0.1 pu (IEEE 1159
+    counts the voltage of each phase); an interruption must be below 0.1 pu; a
+    swell may be a swell or overvoltage.  A magnitude in no band of its kind
+    (a 0.5 pu dip longer than 1 min, a 1.5 pu momentary swell, ...) gives
+    `OUTSIDE_IEEE1159`.  Durations shorter than half a cycle are not resolved
+    by Urms(1/2) and count as instantaneous.
 
     Parameters
     ----------
@@ -50,25 +75,38 @@ def ieee1159_category(kind: str, duration_s: float | None, magnitude_pu: float, 
     ----------
     .. [1] IEEE Std 1159, Table 2: instantaneous 0.5-30 cycles, momentary
        30 cycles-3 s, temporary 3 s-1 min, long duration over 1 min;
-       interruption below 0.1 pu (momentary 0.5 cycle-3 s).
+       interruption below 0.1 pu (momentary 0.5 cycle-3 s); sag 0.1-0.9 pu;
+       swell 1.1-1.8 / 1.1-1.4 / 1.1-1.2 pu; undervoltage 0.8-0.9 pu,
+       overvoltage 1.1-1.2 pu (the last four partly from memory).
     """
+    if kind not in ("dip", "swell", "interruption"):
+        raise InvalidParameterError(f"{kind=} must be 'dip', 'swell' or 'interruption'")
     d = math.inf if duration_s is None else duration_s
-    if kind == "interruption":
-        if d <= _MOMENTARY_S:
-            return "momentary interruption"
-        return "temporary interruption" if d <= _TEMPORARY_S else "sustained interruption"
-    if d > _TEMPORARY_S:  # IEEE 1159 Table 2, long-duration variations
-        return "sustained undervoltage" if kind == "dip" else "sustained overvoltage"
+    m = float(magnitude_pu)
+    if not math.isfinite(m):
+        return OUTSIDE_IEEE1159
     if d <= _CYCLES_INSTANT * cycle_s:
         band = "instantaneous"
     elif d <= _MOMENTARY_S:
         band = "momentary"
-    else:
+    elif d <= _TEMPORARY_S:
         band = "temporary"
+    else:
+        band = "sustained"  # IEEE 1159 Table 2, long-duration variations
+    if kind in ("dip", "interruption") and m < _INTERRUPTION_PU:
+        # IEEE 1159: momentary interruption 0.5 cycle-3 s (no instantaneous interruption)
+        return "momentary interruption" if band == "instantaneous" else f"{band} interruption"
     if kind == "dip":
-        # a "sag" in IEEE 1159 is 0.1-0.9 pu; momentary and temporary sags too
-        return f"{band} sag"
-    return f"{band} swell"
+        lo, hi = _UNDERVOLTAGE_PU if band == "sustained" else _SAG_PU
+        if not lo <= m <= hi:
+            return OUTSIDE_IEEE1159
+        return "sustained undervoltage" if band == "sustained" else f"{band} sag"
+    if kind == "swell":
+        lo, hi = _OVERVOLTAGE_PU if band == "sustained" else _SWELL_PU[band]
+        if not lo <= m <= hi:
+            return OUTSIDE_IEEE1159
+        return "sustained overvoltage" if band == "sustained" else f"{band} swell"
+    return OUTSIDE_IEEE1159  # an interruption at or above 0.1 pu
 
 
 def _half_cycle_matrix(inp: DetectionInput) -> tuple[np.ndarray, np.ndarray, list[str]] | None:
