@@ -84,8 +84,10 @@ def test_random_bytes_raise_only_our_errors(tmp_path_factory, data, suffix):
     p.write_bytes(data)
     try:
         read_capture(p, options=ReadOptions(sample_rate_hz=1000.0))
-    except WaveformsError:
-        pass
+    except WaveformsError as e:
+        # docs/importing.md "Errors" / README: every problem with an input ends in one line naming the file
+        assert p.name in str(e), str(e)
+        assert "\n" not in str(e), str(e)
     assert p.read_bytes() == data
 
 
@@ -108,7 +110,10 @@ def test_mutated_csv_imports_or_raises_our_error(tmp_path_factory, cuts, fmt):
     p.write_bytes(text.encode("utf-8"))
     try:
         cap = read_capture(p, fmt, ReadOptions(nominal_frequency_hz=50.0, sample_rate_hz=None))
-    except WaveformsError:
+    except WaveformsError as e:
+        # docs/importing.md "Errors" / README: every problem with an input ends in one line naming the file
+        assert p.name in str(e), str(e)
+        assert "\n" not in str(e), str(e)
         return
     x = cap.read()
     assert x.shape == (len(cap.channels), cap.n_samples)
@@ -122,5 +127,7 @@ def test_forced_format_on_garbage(tmp_path_factory, fmt, data):
     p.write_bytes(data)
     try:
         read_capture(p, fmt, ReadOptions(sample_rate_hz=1000.0))
-    except WaveformsError:
-        pass
+    except WaveformsError as e:
+        # docs/importing.md "Errors" / README: every problem with an input ends in one line naming the file
+        assert p.name in str(e), str(e)
+        assert "\n" not in str(e), str(e)
