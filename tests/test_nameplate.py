@@ -1,6 +1,7 @@
 """Nameplate loading: code letters, pole inference, defaults said out loud, errors naming file and key."""
 
 import math
+from pathlib import Path
 
 import pytest
 
@@ -23,7 +24,24 @@ def test_code_letter_table_is_contiguous_and_ordered():
     assert len(bounds) == 19  # A-V without I, O, Q
     for (lo1, hi1), (lo2, _) in zip(bounds[:-1], bounds[1:], strict=True):
         assert hi1 == lo2 and lo1 < hi1
-    assert NEMA_CODE_LETTER_KVA_PER_HP["G"] == (5.6, 6.3)  # NEMA MG-1 10.37.2 [pub]
+
+
+# NEMA MG-1 10.37.2 code letters, locked-rotor kVA per hp, lower bound included, upper excluded, typed
+# from tests/REFERENCES.md [pub]: A below 3.15 (from 0), V from 22.4 up (no upper bound).
+NEMA_MG1_10_37_2 = [
+    ("A", 0.0, 3.15), ("B", 3.15, 3.55), ("C", 3.55, 4.0), ("D", 4.0, 4.5), ("E", 4.5, 5.0),
+    ("F", 5.0, 5.6), ("G", 5.6, 6.3), ("H", 6.3, 7.1), ("J", 7.1, 8.0), ("K", 8.0, 9.0),
+    ("L", 9.0, 10.0), ("M", 10.0, 11.2), ("N", 11.2, 12.5), ("P", 12.5, 14.0), ("R", 14.0, 16.0),
+    ("S", 16.0, 18.0), ("T", 18.0, 20.0), ("U", 20.0, 22.4), ("V", 22.4, math.inf),
+]
+
+
+def test_code_letter_table_matches_nema_mg1_10_37_2():
+    # all 19 rows of NEMA MG-1 10.37.2 (REFERENCES.md [pub]), letters in order, bounds exact
+    assert len(NEMA_MG1_10_37_2) == 19
+    assert list(NEMA_CODE_LETTER_KVA_PER_HP) == [row[0] for row in NEMA_MG1_10_37_2]
+    for letter, lo, hi in NEMA_MG1_10_37_2:
+        assert NEMA_CODE_LETTER_KVA_PER_HP[letter] == (lo, hi), letter
 
 
 def test_locked_rotor_range_from_code_letter():
@@ -91,7 +109,7 @@ def test_missing_and_non_utf8_files(tmp_path):
 
 
 def test_sample_nameplate_loads(tmp_path):
-    plate = load_nameplate("sample_captures/pump2.nameplate.toml")
+    plate = load_nameplate(Path(__file__).resolve().parent.parent / "sample_captures" / "pump2.nameplate.toml")
     assert plate.connection == "delta" and plate.poles == 4 and plate.rotor_bars == 28
     lo, hi = plate.locked_rotor_current_range_a()
     assert lo < 394 < hi  # the sample's README: 394 A = 6.28 kVA/hp, inside code G
