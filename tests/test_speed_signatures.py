@@ -54,7 +54,8 @@ def test_inversion_round_trip(slip, f1, p, bars, nu):
 
 
 def test_band_sign_and_order():
-    # for p = 2 and slips 0..0.15 the lower sideband runs 21.25..25 Hz, positive (eq. (1); algebra, no source)
+    # for p = 2 and slips 0..0.15 the lower sideband f1 (1 - (1-s)/p) runs 25..28.75 Hz, positive
+    # (eq. (1); algebra, no source)
     lo, _ = sg.eccentricity_signatures((1,))
     b0, b1, sign = sg.signature_band_hz(lo, 0.0, 0.15, 50.0, 2)
     assert (b0, b1, sign) == (pytest.approx(25.0), pytest.approx(28.75), 1)

@@ -53,6 +53,8 @@ def plot_spectrum(result: WindowResult, *, title: str | None = None, width_in: f
     with np.errstate(divide="ignore"):
         db = 10.0 * np.log10(spec.power / ref)
     used = {u[0]: u for u in result.used}
+    # not strict: with a spectrum but no search band (status no_supply_frequency returns bands={}) there is
+    # one empty panel and no family, so the lengths differ; otherwise len(axes) == len(fams)
     for ax, fam in zip(axes, fams, strict=False):
         labels = [lbl for lbl in result.bands if _family_of(lbl) == fam]
         lo = min(result.bands[lbl][0] for lbl in labels)
