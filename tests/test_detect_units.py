@@ -168,6 +168,18 @@ class TestNoFalseAlarms:
         assert ev[0].figures["residual_pct"] == pytest.approx(70.0)
         assert ev[0].figures["ieee1159_category"] == "instantaneous sag"  # IEEE 1159 Table 2, 10 cycles
 
+    def test_dip_still_present_at_capture_end(self):
+        # 80 % three-phase dip from cycle 300 to the end of a 400-cycle capture: 100 cycles seen,
+        # so a momentary sag (IEEE 1159 Table 2: 30 cycles-3 s, 0.1-0.9 pu) "or longer"; no claim
+        # of a sustained undervoltage from what was not recorded
+        vp = np.ones(400)
+        vp[300:] = 0.8
+        v, i = _balanced(400, vpu=vp, ipu=np.where(vp < 1, 1.2, 1.0))
+        ev = _run(v, i)
+        assert _kinds(ev) == ["dip"]
+        assert ev[0].end_s is None
+        assert ev[0].figures["ieee1159_category"] == "momentary sag or longer (still present at the end of the capture)"
+
     def test_one_phase_dip(self):
         v, i = _balanced(400)
         v[1, 100:120] *= 0.5

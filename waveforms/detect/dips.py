@@ -215,7 +215,14 @@ def detect_dips(inp: DetectionInput) -> list[Event]:
             if kind == "interruption":
                 interruptions.append((start, end))
             dur = None if end is None else end - start
-            cat = ieee1159_category(kind, dur, mag / 100.0, inp.cycle_s)
+            if end is None:
+                # still present at the end: the category of what was seen, and no claim beyond it
+                seen_s = float(inp.cycles["t_end_s"].iloc[-1]) - start if len(inp.cycles) else 0.0
+                cat = ieee1159_category(kind, max(seen_s, 0.0), mag / 100.0, inp.cycle_s)
+                if cat != OUTSIDE_IEEE1159:
+                    cat += " or longer (still present at the end of the capture)"
+            else:
+                cat = ieee1159_category(kind, end - start, mag / 100.0, inp.cycle_s)
             phase = None
             if len(worst) == 1 and inp.voltage_reference == "LN":
                 phase = next(c for c, lab in inp.voltage_channels.items() if lab == worst[0])
