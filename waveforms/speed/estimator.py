@@ -436,6 +436,28 @@ def _decimated(capture: Capture, names: list[str], q: int, use_sv: bool, i0: int
     return (y[0] + 1j * y[1])[None, :] if use_sv else y
 
 
+
+def _prepare(
+    currents: Any, sample_rate_hz: float | None, nameplate: Any, pole_pairs: int | None,
+    rotor_bars: int | None, settings: SpeedSettings | None, options: dict[str, Any],
+) -> tuple[SpeedSettings, Capture, MotorSpec, list[str], bool, float]:
+    """Settings, capture, motor figures and current channels shared by `track_speed` and `window_detail`."""
+    if settings is None:
+        settings = SpeedSettings(**options)
+    elif options:
+        settings = dataclasses.replace(settings, **options)
+    cap = _as_capture(currents, sample_rate_hz)
+    if nameplate is None:
+        nameplate = cap.nameplate
+    motor = MotorSpec.build(nameplate, pole_pairs, rotor_bars, cap.nominal_frequency_hz)
+    phases = cap.phase_channels("current")
+    if not phases:
+        raise InvalidParameterError(f"capture has no line current channel; channels are {list(cap.channel_names)}")
+    names = [phases[c].name for c in sorted(phases)]
+    use_sv = len(names) == 3
+    fs = cap.sample_rate_hz
+    return settings, cap, motor, names, use_sv, fs
+
 def track_speed(
     currents: Any,
     sample_rate_hz: float | None = None,
@@ -491,20 +513,9 @@ def track_speed(
     ----------
     Hurst & Habetler 1996; Thomson & Fenger 2001 (see module docstring).
     """
-    if settings is None:
-        settings = SpeedSettings(**options)
-    elif options:
-        settings = dataclasses.replace(settings, **options)
-    cap = _as_capture(currents, sample_rate_hz)
-    if nameplate is None:
-        nameplate = cap.nameplate
-    motor = MotorSpec.build(nameplate, pole_pairs, rotor_bars, cap.nominal_frequency_hz)
-    phases = cap.phase_channels("current")
-    if not phases:
-        raise InvalidParameterError(f"capture has no line current channel; channels are {list(cap.channel_names)}")
-    names = [phases[c].name for c in sorted(phases)]
-    use_sv = len(names) == 3
-    fs = cap.sample_rate_hz
+    settings, cap, motor, names, use_sv, fs = _prepare(
+        currents, sample_rate_hz, nameplate, pole_pairs, rotor_bars, settings, options
+    )
     i0 = int(round(start_s * fs))
     i1 = cap.n_samples if stop_s is None else min(cap.n_samples, int(round(stop_s * fs)))
     if not (0 <= i0 < i1):
@@ -557,20 +568,9 @@ def window_detail(
     **options: Any,
 ) -> WindowResult:
     """The full `WindowResult` (spectrum, bands, candidates) of the window starting at ``t_start_s``; for plots."""
-    if settings is None:
-        settings = SpeedSettings(**options)
-    elif options:
-        settings = dataclasses.replace(settings, **options)
-    cap = _as_capture(currents, sample_rate_hz)
-    if nameplate is None:
-        nameplate = cap.nameplate
-    motor = MotorSpec.build(nameplate, pole_pairs, rotor_bars, cap.nominal_frequency_hz)
-    phases = cap.phase_channels("current")
-    if not phases:
-        raise InvalidParameterError(f"capture has no line current channel; channels are {list(cap.channel_names)}")
-    names = [phases[c].name for c in sorted(phases)]
-    use_sv = len(names) == 3
-    fs = cap.sample_rate_hz
+    settings, cap, motor, names, use_sv, fs = _prepare(
+        currents, sample_rate_hz, nameplate, pole_pairs, rotor_bars, settings, options
+    )
     q = decimation_factor(fs, highest_frequency_hz(settings, motor))
     i0 = int(round(t_start_s / (q / fs))) * q
     n_dec = int(round(settings.window_s * fs / q))
