@@ -7,6 +7,7 @@ inside it (line, column, dataset, key) and what is wrong.  The CLI prints
 
 from __future__ import annotations
 
+import math
 from os import PathLike
 
 
@@ -46,3 +47,14 @@ class InvalidParameterError(WaveformsError, ValueError):
 
 class WriteError(WaveformsError):
     """An output could not be written (nothing partial is left behind)."""
+
+
+def positive_number(value: object, path: str | PathLike[str], where: str) -> float:
+    """``value`` as a finite positive float, or a `CaptureReadError` naming the file and the place."""
+    try:
+        x = float(value)  # type: ignore[arg-type]
+    except (TypeError, ValueError):
+        raise CaptureReadError(path, where, f"{value!r} is not a number") from None
+    if not (math.isfinite(x) and x > 0):
+        raise CaptureReadError(path, where, f"{value!r} must be a positive number")
+    return x

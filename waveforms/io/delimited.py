@@ -31,7 +31,7 @@ import pyarrow as pa
 import pyarrow.csv as pacsv
 
 from ..capture import ArraySource, Capture, Provenance
-from ..errors import CaptureReadError, MappingError
+from ..errors import CaptureReadError, MappingError, positive_number
 from ..hashing import sha256_file
 from .. import timebase
 from .mapping import (
@@ -388,16 +388,6 @@ def _refuse_split_date_time(layout: Layout, time_col: str | None, path: Path) ->
         )
 
 
-def _float_opt(value: Any, source: str, where: str) -> float:
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        raise CaptureReadError(source, where, f"{value!r} is not a number") from None
-    if not (np.isfinite(v) and v > 0):
-        raise CaptureReadError(source, where, f"{value!r} must be a positive number")
-    return v
-
-
 def read_csv(path: Path, options: ReadOptions | None = None) -> Capture:
     """Read a delimited-text capture.
 
@@ -485,7 +475,7 @@ def plan_read(path: Path, options: ReadOptions, mapping: Mapping) -> Plan:
         start = parse_start_time(meta["start_time"], str(path), "metadata start_time")
     given_rate = options.sample_rate_hz
     if given_rate is None and "sample_rate_hz" in mapping.capture:
-        given_rate = _float_opt(mapping.capture["sample_rate_hz"], src, "key capture.sample_rate_hz")
+        given_rate = positive_number(mapping.capture["sample_rate_hz"], src, "key capture.sample_rate_hz")
     return Plan(layout, mapping, meta, notes, time_col, time_format, specs, columns, types, start, given_rate, src)
 
 
@@ -508,7 +498,7 @@ def _read_csv(path: Path, options: ReadOptions, mapping: Mapping, digest: concur
     if time_col is None:
         rate = given_rate
         if rate is None and "sample_rate_hz" in meta:
-            rate = _float_opt(meta["sample_rate_hz"], str(path), "metadata sample_rate_hz")
+            rate = positive_number(meta["sample_rate_hz"], str(path), "metadata sample_rate_hz")
         if rate is None:
             raise CaptureReadError(path, f"line {layout.header_index + 1}", "no time column and no sample rate; give --rate HZ (or [capture] sample_rate_hz)")
         notes.append(f"no time column; samples taken as uniform at {rate:g} Hz")
@@ -594,9 +584,9 @@ def _system_values(options: ReadOptions, mapping: Mapping, meta: dict[str, str],
     """Nominal frequency, nominal voltage and wiring: given, from metadata, or inferred (with a note)."""
     fnom = options.nominal_frequency_hz
     if fnom is None and "nominal_frequency_hz" in mapping.capture:
-        fnom = _float_opt(mapping.capture["nominal_frequency_hz"], src, "key capture.nominal_frequency_hz")
+        fnom = positive_number(mapping.capture["nominal_frequency_hz"], src, "key capture.nominal_frequency_hz")
     if fnom is None and meta.get("nominal_frequency_hz", "") not in ("", "none", "None", "nan"):
-        fnom = _float_opt(meta["nominal_frequency_hz"], str(path), "metadata nominal_frequency_hz")
+        fnom = positive_number(meta["nominal_frequency_hz"], str(path), "metadata nominal_frequency_hz")
     if fnom is not None and fnom not in (50.0, 60.0):
         raise CaptureReadError(src, "nominal frequency", f"{fnom:g} Hz must be 50 or 60")
     if fnom is None:
@@ -604,9 +594,9 @@ def _system_values(options: ReadOptions, mapping: Mapping, meta: dict[str, str],
         notes.append(note)
     vnom = options.nominal_voltage_v
     if vnom is None and "nominal_voltage_v" in mapping.capture:
-        vnom = _float_opt(mapping.capture["nominal_voltage_v"], src, "key capture.nominal_voltage_v")
+        vnom = positive_number(mapping.capture["nominal_voltage_v"], src, "key capture.nominal_voltage_v")
     if vnom is None and meta.get("nominal_voltage_v", "") not in ("", "none", "None", "nan"):
-        vnom = _float_opt(meta["nominal_voltage_v"], str(path), "metadata nominal_voltage_v")
+        vnom = positive_number(meta["nominal_voltage_v"], str(path), "metadata nominal_voltage_v")
     wiring = options.wiring or mapping.capture.get("wiring") or meta.get("wiring")
     if wiring is None:
         has_neutral = any(s.reference in ("LN", "neutral") for s in specs)

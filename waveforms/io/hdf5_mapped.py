@@ -22,7 +22,6 @@ Samples stay on disk (`HDF5Source`, scales applied on read).
 from __future__ import annotations
 
 import datetime as _dt
-import math
 from pathlib import Path
 from typing import Any
 
@@ -30,7 +29,7 @@ import h5py
 import numpy as np
 
 from ..capture import Capture, Provenance
-from ..errors import CaptureReadError, MappingError
+from ..errors import CaptureReadError, MappingError, positive_number
 from ..hashing import sha256_file
 from .delimited import EPOCH, infer_nominal_frequency_of, parse_start_time
 from .hdf5_native import HDF5Source, sniff_native
@@ -133,11 +132,11 @@ def read_hdf5_mapped(path: Path, options: ReadOptions | None = None) -> Capture:
         h5 = mapping.hdf5
         rate = options.sample_rate_hz
         if rate is None and "rate_attribute" in h5:
-            rate = _positive(_attribute(fh, h5["rate_attribute"], path, "rate_attribute"), path, h5["rate_attribute"])
+            rate = positive_number(_attribute(fh, h5["rate_attribute"], path, "rate_attribute"), path, h5["rate_attribute"])
         if rate is None and "interval_attribute" in h5:
-            rate = 1.0 / _positive(_attribute(fh, h5["interval_attribute"], path, "interval_attribute"), path, h5["interval_attribute"])
+            rate = 1.0 / positive_number(_attribute(fh, h5["interval_attribute"], path, "interval_attribute"), path, h5["interval_attribute"])
         if rate is None and "sample_rate_hz" in mapping.capture:
-            rate = _positive(mapping.capture["sample_rate_hz"], mapping.source, "key capture.sample_rate_hz")
+            rate = positive_number(mapping.capture["sample_rate_hz"], mapping.source, "key capture.sample_rate_hz")
         if rate is None:
             raise CaptureReadError(path, "", "no sample rate: give [hdf5] rate_attribute / interval_attribute or [capture] sample_rate_hz in the mapping, or --rate")
         start = options.start_time
@@ -175,16 +174,6 @@ def read_hdf5_mapped(path: Path, options: ReadOptions | None = None) -> Capture:
         nominal_voltage_v=None if vnom is None else float(vnom), wiring=wiring,  # type: ignore[arg-type]
         provenance=prov,
     )
-
-
-def _positive(v: Any, path: Any, where: str) -> float:
-    try:
-        x = float(v)
-    except (TypeError, ValueError):
-        raise CaptureReadError(path, where, f"{v!r} is not a number") from None
-    if not (math.isfinite(x) and x > 0):
-        raise CaptureReadError(path, where, f"{v!r} must be a positive number")
-    return x
 
 
 register(

@@ -25,7 +25,7 @@ import math
 from os import PathLike
 from typing import Any
 
-from ..errors import CaptureReadError, InvalidParameterError
+from ..errors import CaptureReadError, InvalidParameterError, positive_number
 from ..tomlfile import read_toml, table_or_top
 
 HP_TO_KW = 0.745699872  # 1 hp (mechanical, 550 ft lbf/s) in kW; exact definition, NIST SP 811 appendix B.
@@ -175,12 +175,7 @@ def _build(d: dict[str, Any], source: str) -> Nameplate:
         d["rated_power_kw"] = float(d.pop("rated_power_hp")) * HP_TO_KW
     for key in _FIELDS_FLOAT:
         if key in d:
-            try:
-                d[key] = float(d[key])
-            except (TypeError, ValueError):
-                raise CaptureReadError(source, f"key {key}", f"{d[key]!r} is not a number") from None
-            if not (math.isfinite(d[key]) and d[key] > 0):
-                raise CaptureReadError(source, f"key {key}", f"{d[key]!r} must be a positive number")
+            d[key] = positive_number(d[key], source, f"key {key}")
     for key in ("rated_power_kw", "rated_voltage_v", "fla_a"):
         if key not in d:
             raise CaptureReadError(source, f"key {key}", "missing; the nameplate needs rated_power_kw (or _hp), rated_voltage_v and fla_a")
