@@ -262,14 +262,20 @@ class DetectionInput:
         return out
 
     # -- voltages -----------------------------------------------------------------
-    def v_phasor(self, conductor: str) -> np.ndarray | None:
-        lab = self.voltage_channels.get(conductor)
-        if lab is None:
+    def _phasor(self, label: str | None) -> np.ndarray | None:
+        """Per-cycle complex phasor of a channel label from its ``_mag`` / ``_ang_deg`` columns."""
+        if label is None:
             return None
-        m, a = self.col(f"{lab}_mag"), self.col(f"{lab}_ang_deg")
+        m, a = self.col(f"{label}_mag"), self.col(f"{label}_ang_deg")
         if m is None or a is None:
             return None
         return m * np.exp(1j * np.deg2rad(a))
+
+    def v_phasor(self, conductor: str) -> np.ndarray | None:
+        return self._phasor(self.voltage_channels.get(conductor))
+
+    def i_phasor(self, conductor: str) -> np.ndarray | None:
+        return self._phasor(self.current_channels.get(conductor))
 
     @functools.cached_property
     def v_ll_max_ratio(self) -> np.ndarray:

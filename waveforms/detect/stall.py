@@ -53,16 +53,6 @@ def runs_on_after(inp: DetectionInput, b: int, cycles: int = 5) -> bool:
 _A = complex(-0.5, math.sqrt(3.0) / 2.0)  # the operator a = 1 /120 deg (Fortescue 1918)
 
 
-def _i_phasor(inp: DetectionInput, conductor: str) -> np.ndarray | None:
-    lab = inp.current_channels.get(conductor)
-    if lab is None:
-        return None
-    m, a = inp.col(f"{lab}_mag"), inp.col(f"{lab}_ang_deg")
-    if m is None or a is None:
-        return None
-    return m * np.exp(1j * np.deg2rad(a))
-
-
 def apparent_impedance(inp: DetectionInput, a: int, b: int) -> np.ndarray | None:
     """Per-cycle complex impedance the motor presents over cycles ``[a, b)`` [ohm], or None.
 
@@ -70,7 +60,7 @@ def apparent_impedance(inp: DetectionInput, a: int, b: int) -> np.ndarray | None
     Single-phased (line j dead): the live pair's line-to-line voltage over its
     series current, ``(V_k - V_l) / I_k``.
     """
-    ph_i = {c: _i_phasor(inp, c) for c in LINES}
+    ph_i = {c: inp.i_phasor(c) for c in LINES}
     if any(v is None for v in ph_i.values()):
         return None
     dead = inp.dead_line[a:b]
