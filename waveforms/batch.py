@@ -490,6 +490,17 @@ class BatchResult:
         raise InvalidParameterError(f"{file!r}: the recipe wrote no cycle table (report.cycles = 'none'?)")
 
 
+def _resolve(inputs: Any, recipe: Any, motor: Any, motors: Any, out: Any) -> tuple[Any, list[Any], Any, Path | None, list[Any]]:
+    """Recipe, input list, nameplate map, output folder and discovered captures, shared by `run` and `plan`."""
+    rec = load_recipe(recipe)
+    if isinstance(inputs, (str, os.PathLike)):
+        inputs = [inputs]
+    mmap = _motor_map(motor, motors)
+    out_path = None if out is None else Path(out)
+    files = discover(inputs, exclude=[out_path] if out_path is not None else [])
+    return rec, inputs, mmap, out_path, files
+
+
 def run(
     inputs: Sequence[str | os.PathLike[str]] | str | os.PathLike[str],
     recipe: Recipe | str | os.PathLike[str] | None = None,
@@ -539,12 +550,7 @@ def run(
     -------
     BatchResult
     """
-    rec = load_recipe(recipe)
-    if isinstance(inputs, (str, os.PathLike)):
-        inputs = [inputs]
-    mmap = _motor_map(motor, motors)
-    out_path = None if out is None else Path(out)
-    files = discover(inputs, exclude=[out_path] if out_path is not None else [])
+    rec, inputs, mmap, out_path, files = _resolve(inputs, recipe, motor, motors, out)
     if not files:
         raise InvalidParameterError(f"no capture files found in {[os.fspath(i) for i in inputs]}")
     n_jobs = rec.batch.get("jobs", 0) if jobs is None else int(jobs)
@@ -662,12 +668,7 @@ def plan(
 ) -> pd.DataFrame:
     """What `run` would do, without doing it: one row per capture (``file``, ``site``, ``path``,
     ``sha256``, ``nameplate``, ``plan``).  Nothing is written."""
-    rec = load_recipe(recipe)
-    if isinstance(inputs, (str, os.PathLike)):
-        inputs = [inputs]
-    mmap = _motor_map(motor, motors)
-    out_path = None if out is None else Path(out)
-    files = discover(inputs, exclude=[out_path] if out_path is not None else [])
+    rec, inputs, mmap, out_path, files = _resolve(inputs, recipe, motor, motors, out)
     done = read_manifest(out_path) if out_path is not None else {}
     tasks, _todo, states = _plan(files, rec, mmap, out_path, done, force, retry_errors, os.cpu_count() or 1)
     return pd.DataFrame({
