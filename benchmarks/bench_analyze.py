@@ -1,4 +1,4 @@
-"""Benchmark of `waveforms analyze` (a script, not a test).
+"""Benchmark of `motor-waveforms analyze` (a script, not a test).
 
 Generates a synthetic 10-minute, 10 kS/s, 6-channel capture (Va Vb Vc Ia Ib Ic,
 50 Hz, a running motor with mixed-eccentricity sidebands; line C opens

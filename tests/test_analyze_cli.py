@@ -1,4 +1,4 @@
-"""The ``waveforms analyze`` command: outputs written, verdict printed, bad input in one line."""
+"""The ``motor-waveforms analyze`` command: outputs written, verdict printed, bad input in one line."""
 
 from __future__ import annotations
 

@@ -156,7 +156,7 @@ def test_interrupted_run_resumes_and_skips_finished_captures(tmp_path):
 
 
 def test_ctrl_c_on_the_command_keeps_finished_captures(tmp_path):
-    """A real SIGINT to `waveforms batch`: exit 130, finished entries stay, the rerun resumes."""
+    """A real SIGINT to `motor-waveforms batch`: exit 130, finished entries stay, the rerun resumes."""
     _archive(tmp_path / "in", n_good=3, corrupt=False)
     flag = tmp_path / "hold"
     flag.write_text("")

@@ -1,4 +1,4 @@
-"""``waveforms inspect`` and ``waveforms convert`` end to end (click's CliRunner)."""
+"""``motor-waveforms inspect`` and ``motor-waveforms convert`` end to end (click's CliRunner)."""
 
 from __future__ import annotations
 

@@ -1,7 +1,7 @@
 """Every malformed input of the foundation issue, item 6: one line naming file, place and problem.
 
 Each case is checked twice: the library raises the package's own error (``match=`` on the
-message) and ``waveforms inspect`` exits non-zero with that one line and no traceback.
+message) and ``motor-waveforms inspect`` exits non-zero with that one line and no traceback.
 """
 
 from __future__ import annotations

@@ -11,8 +11,10 @@ from .errors import CaptureReadError, InvalidParameterError, WaveformsError
 from .io import ReadOptions, read_capture
 
 __version__ = "0.1.0"
+#: The name the tool presents itself under (console command, help, reports, result.json).
+PROGRAM_NAME = "motor-waveforms"
 
 __all__ = [
     "Capture", "CaptureReadError", "Channel", "InvalidParameterError", "ReadOptions",
-    "WaveformsError", "from_arrays", "read_capture", "standard_channels", "__version__",
+    "PROGRAM_NAME", "WaveformsError", "from_arrays", "read_capture", "standard_channels", "__version__",
 ]

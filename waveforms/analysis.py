@@ -4,8 +4,8 @@ Each step is a small public function taking and returning plain objects
 (`measure_capture`, `estimate_speed`, `detect_events`, `assess_motor_thermal`,
 `build_result`, with `analysis_parameters` for the parameter record).
 `analyze` calls them in order and is the library's main entry point; the
-recipe stages of `waveforms.recipe` (behind ``waveforms analyze`` and
-``waveforms batch``) call the same functions, so each rule and note text is
+recipe stages of `waveforms.recipe` (behind ``motor-waveforms analyze`` and
+``motor-waveforms batch``) call the same functions, so each rule and note text is
 written once.  The result is an `AnalysisResult` holding every table and a
 plain-language verdict; writing files is left to `waveforms.report`.
 """

@@ -63,7 +63,7 @@ from .summary import error_row, events_frame, summary_frame, summary_row, write_
 
 MANIFEST_FOLDER = "manifest"
 CAPTURES_FOLDER = "captures"
-_MANIFEST_FORMAT = "waveforms batch entry"
+_MANIFEST_FORMAT = "motor-waveforms batch entry"
 _GLOB_CHARS = re.compile(r"[*?\[]")
 #: Top-level packages whose already-imported modules the fork server pre-imports.
 _PRELOAD_ROOTS = ("waveforms", "numpy", "scipy", "pandas", "pyarrow", "h5py", "matplotlib", "PIL", "jinja2", "tqdm")
@@ -616,7 +616,7 @@ def run(
         written: dict[str, Path] = {}
         if out_path is not None:
             written = write_summary(summary, out_path, title=f"Capture summary: recipe {rec.name}")
-            index = {"format": "waveforms batch manifest", "recipe": rec.name, "recipe_fingerprint": fp,
+            index = {"format": "motor-waveforms batch manifest", "recipe": rec.name, "recipe_fingerprint": fp,
                      "recipe_source": rec.source, "complete": not interrupted,
                      "captures": [{"file": t.input.name, "path": t.input.path, "key": k, "done": k in entries}
                                   for t, k in zip(tasks, keys, strict=True)]}

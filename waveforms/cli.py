@@ -1,4 +1,4 @@
-"""The ``waveforms`` command: a thin click layer over the library.
+"""The ``motor-waveforms`` command (alias ``mwf``): a thin click layer over the library.
 
 Each subcommand lives in its own module under `waveforms.commands` and is
 listed once in `COMMAND_MODULES`; the module exposes a click command named
@@ -13,7 +13,7 @@ import sys
 
 import click
 
-from . import __version__
+from . import PROGRAM_NAME, __version__
 from .errors import WaveformsError
 
 #: One entry per subcommand module (``waveforms/commands/<name>.py``).
@@ -36,7 +36,7 @@ class _Group(click.Group):
 
 
 @click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"]})
-@click.version_option(__version__, prog_name="waveforms")
+@click.version_option(__version__, prog_name=PROGRAM_NAME)
 def cli() -> None:
     """Analyse three-phase motor waveform captures: open phase, stall, slip, thermal stress.
 
@@ -51,7 +51,9 @@ for _name in COMMAND_MODULES:
 
 
 def main() -> None:
-    cli()
+    # The help text and usage lines say the tool's own name whichever alias
+    # (motor-waveforms, mwf, python -m waveforms) started it.
+    cli(prog_name=PROGRAM_NAME)
 
 
 if __name__ == "__main__":

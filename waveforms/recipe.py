@@ -17,7 +17,7 @@ which parameters::
 
 The *stage registry* in this module is the one place that lists the stage
 names, their parameters (type, default, meaning) and which earlier stages each
-needs; validation, ``waveforms recipes`` and docs/batch.md read it.  Each stage
+needs; validation, ``motor-waveforms recipes`` and docs/batch.md read it.  Each stage
 turns its recipe table into arguments and calls the public library function
 that owns the work (`waveforms.io.read_capture`; the step functions of
 `waveforms.analysis`: `measure_capture`, `estimate_speed`, `detect_events`,
@@ -48,7 +48,7 @@ from typing import Any
 
 from .errors import CaptureReadError, InvalidParameterError
 
-#: Name of the recipe `analyze` and `waveforms batch` use when none is given.
+#: Name of the recipe `analyze` and `motor-waveforms batch` use when none is given.
 DEFAULT_RECIPE = "investigate"
 
 #: Package folder holding the shipped recipe files.

@@ -1,4 +1,4 @@
-"""``waveforms analyze CAPTURE [--motor NAMEPLATE] [--recipe NAME|FILE] --out DIR``: the tool's main job.
+"""``motor-waveforms analyze CAPTURE [--motor NAMEPLATE] [--recipe NAME|FILE] --out DIR``: the tool's main job.
 
 Reads one capture and runs a recipe on it through `waveforms.recipe.run_recipe`
 (the default recipe, ``investigate``: measure, speed, detectors, thermal,
@@ -56,7 +56,7 @@ def _reading(rec: Recipe, fmt: str | None, options: ReadOptions) -> tuple[str | 
 @click.option("--motor", "motor", type=click.Path(dir_okay=False), help="Motor nameplate TOML file (default: the one stored in the capture, if any).")
 @click.option("--out", "out_dir", required=True, type=click.Path(file_okay=False), help="Folder for result.json, events.csv and report.html.")
 @click.option("--recipe", "recipe_name", default=DEFAULT_RECIPE, show_default=True, metavar="NAME|FILE",
-              help="Recipe to run: a shipped name (see `waveforms recipes`) or a recipe TOML file. It needs the detect and report stages.")
+              help="Recipe to run: a shipped name (see `motor-waveforms recipes`) or a recipe TOML file. It needs the detect and report stages.")
 @click.option("--no-html", is_flag=True, help="Write result.json and events.csv only.")
 @click.option("--cycles", "cycles", type=click.Choice(["parquet", "csv", "none"]), default="none", show_default=True,
               help="Also write the per-cycle table as cycles.parquet or cycles.csv.")

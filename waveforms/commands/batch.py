@@ -1,4 +1,4 @@
-"""``waveforms batch``: run a recipe over folders / globs of captures, in parallel, resumable."""
+"""``motor-waveforms batch``: run a recipe over folders / globs of captures, in parallel, resumable."""
 
 from __future__ import annotations
 

@@ -1,4 +1,4 @@
-"""``waveforms convert IN OUT``: write a capture as native HDF5 (``.h5``) or CSV (``.csv``)."""
+"""``motor-waveforms convert IN OUT``: write a capture as native HDF5 (``.h5``) or CSV (``.csv``)."""
 
 from __future__ import annotations
 

@@ -1,4 +1,4 @@
-"""``waveforms inspect FILE...``: what is in a capture, and what is wrong with it.
+"""``motor-waveforms inspect FILE...``: what is in a capture, and what is wrong with it.
 
 Channels, rate, duration, start/end, the mapping used, the importer's notes,
 per-channel statistics and data-quality notes; human-readable by default,

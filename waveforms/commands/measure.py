@@ -1,4 +1,4 @@
-"""``waveforms measure FILE --out DIR``: per-cycle measurement tables as Parquet and CSV."""
+"""``motor-waveforms measure FILE --out DIR``: per-cycle measurement tables as Parquet and CSV."""
 
 from __future__ import annotations
 

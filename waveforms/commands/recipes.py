@@ -1,4 +1,4 @@
-"""``waveforms recipes``: list the shipped recipes and the stages, or check one recipe."""
+"""``motor-waveforms recipes``: list the shipped recipes and the stages, or check one recipe."""
 
 from __future__ import annotations
 
@@ -47,4 +47,4 @@ def command(recipe: str | None, show_stages: bool) -> None:
         if show_stages:
             for p in st.params:
                 click.echo(f"      {p.name} ({p.kind}, default {_value(p.default)}): {p.doc}")
-    click.echo("\nCheck a recipe file: waveforms recipes FILE.toml")
+    click.echo("\nCheck a recipe file: motor-waveforms recipes FILE.toml")

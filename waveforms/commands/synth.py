@@ -1,4 +1,4 @@
-"""``waveforms synth SCENARIO.toml --out FILE``: simulate a motor-and-supply scenario.
+"""``motor-waveforms synth SCENARIO.toml --out FILE``: simulate a motor-and-supply scenario.
 
 Writes the capture (native HDF5 for ``.h5``, CSV for ``.csv``) and the ground
 truth ``<stem>.truth.json`` beside it.  The data are invented: a model, not a

@@ -16,6 +16,7 @@ from typing import Any
 
 import numpy as np
 
+from .. import PROGRAM_NAME, __version__
 from ..analysis import SAFETY_CAUTIONS, AnalysisResult, iso_at
 from ..detect.event import plain
 
@@ -138,6 +139,7 @@ def result_dict(res: AnalysisResult, generated_at: _dt.datetime | None = None) -
         "data_quality": res.quality,
         "notes": list(res.notes),
         "provenance": {
+            "software": {"name": PROGRAM_NAME, "version": __version__},
             "capture": res.capture.provenance.to_dict(),
             "versions": res.versions,
             "parameters": res.parameters,
