@@ -115,7 +115,9 @@ def timed(cmd: list[str]) -> dict:
     r = subprocess.run(["/usr/bin/time", "-v", *cmd], capture_output=True, text=True, cwd=ROOT.parent)
     wall = time.perf_counter() - t0
     if r.returncode != 0:
-        raise SystemExit(f"step failed ({r.returncode}): {' '.join(cmd)}\n{r.stderr[-2000:]}")
+        first = next((ln for ln in r.stderr.splitlines() if ln.strip()), "")
+        print(f"  step failed (exit {r.returncode}): {' '.join(cmd[1:4])}...: {first[:300]}", flush=True)
+        return {"wall_s": float("nan"), "rss_mb": float("nan"), "failed": first[:300]}
     rss = int(re.search(r"Maximum resident set size \(kbytes\): (\d+)", r.stderr).group(1)) / 1024.0
     return {"wall_s": wall, "rss_mb": rss}
 
