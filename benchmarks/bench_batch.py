@@ -45,8 +45,8 @@ cycles = "none"
 
 def make_captures(n: int) -> list[Path]:
     from waveforms.io.hdf5_native import write_native
-    from waveforms.motor.scenario import scenario_from_dict
-    from waveforms.motor.simulate import simulate
+    from waveforms.sim.scenario import scenario_from_dict
+    from waveforms.sim.simulate import simulate
 
     DATA.mkdir(parents=True, exist_ok=True)
     out = []

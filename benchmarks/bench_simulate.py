@@ -21,8 +21,8 @@ import argparse  # noqa: E402
 import time  # noqa: E402
 from pathlib import Path  # noqa: E402
 
-from waveforms.motor import simulate as sim_mod  # noqa: E402
-from waveforms.motor.scenario import load_scenario, scenario_from_dict  # noqa: E402
+import waveforms.sim.simulate as sim_mod  # noqa: E402
+from waveforms.sim.scenario import load_scenario, scenario_from_dict  # noqa: E402
 
 SAMPLES = Path(__file__).resolve().parent.parent / "sample_captures"
 TARGET_S = 10.0

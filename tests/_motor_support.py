@@ -8,8 +8,8 @@ from typing import Any
 
 import numpy as np
 
-from waveforms.motor.scenario import scenario_from_dict
-from waveforms.motor.simulate import Simulation, run
+from waveforms.sim.scenario import scenario_from_dict
+from waveforms.sim.simulate import Simulation, run
 
 #: Krause, Wasynczuk & Sudhoff 3 hp, 220 V, 4-pole machine, reactances at 60 Hz
 #: (values as tabulated in several independent public copies; table number from memory).

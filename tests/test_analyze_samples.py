@@ -1,7 +1,7 @@
 """End to end: every bundled sample capture's ground truth is reproduced by `analyze`.
 
 The truth files (`sample_captures/*.truth.json`) are written by the simulator
-from its own switching record and rotor speed (waveforms.motor): open-phase
+from its own switching record and rotor speed (waveforms.sim): open-phase
 onset = the current zero at which the line's switch interrupted, stall =
 rotor speed below 5 % of synchronous (the truth file's ``definitions``).
 Tolerances are those the issue asks for: open-phase onset within 2 ms, stall

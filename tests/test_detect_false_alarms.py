@@ -1,4 +1,4 @@
-"""No false alarms on simulated stress cases (waveforms.motor simulator, invented pump scenario).
+"""No false alarms on simulated stress cases (waveforms.sim simulator, invented pump scenario).
 
 The issue lists what must never raise an open phase or a stall: a healthy
 start, a load step, a three-phase dip, a one-phase dip, 3 % supply unbalance,
@@ -18,8 +18,8 @@ from pathlib import Path
 import pytest
 
 from waveforms.analysis import analyze
-from waveforms.motor.scenario import scenario_from_dict
-from waveforms.motor.simulate import simulate
+from waveforms.sim.scenario import scenario_from_dict
+from waveforms.sim.simulate import simulate
 
 SAMPLES = Path(__file__).resolve().parent.parent / "sample_captures"
 

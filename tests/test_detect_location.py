@@ -17,8 +17,8 @@ from pathlib import Path
 import pytest
 
 from waveforms.analysis import analyze
-from waveforms.motor.scenario import scenario_from_dict
-from waveforms.motor.simulate import simulate
+from waveforms.sim.scenario import scenario_from_dict
+from waveforms.sim.simulate import simulate
 
 SAMPLES = Path(__file__).resolve().parent.parent / "sample_captures"
 

@@ -89,10 +89,10 @@ def test_switch_operation_outside_the_capture_is_refused() -> None:
     with pytest.raises(CaptureReadError, match=r"key switches.ops\[0\].time_s: 0.0 s is outside the capture \(0, 0.2\) s"):
         simulate(KRAUSE_50HP, 460.0, duration_s=0.2, initial={"state": "rest"},
                  switches={"closed_at_start": "", "ops": [{"line": "A", "time_s": 0.0, "action": "close"}]})
-    from waveforms.motor.dynamics import SwitchOp, integrate
-    from waveforms.motor.loads import Load
-    from waveforms.motor.machine import KRAUSE_50HP as M
-    from waveforms.motor.supply import Supply
+    from waveforms.sim.dynamics import SwitchOp, integrate
+    from waveforms.sim.loads import Load
+    from waveforms.sim.machine import KRAUSE_50HP as M
+    from waveforms.sim.supply import Supply
 
     with pytest.raises(InvalidParameterError, match=r"switch operation open B at -0.5 s is not after t = 0"):
         integrate(M, Supply(voltage_ll_v=460.0), Load(), np.arange(100) / 1000.0, np.zeros(6), switch_ops=[SwitchOp("B", -0.5, "open")])

@@ -9,7 +9,7 @@ import numpy as np
 import pytest
 
 from tests._motor_support import last_cycles, rms, simulate
-from waveforms.motor.machine import load_machine
+from waveforms.sim.machine import load_machine
 from waveforms.motor.nameplate import load_nameplate
 
 SAMPLES = Path(__file__).resolve().parent.parent / "sample_captures"

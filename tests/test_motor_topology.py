@@ -9,7 +9,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from waveforms.motor.topology import CLARKE, line_map, projector
+from waveforms.sim.topology import CLARKE, line_map, projector
 
 STATES = list(itertools.product([True, False], repeat=3))
 

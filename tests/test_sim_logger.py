@@ -7,7 +7,7 @@ import datetime as dt
 import numpy as np
 import pytest
 
-from waveforms.motor.logger import ChannelError, Logger, record
+from waveforms.sim.logger import ChannelError, Logger, record
 
 FS = 6000.0
 T = np.arange(6000) / FS

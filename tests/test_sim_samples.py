@@ -9,9 +9,9 @@ import numpy as np
 import pytest
 
 from waveforms.io import read_capture
-from waveforms.motor.output import truth_path
-from waveforms.motor.scenario import load_scenario
-from waveforms.motor.simulate import simulate
+from waveforms.sim.output import truth_path
+from waveforms.sim.scenario import load_scenario
+from waveforms.sim.simulate import simulate
 
 SAMPLES = Path(__file__).resolve().parent.parent / "sample_captures"
 

@@ -12,7 +12,7 @@ from click.testing import CliRunner
 from waveforms.cli import cli
 from waveforms.errors import CaptureReadError
 from waveforms.io import read_capture
-from waveforms.motor.scenario import load_scenario
+from waveforms.sim.scenario import load_scenario
 
 SAMPLES = Path(__file__).resolve().parent.parent / "sample_captures"
 

@@ -7,7 +7,7 @@ import pytest
 from scipy.signal import periodogram
 
 from tests._motor_support import KRAUSE_50HP, simulate
-from waveforms.motor.signatures import Signatures, expected_lines_hz, modulation
+from waveforms.sim.signatures import Signatures, expected_lines_hz, modulation
 
 
 @pytest.fixture(scope="module")

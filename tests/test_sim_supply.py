@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 from tests._motor_support import KRAUSE_50HP, fundamental_phasor, last_cycles, rms, simulate
-from waveforms.motor.truth import window
+from waveforms.sim.truth import window
 
 
 def test_three_phase_dip_depth_at_the_terminals_without_source_impedance() -> None:

@@ -1,4 +1,4 @@
-"""The speed track on simulator captures (waveforms.motor) against their truth files.
+"""The speed track on simulator captures (waveforms.sim) against their truth files.
 
 The machine is the Krause et al. 50 hp, 460 V, 4-pole machine (Analysis of Electric Machinery and Drive
 Systems, table from memory; REFERENCES.md); its speed signature lines are laid on by the simulator at the
@@ -13,10 +13,10 @@ import dataclasses
 import numpy as np
 import pytest
 
-from waveforms.motor.machine import KRAUSE_50HP
+from waveforms.sim.machine import KRAUSE_50HP
 from waveforms.motor.nameplate import Nameplate
-from waveforms.motor.scenario import scenario_from_dict
-from waveforms.motor.simulate import simulate
+from waveforms.sim.scenario import scenario_from_dict
+from waveforms.sim.simulate import simulate
 from waveforms.speed import acceleration_interval, direction_from_waveforms, slowdown_interval, track_speed
 
 FS = 5000.0

@@ -11,8 +11,8 @@ import dataclasses
 
 import click
 
-from ..motor.output import write_simulation
-from ..motor.scenario import load_scenario
+from ..sim.output import write_simulation
+from ..sim.scenario import load_scenario
 
 
 @click.command("synth")

@@ -1,10 +1,14 @@
-"""Motor nameplate, machine model and simulator, thermal model.
+"""What the analysis needs of a motor: nameplate, thermal model, circuit estimate.
 
-Simulator entry points (imported lazily, so that ``waveforms.motor.nameplate``
-stays cheap to import)::
+`nameplate` (the rated values; a plain record that `waveforms.capture` and
+`waveforms.io` may use), `thermal` (thermal stress from measured currents) and
+`estimate` (equivalent-circuit parameters fitted to a nameplate).  The
+simulator is its own package, `waveforms.sim`.
 
-    from waveforms.motor import load_scenario, simulate
-    capture, truth = simulate(load_scenario("sample_captures/healthy_run.scenario.toml"))
+Entry points are imported lazily, so that ``waveforms.motor.nameplate`` stays
+cheap to import::
+
+    from waveforms.motor import load_nameplate, machine_from_nameplate
 """
 
 from __future__ import annotations
@@ -12,10 +16,8 @@ from __future__ import annotations
 from typing import Any
 
 _LAZY = {
-    "simulate": "simulate", "run": "simulate", "Simulation": "simulate",
-    "load_scenario": "scenario", "scenario_from_dict": "scenario", "Scenario": "scenario",
-    "MachineParameters": "machine", "load_machine": "machine",
-    "write_simulation": "output",
+    "Nameplate": "nameplate", "load_nameplate": "nameplate",
+    "ThermalParams": "thermal", "assess_thermal": "thermal",
     "machine_from_nameplate": "estimate",
 }
 

@@ -33,7 +33,7 @@ import numpy as np
 from scipy.optimize import least_squares
 
 from ..errors import InvalidParameterError
-from .machine import MachineParameters, steady_component, steady_torque_n_m
+from ..sim.machine import MachineParameters, steady_component, steady_torque_n_m
 from .nameplate import Nameplate
 
 

@@ -12,7 +12,7 @@ mechanical rotor angle [rad].  Equations (stationary reference frame)::
 
 with the supply ``v_s = M^T (e - R_src i_line - L_src d i_line/dt)`` and the
 open-line constraint imposed by the projector ``P`` (see
-`waveforms.motor.topology`)::
+`waveforms.sim.topology`)::
 
     (sigma Ls + m L_src) d i_s/dt = P [ M^T e - (rs + m R_src) i_s - k d psi_r/dt ]
 

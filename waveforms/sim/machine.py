@@ -12,7 +12,7 @@ terminals a delta machine equals a star machine with every impedance divided
 by three (common practice, no source; the delta-star transformation of a
 balanced load).
 
-Conventions used throughout `waveforms.motor`: space vectors use the
+Conventions used throughout `waveforms.sim`: space vectors use the
 power-invariant Clarke transform ``x_ab = sqrt(2/3) (x_a + a x_b + a^2 x_c)``
 (complex, alpha = real part, beta = imaginary part), so that per-phase
 impedances carry over unchanged and the electromagnetic torque is
@@ -133,7 +133,7 @@ class MachineParameters:
 
     @property
     def winding_to_line(self) -> float:
-        """m in ``M^T M = m I``: 1 for star, 3 for delta (see `waveforms.motor.topology`)."""
+        """m in ``M^T M = m I``: 1 for star, 3 for delta (see `waveforms.sim.topology`)."""
         return 1.0 if self.connection == "star" else 3.0
 
     def synchronous_speed_rad_s(self, frequency_hz: float) -> float:
@@ -192,7 +192,7 @@ def steady_component(
     """Steady-state response of the machine to one rotating space-vector component.
 
     The machine-side driving vector ``e_vec * exp(j omega_e t)`` (already mapped
-    to winding coordinates, see `waveforms.motor.topology`) with the rotor
+    to winding coordinates, see `waveforms.sim.topology`) with the rotor
     turning at constant electrical speed ``omega_r_rad_s``.  ``omega_e_rad_s``
     may be negative (a backward-rotating, negative-sequence component).
 

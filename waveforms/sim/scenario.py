@@ -92,7 +92,7 @@ from .dynamics import SwitchOp
 from .loads import Jam, Load, LoadStep
 from .logger import ChannelError, Logger
 from .machine import MachineParameters, load_machine
-from .nameplate import Nameplate, load_nameplate
+from ..motor.nameplate import Nameplate, load_nameplate
 from .signatures import Signatures
 from .supply import Dip, Harmonic, Supply
 
@@ -108,7 +108,7 @@ class Window:
 
 @dataclasses.dataclass(frozen=True)
 class Scenario:
-    """Everything `waveforms.motor.simulate` needs; see the module docstring for the file form."""
+    """Everything `waveforms.sim.simulate` needs; see the module docstring for the file form."""
 
     name: str
     machine: MachineParameters
@@ -194,7 +194,7 @@ def scenario_from_dict(data: dict[str, Any], path: str = "<scenario>", base: Pat
                 raise CaptureReadError(path, "key scenario.nameplate", "missing; [machine_from_nameplate] needs a nameplate file")
             if "inertia_kg_m2" not in est:
                 raise CaptureReadError(path, "key machine_from_nameplate.inertia_kg_m2", "missing; inertia is not on a nameplate")
-            from .estimate import machine_from_nameplate
+            from ..motor.estimate import machine_from_nameplate
 
             fit = machine_from_nameplate(nameplate, float(est["inertia_kg_m2"]), rs_per_rr=float(est.get("rs_per_rr", 1.0)),
                                          x1_share=float(est.get("x1_share", 0.4)), friction_n_m_s=float(est.get("friction_n_m_s", 0.0)))

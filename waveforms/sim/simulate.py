@@ -1,10 +1,10 @@
 """`simulate(scenario) -> (Capture, truth)`: the machine, supply, signatures and logger together.
 
 Steps: initial state (steady running point, rest, or coasting) ->
-integration of the model (`waveforms.motor.dynamics`) -> vectorised
+integration of the model (`waveforms.sim.dynamics`) -> vectorised
 post-processing into line currents, winding currents and terminal voltages
 -> speed signatures on the currents -> logger artifacts -> `Capture` plus the
-ground truth (`waveforms.motor.truth`).
+ground truth (`waveforms.sim.truth`).
 
 Terminal voltages are against the *source neutral*.  The machine's winding
 voltages follow from its own equations (``v_s = rs i_s + sigma Ls di_s/dt +
@@ -178,7 +178,7 @@ def _capture(sc: Scenario, sim: Simulation) -> Capture:
     chans = tuple(dataclasses.replace(c, source_label=f"sim:{c.name}") for c in standard_channels(voltages=sc.logger.voltages, currents=True))
     prov = Provenance(
         source_path=sc.source_path, sha256=sc.source_sha256, importer="simulator",
-        notes=(f"simulated scenario {sc.name!r} (waveforms.motor); invented data for demonstration and tests",),
+        notes=(f"simulated scenario {sc.name!r} (waveforms.sim); invented data for demonstration and tests",),
     )
     return from_arrays(
         {c.name: recorded[c.name] for c in chans}, chans, sc.logger.sample_rate_hz, sc.logger.start_time,

@@ -3,7 +3,7 @@
 The supply is split into rotating space-vector components (each harmonic
 order's positive and negative sequence); with the speed held constant the
 machine is linear, so each component is solved on its own
-(`waveforms.motor.machine.steady_component`) and the mean torques add (cross
+(`waveforms.sim.machine.steady_component`) and the mean torques add (cross
 products of different frequencies average to zero).  The operating speed is
 the stable root of ``T_e(w) = T_load(w)`` on the motoring side of the
 breakdown torque, found with `scipy.optimize.brentq`.
@@ -47,7 +47,7 @@ class OperatingPoint:
     torque_n_m : float
         Mean electromagnetic torque [N m].
     state : ndarray (6,)
-        Model state at t = 0 (see `waveforms.motor.dynamics`).
+        Model state at t = 0 (see `waveforms.sim.dynamics`).
     """
 
     omega_m_rad_s: float

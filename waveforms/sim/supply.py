@@ -5,7 +5,7 @@ a sum of sinusoids (fundamental plus low-order harmonics) with per-phase
 magnitude and angle offsets (steady unbalance), a frequency offset from
 nominal, and rectangular dips / swells (per-phase residual magnitude between
 two instants).  Each line has the same series resistance and inductance
-(source impedance) and a switch (see `waveforms.motor.scenario.SwitchEvent`).
+(source impedance) and a switch (see `waveforms.sim.scenario.SwitchEvent`).
 
 Everything here is plain bookkeeping of sinusoids; there is no published
 formula beyond ``e(t) = sqrt(2) Re(E exp(j h w t))`` (common practice, no source).

@@ -1,6 +1,6 @@
 """Synthetic stator currents with a known slip, for unit tests and benchmarks.
 
-Not a motor model (that is `waveforms.motor`): a sum of sinusoids placed at
+Not a motor model (that is `waveforms.sim`): a sum of sinusoids placed at
 the frequencies of `waveforms.speed.signatures` for a given slip, plus supply
 harmonics and white noise at a chosen signal-to-noise ratio.  It lets the
 estimator be checked against the formulas with a known answer.
