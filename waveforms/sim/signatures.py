@@ -18,6 +18,12 @@ the machine equations (which describe a smooth air gap): it gives the right
 frequencies at the right instants and configurable levels, not the physics of
 their amplitudes.
 
+`expected_lines_hz` writes the line frequencies out again, on purpose
+independently of `waveforms.speed.signatures` (which the slip estimator
+uses): the truth files and the tests that compare the estimator with them
+then check the estimator's formulas against a second, separate statement of
+the same literature formulas instead of against themselves.
+
 References
 ----------
 .. [1] W. T. Thomson, M. Fenger, "Current signature analysis to detect

@@ -16,6 +16,12 @@ with ``p`` pole pairs and ``f1`` the supply frequency.
 Because (1) is affine in ``1 - s`` it is inverted exactly:
 ``1 - s = p (f / f1 - b) / a``.
 
+The simulator states the eccentricity and principal slot-harmonic
+frequencies a second time, on purpose independently of this module
+(`waveforms.sim.signatures.expected_lines_hz`, written into every truth
+file), so that the simulated ground truth is an independent check of these
+formulas rather than a copy of them.
+
 References
 ----------
 .. [1] W. T. Thomson and M. Fenger, "Current signature analysis to detect
