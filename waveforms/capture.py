@@ -16,11 +16,14 @@ from __future__ import annotations
 import dataclasses
 import datetime as _dt
 from collections.abc import Iterator, Sequence
-from typing import Any, Literal, Protocol
+from typing import TYPE_CHECKING, Any, Literal, Protocol
 
 import numpy as np
 
 from .errors import InvalidParameterError
+
+if TYPE_CHECKING:  # for the annotation only: nothing of waveforms.motor is imported at run time
+    from .motor.nameplate import Nameplate
 
 Kind = Literal["voltage", "current"]
 Conductor = Literal["A", "B", "C", "N"]
@@ -242,6 +245,7 @@ class Capture:
     wiring : {"3-wire", "4-wire"}
     provenance : Provenance
     nameplate : waveforms.motor.nameplate.Nameplate or None
+        Rated values of the motor, when the file or the user gives them.
     gaps : tuple of Gap
         Stretches of NaN samples, explicit.
     """
@@ -254,7 +258,7 @@ class Capture:
     nominal_voltage_v: float | None = None
     wiring: Wiring = "4-wire"
     provenance: Provenance = dataclasses.field(default_factory=Provenance)
-    nameplate: Any = None
+    nameplate: Nameplate | None = None
     gaps: tuple[Gap, ...] = ()
 
     def __post_init__(self) -> None:
