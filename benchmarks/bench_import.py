@@ -31,7 +31,7 @@ sys.path.insert(0, str(ROOT))
 
 from waveforms import read_capture  # noqa: E402
 from waveforms.capture import standard_channels  # noqa: E402
-from waveforms.io.hdf5_native import _meta_of, write_native_blocks  # noqa: E402
+from waveforms.io.hdf5_native import native_header, write_native_blocks  # noqa: E402
 from waveforms.capture import from_arrays  # noqa: E402
 from waveforms.hashing import sha256_file  # noqa: E402
 
@@ -73,7 +73,7 @@ def make_h5(path: Path, target_gb: float) -> int:
     block = 1 << 20
     meta_cap = from_arrays(np.zeros((len(CHANNELS), 1)), CHANNELS, RATE,
                            dt.datetime(2025, 1, 1, tzinfo=dt.timezone.utc), nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
-    meta = _meta_of(meta_cap)
+    meta = native_header(meta_cap)
     meta["n_samples"] = n_total
 
     def blocks():

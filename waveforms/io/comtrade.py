@@ -50,9 +50,9 @@ from .. import timebase
 from ..capture import BASE_UNIT, ArraySource, Capture, Gap, Provenance
 from ..errors import CaptureReadError, InvalidParameterError
 from ..hashing import sha256_file
-from .delimited import _system_values, parse_start_time
+from .common import parse_start_time, system_values
 from .mapping import (
-    _UNIT_RE,
+    UNIT_RE,
     Mapping,
     mapping_record,
     parse_mapping,
@@ -502,7 +502,7 @@ def _nan_gaps(values: np.ndarray, names: list[str]) -> list[Gap]:
 # -- channels ---------------------------------------------------------------------------
 def _from_ph(ch: AnalogDef) -> dict[str, str] | None:
     """Kind, conductor, reference from the ph field and the unit (``ph=B``, ``uu=kV`` -> Vb)."""
-    m = _UNIT_RE.match(ch.unit.strip())
+    m = UNIT_RE.match(ch.unit.strip())
     if m is None:
         return None
     kind = "voltage" if m.group("base").upper().startswith("V") else "current"
@@ -539,7 +539,7 @@ def _channel_plan(cfg: Config, mapping: Mapping, path: Path) -> tuple[list[Any],
         if c.header in mapped_sources or c.header in mapping.ignore:
             headers.append(c.header)
             continue
-        unit_ok = c.unit.strip() == "" or _UNIT_RE.match(c.unit.strip()) is not None
+        unit_ok = c.unit.strip() == "" or UNIT_RE.match(c.unit.strip()) is not None
         if not unit_ok:
             notes.append(f"analog channel {c.index} {c.ch_id!r} (line {c.line}) is in {c.unit!r}, not a voltage or current: not read")
             continue
@@ -736,7 +736,7 @@ def read_comtrade(path: Path, options: ReadOptions | None = None) -> Capture:
             notes.append(f"nominal frequency {cfg.line_frequency_hz:g} Hz from the line frequency on cfg line {cfg.lf_line}")
     elif cfg.line_frequency_hz:
         notes.append(f"line frequency {cfg.line_frequency_hz:g} Hz on cfg line {cfg.lf_line} is not 50 or 60; not used")
-    capture_meta = _system_values(options, mapping, meta, src, parts.cfg_path, specs, values, rate, notes)
+    capture_meta = system_values(options, mapping, meta, src, parts.cfg_path, specs, values, rate, notes)
     if gaps:
         notes.append(f"{len(gaps)} gap(s), {sum(g.n_samples for g in gaps)} missing samples kept as NaN")
     extra = {

@@ -34,8 +34,9 @@ from ..atomic import same_file
 from ..capture import Capture, Gap, Provenance
 from ..errors import CaptureReadError, WriteError
 from ..hashing import sha256_file
-from .delimited import EPOCH, Plan, _system_values, iso_to_ns, ns_to_datetime, plan_read
-from .hdf5_native import _meta_of, write_native_blocks
+from .common import EPOCH, system_values
+from .delimited import Plan, iso_to_ns, ns_to_datetime, plan_read
+from .hdf5_native import native_header, write_native_blocks
 from .mapping import mapping_record, parse_mapping
 from .registry import ReadOptions
 
@@ -292,7 +293,7 @@ def convert_csv_to_native(
                      for a, b in (grid.gaps if grid else ()))
         if gaps:
             notes.append(f"{len(gaps)} gap(s) in the time stamps, {sum(g.n_samples for g in gaps)} missing samples kept as NaN (first at t = {gaps[0].start_index * period:.6f} s)")
-        system = _system_values(options, mapping, plan.meta, plan.src, src_path, specs, state["first_values"], rate, notes)
+        system = system_values(options, mapping, plan.meta, plan.src, src_path, specs, state["first_values"], rate, notes)
         notes.append("converted block by block (streamed; the capture was never held in memory whole)")
         record = mapping_record(specs, {
             "csv": {"delimiter": lay.delimiter, "decimal": lay.decimal, "header_line": lay.header_index + 1, "encoding": lay.encoding},
@@ -303,7 +304,7 @@ def convert_csv_to_native(
         cap = Capture(channels=tuple(s.channel() for s in specs), source=_LengthOnly(n_written, n_ch), sample_rate_hz=float(rate),
                       start_time=start, provenance=prov, gaps=gaps, **system)
         state["summary"] = {"n_samples": n_written, "sample_rate_hz": float(rate), "n_channels": n_ch, "gaps": len(gaps)}
-        return {k: v for k, v in _meta_of(cap).items() if k != "n_samples"}
+        return {k: v for k, v in native_header(cap).items() if k != "n_samples"}
 
     provisional = {"sample_rate_hz": float("nan"), "start_time": "", "provenance": "{}", "gaps": "[]", "nameplate": ""}
     with concurrent.futures.ThreadPoolExecutor(max_workers=1) as pool:

@@ -34,6 +34,7 @@ from ..capture import ArraySource, Capture, Provenance
 from ..errors import CaptureReadError, MappingError, positive_number
 from ..hashing import sha256_file
 from .. import timebase
+from .common import EPOCH, parse_start_time, system_values
 from .mapping import (
     Mapping, is_time_header, mapping_record, parse_mapping, resolve_channels, suggest, time_header_unit, time_unit_factor,
 )
@@ -49,7 +50,6 @@ _NUM_RE = {
 _ISO_RE = re.compile(r"^\s*\d{4}-\d{2}-\d{2}[T ]\d{2}:\d{2}(:\d{2}(\.\d+)?)?\s*(Z|[+-]\d{2}:?\d{2})?\s*$")
 _OFFSET_RE = re.compile(r"(Z|[+-]\d{2}:?\d{2})\s*$")
 _META_RE = re.compile(r"^\s*#?\s*(?P<key>[A-Za-z_][A-Za-z0-9_ ]*?)\s*[:=]\s*(?P<value>.*?)\s*$")
-EPOCH = _dt.datetime(1970, 1, 1, tzinfo=_dt.timezone.utc)
 #: Name given to the empty columns after a trailing delimiter (never read).
 TRAILING = "(after trailing delimiter) "
 
@@ -303,17 +303,6 @@ def _parse_offset(text: str, source: str, where: str) -> _dt.timezone:
     return _dt.timezone(sign * _dt.timedelta(hours=int(m.group(2)), minutes=int(m.group(3))))
 
 
-def parse_start_time(text: str, source: str, where: str) -> _dt.datetime:
-    """An ISO 8601 start time with offset (``2024-03-01T10:00:00+01:00``)."""
-    try:
-        t = _dt.datetime.fromisoformat(str(text).strip().replace("Z", "+00:00"))
-    except ValueError:
-        raise CaptureReadError(source, where, f"{text!r} is not an ISO 8601 time") from None
-    if t.tzinfo is None:
-        raise CaptureReadError(source, where, f"{text!r} has no UTC offset (write e.g. '+01:00' or 'Z')")
-    return t
-
-
 def iso_to_ns(s: pd.Series, mapping: Mapping, path: Path, col: str, line_of: Any) -> tuple[np.ndarray, _dt.tzinfo]:
     """ISO 8601 text stamps -> int64 ns since the POSIX epoch (UTC), and the offset of the first stamp.
 
@@ -565,7 +554,7 @@ def _read_csv(path: Path, options: ReadOptions, mapping: Mapping, digest: concur
             total = sum(g.n_samples for g in gaps)
             notes.append(f"{len(gaps)} gap(s) in the time stamps, {total} missing samples kept as NaN (first at t = {gaps[0].start_index / rate:.6f} s)")
 
-    capture_meta = _system_values(options, mapping, meta, src, path, specs, values, rate, notes)
+    capture_meta = system_values(options, mapping, meta, src, path, specs, values, rate, notes)
     record = mapping_record(specs, {
         "csv": {"delimiter": layout.delimiter, "decimal": layout.decimal, "header_line": layout.header_index + 1, "encoding": layout.encoding},
         **timebase_record,
@@ -577,45 +566,6 @@ def _read_csv(path: Path, options: ReadOptions, mapping: Mapping, digest: concur
         channels=tuple(s.channel() for s in specs), source=ArraySource(values), sample_rate_hz=float(rate),
         start_time=start, provenance=prov, gaps=tuple(gaps), **capture_meta,
     )
-
-
-def _system_values(options: ReadOptions, mapping: Mapping, meta: dict[str, str], src: str, path: Path,
-                   specs: list, values: np.ndarray, rate: float, notes: list[str]) -> dict[str, Any]:
-    """Nominal frequency, nominal voltage and wiring: given, from metadata, or inferred (with a note)."""
-    fnom = options.nominal_frequency_hz
-    if fnom is None and "nominal_frequency_hz" in mapping.capture:
-        fnom = positive_number(mapping.capture["nominal_frequency_hz"], src, "key capture.nominal_frequency_hz")
-    if fnom is None and meta.get("nominal_frequency_hz", "") not in ("", "none", "None", "nan"):
-        fnom = positive_number(meta["nominal_frequency_hz"], str(path), "metadata nominal_frequency_hz")
-    if fnom is not None and fnom not in (50.0, 60.0):
-        raise CaptureReadError(src, "nominal frequency", f"{fnom:g} Hz must be 50 or 60")
-    if fnom is None:
-        fnom, note = infer_nominal_frequency_of(specs, values, rate)
-        notes.append(note)
-    vnom = options.nominal_voltage_v
-    if vnom is None and "nominal_voltage_v" in mapping.capture:
-        vnom = positive_number(mapping.capture["nominal_voltage_v"], src, "key capture.nominal_voltage_v")
-    if vnom is None and meta.get("nominal_voltage_v", "") not in ("", "none", "None", "nan"):
-        vnom = positive_number(meta["nominal_voltage_v"], str(path), "metadata nominal_voltage_v")
-    wiring = options.wiring or mapping.capture.get("wiring") or meta.get("wiring")
-    if wiring is None:
-        has_neutral = any(s.reference in ("LN", "neutral") for s in specs)
-        has_ll = any(s.reference == "LL" for s in specs)
-        wiring = "3-wire" if has_ll and not has_neutral else "4-wire"
-        notes.append(f"wiring taken as {wiring} ({'line-to-line voltages only' if wiring == '3-wire' else 'line-to-neutral or neutral channels present' if has_neutral else 'default'})")
-    if wiring not in ("3-wire", "4-wire"):
-        raise CaptureReadError(src, "wiring", f"{wiring!r} must be '3-wire' or '4-wire'")
-    return {"nominal_frequency_hz": fnom, "nominal_voltage_v": vnom, "wiring": wiring}
-
-
-def infer_nominal_frequency_of(specs: list, values: np.ndarray, rate: float) -> tuple[float | None, str]:
-    """Infer 50/60 Hz from the first phase voltage (else the first current); returns (value, note)."""
-    order = sorted(range(len(specs)), key=lambda i: (specs[i].kind != "voltage", specs[i].reference not in ("LN", "LL")))
-    for i in order:
-        f, peak = timebase.infer_nominal_frequency(values[i], rate)
-        if f is not None:
-            return f, f"nominal frequency inferred as {f:g} Hz (dominant component at {peak:.2f} Hz in {specs[i].name}); give --nominal-frequency to override"
-    return None, "nominal frequency unknown: no dominant component near 50 or 60 Hz (give --nominal-frequency)"
 
 
 def sniff_csv(path: Path) -> bool:

@@ -16,6 +16,10 @@ one 1-D dataset per channel and where the rate and start time are kept::
 Without ``[channels]`` entries, datasets whose last name component is a
 recognised spelling (``Va``, ``UL1``, ``I1``...) are taken, with a note.  The
 rate may instead come from ``[capture] sample_rate_hz`` or ``--rate``.
+Nominal frequency, nominal voltage and wiring come from the options or the
+``[capture]`` table and are checked as in every importer
+(`waveforms.io.common.system_values`); the nominal frequency is otherwise
+inferred from the samples.
 Samples stay on disk (`HDF5Source`, scales applied on read).
 """
 
@@ -31,7 +35,7 @@ import numpy as np
 from ..capture import Capture, Provenance
 from ..errors import CaptureReadError, MappingError, positive_number
 from ..hashing import sha256_file
-from .delimited import EPOCH, infer_nominal_frequency_of, parse_start_time
+from .common import EPOCH, parse_start_time, system_values
 from .hdf5_native import HDF5Source, sniff_native
 from .mapping import mapping_record, parse_mapping, recognise, resolve_channels
 from .registry import Importer, ReadOptions, register
@@ -153,26 +157,14 @@ def read_hdf5_mapped(path: Path, options: ReadOptions | None = None) -> Capture:
             start = EPOCH
             notes.append("absolute start time not given; start set to 1970-01-01T00:00:00+00:00 (times are relative)")
     source = HDF5Source(path, [s.source_label for s in specs], [s.scale for s in specs])
-    fnom = options.nominal_frequency_hz or mapping.capture.get("nominal_frequency_hz")
-    if fnom is not None and float(fnom) not in (50.0, 60.0):
-        raise CaptureReadError(options.mapping_source or "options", "nominal frequency", f"{fnom} Hz must be 50 or 60")
-    if fnom is None:
-        m = min(n, int(2 * rate))
-        fnom, note = infer_nominal_frequency_of(specs, source.read(0, m, range(len(specs))), rate)
-        notes.append(note)
-    wiring = options.wiring or mapping.capture.get("wiring")
-    if wiring is None:
-        has_neutral = any(s.reference in ("LN", "neutral") for s in specs)
-        wiring = "4-wire" if has_neutral or not any(s.reference == "LL" for s in specs) else "3-wire"
-        notes.append(f"wiring taken as {wiring}")
-    vnom = options.nominal_voltage_v or mapping.capture.get("nominal_voltage_v")
+    src = options.mapping_source or "mapping"
+    head = source.read(0, min(n, int(2 * rate)), range(len(specs)))  # for inferring the nominal frequency
+    system = system_values(options, mapping, {}, src, path, specs, head, float(rate), notes)
     prov = Provenance(source_path=str(path), sha256=sha256_file(path), importer="hdf5-mapped",
                       mapping=mapping_record(specs, {"hdf5": dict(h5), "source": mapping.source}), notes=tuple(notes))
     return Capture(
         channels=tuple(s.channel() for s in specs), source=source, sample_rate_hz=float(rate), start_time=start,
-        nominal_frequency_hz=None if fnom is None else float(fnom),
-        nominal_voltage_v=None if vnom is None else float(vnom), wiring=wiring,  # type: ignore[arg-type]
-        provenance=prov,
+        provenance=prov, **system,
     )
 
 

@@ -41,6 +41,7 @@ from ..atomic import atomic_path, same_file
 from ..capture import Capture, Channel, Gap, Provenance
 from ..errors import CaptureReadError, WriteError
 from ..hashing import sha256_file
+from ..motor.nameplate import Nameplate  # a plain record (imports only errors, tomlfile): io may use it
 from .registry import Importer, ReadOptions, register
 
 FORMAT_NAME = "motor-waveforms capture"
@@ -174,8 +175,6 @@ def read_native(path: Path, options: ReadOptions | None = None) -> Capture:
         wiring = _attr_str(a, "wiring", "4-wire")
     nameplate = None
     if plate_json:
-        from ..motor.nameplate import Nameplate
-
         nameplate = Nameplate.from_dict({k: v for k, v in json.loads(plate_json).items() if k != "warnings"}, f"{path}:/nameplate")
     source = HDF5Source(path, paths)
     prov = Provenance(
@@ -201,7 +200,8 @@ def _write_header(fh: h5py.File, capture_meta: dict[str, Any]) -> None:
         a[k] = v
 
 
-def _meta_of(capture: Capture) -> dict[str, Any]:
+def native_header(capture: Capture) -> dict[str, Any]:
+    """The file attributes of the native layout that describe ``capture`` (also used by the streamed CSV conversion)."""
     return {
         "sample_rate_hz": float(capture.sample_rate_hz),
         "n_samples": int(capture.n_samples),
@@ -240,7 +240,7 @@ def write_native(
     if capture.provenance.source_path and same_file(capture.provenance.source_path, target):
         raise WriteError(f"{target}: refusing to overwrite the input capture")
     blocks = (c.owned for c in capture.iter_chunks(chunk_samples))
-    return write_native_blocks(target, capture.channels, _meta_of(capture), blocks, capture.n_samples, dtype, compression)
+    return write_native_blocks(target, capture.channels, native_header(capture), blocks, capture.n_samples, dtype, compression)
 
 
 def write_native_blocks(

@@ -72,7 +72,8 @@ CHANNEL_KEYS = ("column", "dataset", "unit", "ratio", "kind", "conductor", "refe
 
 #: Unit prefixes accepted in headers and mapping files.
 PREFIX = {"": 1.0, "k": 1e3, "K": 1e3, "M": 1e6, "m": 1e-3, "u": 1e-6, "µ": 1e-6, "μ": 1e-6}
-_UNIT_RE = re.compile(r"^(?P<prefix>[kKMmuµμ]?)(?P<base>V|A|VOLTS?|AMPS?)(?:RMS)?$", re.IGNORECASE)
+#: Spelling of a voltage or current unit, with an optional prefix (``kV``, ``mA``, ``Volts``, ``ARMS``).
+UNIT_RE = re.compile(r"^(?P<prefix>[kKMmuµμ]?)(?P<base>V|A|VOLTS?|AMPS?)(?:RMS)?$", re.IGNORECASE)
 #: Time units of a numeric time column, in seconds.
 TIME_UNITS = {"s": 1.0, "sec": 1.0, "ms": 1e-3, "us": 1e-6, "µs": 1e-6, "μs": 1e-6, "ns": 1e-9}
 
@@ -119,7 +120,7 @@ def split_unit(header: str) -> tuple[str, str | None]:
     if m and m.group("name"):
         return m.group("name").strip(), m.group("unit").strip()
     m = re.match(r"^(?P<name>[^/]+?)\s*/\s*(?P<unit>[^/]+)$", h)
-    if m and (_UNIT_RE.match(m.group("unit").strip()) or m.group("unit").strip() in TIME_UNITS):
+    if m and (UNIT_RE.match(m.group("unit").strip()) or m.group("unit").strip() in TIME_UNITS):
         return m.group("name").strip(), m.group("unit").strip()
     return h, None
 
@@ -188,7 +189,7 @@ def unit_factor(unit: str, kind: str, path: str | Path, where: str) -> float:
         When the unit is not a voltage/current unit, or belongs to the other kind
         (a voltage channel in A).
     """
-    m = _UNIT_RE.match(unit.strip())
+    m = UNIT_RE.match(unit.strip())
     if m is None:
         raise CaptureReadError(path, where, f"unit {unit!r} is not a voltage or current unit (V, kV, mV, A, kA, mA, uA)")
     base = "V" if m.group("base").upper().startswith("V") else "A"

@@ -1,0 +1,107 @@
+"""What the importers share: start times, the epoch, and the checks of nominal values and wiring.
+
+One place for the rules every importer applies the same way, so that a bad
+nominal frequency, nominal voltage or wiring gives the same one-line error
+(`waveforms.errors.CaptureReadError`, naming the file and the place) whatever
+the file format.  An importer takes these public names from here, never
+another importer's private ones.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from .. import timebase
+from ..errors import CaptureReadError, positive_number
+
+if TYPE_CHECKING:
+    from .mapping import Mapping
+    from .registry import ReadOptions
+
+#: Start of POSIX time; the start given to captures without an absolute time.
+EPOCH = _dt.datetime(1970, 1, 1, tzinfo=_dt.timezone.utc)
+
+#: Metadata values that mean "not given".
+_UNSET = ("", "none", "None", "nan")
+
+
+def parse_start_time(text: str, source: str, where: str) -> _dt.datetime:
+    """An ISO 8601 start time with offset (``2024-03-01T10:00:00+01:00``).
+
+    Raises
+    ------
+    CaptureReadError
+        Not ISO 8601, or without a UTC offset (``source`` and ``where`` name the place).
+    """
+    try:
+        t = _dt.datetime.fromisoformat(str(text).strip().replace("Z", "+00:00"))
+    except ValueError:
+        raise CaptureReadError(source, where, f"{text!r} is not an ISO 8601 time") from None
+    if t.tzinfo is None:
+        raise CaptureReadError(source, where, f"{text!r} has no UTC offset (write e.g. '+01:00' or 'Z')")
+    return t
+
+
+def infer_nominal_frequency_of(specs: list, values: np.ndarray, rate: float) -> tuple[float | None, str]:
+    """Infer 50/60 Hz from the first phase voltage (else the first current); returns (value, note).
+
+    ``specs`` are the channels' `waveforms.io.mapping.ChannelSpec`, ``values``
+    their first samples (one row per channel) at ``rate`` [Hz].
+    """
+    order = sorted(range(len(specs)), key=lambda i: (specs[i].kind != "voltage", specs[i].reference not in ("LN", "LL")))
+    for i in order:
+        f, peak = timebase.infer_nominal_frequency(values[i], rate)
+        if f is not None:
+            return f, f"nominal frequency inferred as {f:g} Hz (dominant component at {peak:.2f} Hz in {specs[i].name}); give --nominal-frequency to override"
+    return None, "nominal frequency unknown: no dominant component near 50 or 60 Hz (give --nominal-frequency)"
+
+
+def system_values(options: ReadOptions, mapping: Mapping, meta: dict[str, str], src: str, path: str | Path,
+                  specs: list, values: np.ndarray, rate: float, notes: list[str]) -> dict[str, Any]:
+    """Nominal frequency, nominal voltage and wiring: given, from metadata, or inferred (with a note).
+
+    The order is: command-line options, then the mapping's ``[capture]``
+    table (named ``src`` in errors), then the file's own metadata ``meta``
+    (named ``path``), then inference from the samples (``values`` of the
+    channels ``specs`` at ``rate`` [Hz]), with a note appended to ``notes``.
+
+    Returns
+    -------
+    dict
+        ``nominal_frequency_hz``, ``nominal_voltage_v`` (None when not given)
+        and ``wiring``: keyword arguments for `waveforms.capture.Capture`.
+
+    Raises
+    ------
+    CaptureReadError
+        A value that is not a positive number, a nominal frequency other than
+        50 or 60 Hz, or a wiring other than '3-wire' / '4-wire'.
+    """
+    fnom = options.nominal_frequency_hz
+    if fnom is None and "nominal_frequency_hz" in mapping.capture:
+        fnom = positive_number(mapping.capture["nominal_frequency_hz"], src, "key capture.nominal_frequency_hz")
+    if fnom is None and meta.get("nominal_frequency_hz", "") not in _UNSET:
+        fnom = positive_number(meta["nominal_frequency_hz"], str(path), "metadata nominal_frequency_hz")
+    if fnom is not None and fnom not in (50.0, 60.0):
+        raise CaptureReadError(src, "nominal frequency", f"{fnom:g} Hz must be 50 or 60")
+    if fnom is None:
+        fnom, note = infer_nominal_frequency_of(specs, values, rate)
+        notes.append(note)
+    vnom = options.nominal_voltage_v
+    if vnom is None and "nominal_voltage_v" in mapping.capture:
+        vnom = positive_number(mapping.capture["nominal_voltage_v"], src, "key capture.nominal_voltage_v")
+    if vnom is None and meta.get("nominal_voltage_v", "") not in _UNSET:
+        vnom = positive_number(meta["nominal_voltage_v"], str(path), "metadata nominal_voltage_v")
+    wiring = options.wiring or mapping.capture.get("wiring") or meta.get("wiring")
+    if wiring is None:
+        has_neutral = any(s.reference in ("LN", "neutral") for s in specs)
+        has_ll = any(s.reference == "LL" for s in specs)
+        wiring = "3-wire" if has_ll and not has_neutral else "4-wire"
+        notes.append(f"wiring taken as {wiring} ({'line-to-line voltages only' if wiring == '3-wire' else 'line-to-neutral or neutral channels present' if has_neutral else 'default'})")
+    if wiring not in ("3-wire", "4-wire"):
+        raise CaptureReadError(src, "wiring", f"{wiring!r} must be '3-wire' or '4-wire'")
+    return {"nominal_frequency_hz": fnom, "nominal_voltage_v": vnom, "wiring": wiring}
