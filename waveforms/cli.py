@@ -1,7 +1,8 @@
 """The ``motor-waveforms`` command (alias ``mwf``): a thin click layer over the library.
 
 Each subcommand lives in its own module under `waveforms.commands` and is
-listed once in `COMMAND_MODULES`; the module exposes a click command named
+listed once in `COMMAND_MODULES` with its one-line help (modules are imported on
+first use, to keep start-up fast); the module exposes a click command named
 ``command``.  Errors of the package's own hierarchy end in one line on stderr
 and a non-zero exit, never a traceback.
 """
@@ -16,17 +17,46 @@ import click
 from . import PROGRAM_NAME, __version__
 from .errors import WaveformsError
 
-#: One entry per subcommand module (``waveforms/commands/<name>.py``).
-COMMAND_MODULES: tuple[str, ...] = (
-    "inspect", "convert",
-    "analyze",
-    "measure",
-    "batch", "recipes",
-    "synth",
-)
+#: One entry per subcommand module (``waveforms/commands/<name>.py``) and its one-line help.
+#: A module is imported only when its command runs (or its own help is asked for), so that
+#: start-up and ``--help`` do not load pandas, scipy, matplotlib, h5py...; the help text is
+#: kept here for the listing and checked against each command by tests/test_cli_startup.py.
+COMMAND_MODULES: dict[str, str] = {
+    "inspect": "Show channels, time base, mapping and data-quality notes of capture FILES.",
+    "convert": "Convert capture SOURCE to TARGET: native HDF5 when TARGET ends in .h5/.hdf5, CSV when .csv.",
+    "analyze": "Find open phase, stall, starts, dips and unbalance in CAPTURE; judge thermal stress; write a report.",
+    "measure": ("Measure every fundamental cycle of capture SOURCE: frequency, RMS, Urms(1/2), phasors, "
+                "sequence components, unbalance, harmonics, power."),
+    "batch": "Analyse every capture in INPUTS (files, folders, globs, fsspec URLs) with one recipe.",
+    "recipes": "List the shipped recipes and the stages they can chain, or check RECIPE.",
+    "synth": "Simulate SCENARIO (a TOML file) and write a capture plus <stem>.truth.json.",
+}
 
 
 class _Group(click.Group):
+    """Subcommands imported on first use; the listing uses the help kept in `COMMAND_MODULES`."""
+
+    def list_commands(self, ctx: click.Context) -> list[str]:
+        return sorted(COMMAND_MODULES)
+
+    def get_command(self, ctx: click.Context, cmd_name: str) -> click.Command | None:
+        if cmd_name not in COMMAND_MODULES:
+            return None
+        if cmd_name not in self.commands:
+            mod = importlib.import_module(f"waveforms.commands.{cmd_name}")
+            self.add_command(mod.command, cmd_name)
+        return self.commands[cmd_name]
+
+    def format_commands(self, ctx: click.Context, formatter: click.HelpFormatter) -> None:
+        names = self.list_commands(ctx)
+        if not names:
+            return
+        limit = formatter.width - 6 - max(len(n) for n in names)
+        # a bare Command shortens the text exactly as click shortens a real command's help
+        rows = [(n, click.Command(n, help=COMMAND_MODULES[n]).get_short_help_str(limit)) for n in names]
+        with formatter.section("Commands"):
+            formatter.write_dl(rows)
+
     def invoke(self, ctx: click.Context) -> object:
         try:
             return super().invoke(ctx)
@@ -43,11 +73,6 @@ def cli() -> None:
     Work on energized equipment only by qualified people, following local
     electrical codes; this tool informs, it does not replace protective devices.
     """
-
-
-for _name in COMMAND_MODULES:
-    _mod = importlib.import_module(f"waveforms.commands.{_name}")
-    cli.add_command(_mod.command)
 
 
 def main() -> None:

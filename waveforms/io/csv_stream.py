@@ -63,8 +63,8 @@ class _Grid:
     def __init__(self, path: Path, where: str, line0: int) -> None:
         self.path, self.where, self.line0 = path, where, line0
         self.dt = np.nan
-        self.sxy = 0.0
-        self.sxx = 0.0
+        self.offset = 0.0  # grid point 0 minus the first stamp [s]
+        self.sums = np.zeros(5)  # n, sum(i), sum(t), sum(i*i), sum(i*t) in float64
         self.last_t = np.nan
         self.last_idx = -1
         self.jitter_max = 0.0
@@ -79,7 +79,7 @@ class _Grid:
             if t.size < 2:
                 raise CaptureReadError(self.path, f"line {self._line(0)}", "only one data row; cannot find a sample rate")
             rep = timebase.analyse_stamps(t)
-            self.dt = 1.0 / rep.sample_rate_hz
+            self.dt, self.offset = 1.0 / rep.sample_rate_hz, rep.start_offset_s
         prev = np.concatenate(([self.last_t], t)) if np.isfinite(self.last_t) else t
         d = np.diff(prev)
         off = 1 if np.isfinite(self.last_t) else 0  # d[k] is the step into row (k + 1 - off)
@@ -91,9 +91,9 @@ class _Grid:
         if dup.size:
             r = row0 + int(dup[0]) + 1 - off
             raise CaptureReadError(self.path, f"line {self._line(r)}, {self.where}", f"time stamp repeats the one on line {self._line(r - 1)}")
-        idx = np.rint(t / self.dt).astype(np.int64)
+        idx = np.rint((t - self.offset) / self.dt).astype(np.int64)
         steps = np.diff(np.concatenate(([self.last_idx], idx)))
-        resid = np.abs(t - idx * self.dt)
+        resid = np.abs(t - self.offset - idx * self.dt)
         jit = float(resid.max())
         if np.any(steps <= 0) or jit > timebase.IRREGULAR_FRACTION * self.dt:
             raise CaptureReadError(
@@ -105,10 +105,13 @@ class _Grid:
         for k in np.flatnonzero(steps > 1):
             a = int(idx[k - 1] + 1) if k > 0 else self.last_idx + 1
             self.gaps.append((a, int(idx[k])))
-        self.sxy += float(np.dot(idx.astype(np.float64), t))
-        self.sxx += float(np.dot(idx.astype(np.float64), idx.astype(np.float64)))
-        if self.sxx > 0:
-            self.dt = self.sxy / self.sxx  # least-squares period through the origin (common practice, no source)
+        fi = idx.astype(np.float64)
+        self.sums += (fi.size, fi.sum(), t.sum(), np.dot(fi, fi), np.dot(fi, t))
+        n, si, st, sii, sit = self.sums
+        var = sii - si * si / n  # float64 sums: integer sum(i*i) overflows beyond ~3 M rows
+        if var > 0:  # least-squares line over (grid index, stamp), as timebase.analyse_stamps (common practice, no source)
+            self.dt = (sit - si * st / n) / var
+            self.offset = (st - self.dt * si) / n
         self.last_t, self.last_idx = float(t[-1]), int(idx[-1])
         return idx
 
