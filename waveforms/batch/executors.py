@@ -22,7 +22,8 @@ from ..recipe import Recipe
 from .task import CaptureTask, crash_entry, process_capture
 
 #: Top-level packages whose already-imported modules the fork server pre-imports.
-_PRELOAD_ROOTS = ("waveforms", "numpy", "scipy", "pandas", "pyarrow", "h5py", "matplotlib", "PIL", "jinja2", "tqdm")
+_PRELOAD_ROOTS = ("waveforms", "numpy", "scipy", "pandas", "pyarrow", "h5py", "matplotlib", "PIL", "jinja2", "tqdm",
+                  "threadpoolctl")
 
 
 def _warm_modules(recipe: Recipe) -> list[str]:
@@ -41,7 +42,7 @@ def _warm_modules(recipe: Recipe) -> list[str]:
         if lib:
             with contextlib.suppress(ImportError):
                 importlib.import_module(lib)
-    extras = ["waveforms.analysis", "waveforms.quality", "waveforms.motor.nameplate", "pyarrow.parquet"]
+    extras = ["waveforms.analysis", "waveforms.quality", "waveforms.motor.nameplate", "pyarrow.parquet", "threadpoolctl"]
     if "report" in recipe.stage_names:
         extras += ["waveforms.report.plots", "waveforms.report.html", "matplotlib.backends.backend_agg"]
     for extra in extras:
@@ -56,29 +57,55 @@ def _warm_modules(recipe: Recipe) -> list[str]:
     return names + ["waveforms._batch_warmup"]  # last: runs the chain once in the server
 
 
-#: Worker processes use one BLAS / OpenMP thread each: the parallelism is one
-#: capture per process (--jobs), and threaded BLAS in every process would
-#: oversubscribe the cores (common practice, no source).
-_WORKER_ENV = {"OMP_NUM_THREADS": "1", "OPENBLAS_NUM_THREADS": "1", "MKL_NUM_THREADS": "1"}
+#: Variables that set the thread count of BLAS / OpenMP; when the user set any
+#: of them, the workers keep what the libraries read from them.
+THREAD_VARIABLES = ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS")
+
+
+def worker_threads() -> int | None:
+    """BLAS / OpenMP threads per worker process: 1, or None (leave as is) when the user set a thread variable.
+
+    The parallelism is one capture per process (``--jobs``); threaded BLAS in
+    every process would oversubscribe the cores (common practice, no source).
+    """
+    return None if any(os.environ.get(k) for k in THREAD_VARIABLES) else 1
+
+
+def _init_worker(threads: int | None) -> None:
+    """Pool initializer: cap BLAS / OpenMP threads inside this worker (threadpoolctl), nothing else."""
+    if threads is not None:
+        from threadpoolctl import threadpool_limits
+
+        threadpool_limits(limits=threads)  # kept for the life of the worker
 
 
 def _mp_context(recipe: Recipe) -> multiprocessing.context.BaseContext:
-    """The "forkserver" context, its server started (once per process) warm and with one BLAS thread."""
-    import multiprocessing.forkserver as fs
-
+    """The "forkserver" context; its server (started once per process) pre-imports what the recipe needs."""
     ctx = multiprocessing.get_context("forkserver")
     ctx.set_forkserver_preload(_warm_modules(recipe))
-    saved = {k: os.environ.get(k) for k in _WORKER_ENV}
-    try:
-        for k, v in _WORKER_ENV.items():
-            if saved[k] is None:  # a value the user set is kept
-                os.environ[k] = v
-        fs.ensure_running()  # the server inherits this environment; ours is restored below
-    finally:
-        for k, v in saved.items():
-            if v is None:
-                os.environ.pop(k, None)
     return ctx
+
+
+class _Pool:
+    """A process pool and the worker processes it started (to end them on Ctrl-C)."""
+
+    def __init__(self, workers: int, recipe: Recipe, fresh_workers: bool) -> None:
+        self._before = set(multiprocessing.active_children())
+        self.executor = cf.ProcessPoolExecutor(max_workers=workers, mp_context=_mp_context(recipe),
+                                               initializer=_init_worker, initargs=(worker_threads(),),
+                                               max_tasks_per_child=1 if fresh_workers else None)
+
+    def kill(self) -> None:
+        """Stop now: cancel what is queued and end the running workers."""
+        # the pool's workers are children of this process started after the pool (multiprocessing.active_children)
+        procs = [p for p in multiprocessing.active_children() if p not in self._before]
+        self.executor.shutdown(wait=False, cancel_futures=True)
+        for p in procs:
+            with contextlib.suppress(Exception):
+                p.terminate()
+        for p in procs:
+            with contextlib.suppress(Exception):
+                p.join(timeout=5)
 
 
 def run_local(todo: Sequence[CaptureTask], jobs: int, collect: Callable[[dict[str, Any]], None], recipe: Recipe,
@@ -93,22 +120,20 @@ def run_local(todo: Sequence[CaptureTask], jobs: int, collect: Callable[[dict[st
         return
     queue: deque[CaptureTask] = deque(todo)
     suspects: deque[CaptureTask] = deque()
-    pool: cf.ProcessPoolExecutor | None = None
+    pool: _Pool | None = None
     inflight: dict[cf.Future[dict[str, Any]], tuple[CaptureTask, bool]] = {}
     try:
         while queue or suspects or inflight:
             if pool is None:
-                pool = cf.ProcessPoolExecutor(max_workers=min(jobs, len(queue) + len(suspects)) or 1,
-                                              mp_context=_mp_context(recipe),
-                                              max_tasks_per_child=1 if fresh_workers else None)
+                pool = _Pool(min(jobs, len(queue) + len(suspects)) or 1, recipe, fresh_workers)
             if suspects:
                 if not inflight:
                     t = suspects.popleft()
-                    inflight[pool.submit(process_capture, t)] = (t, True)
+                    inflight[pool.executor.submit(process_capture, t)] = (t, True)
             else:
                 while queue and len(inflight) < jobs:
                     t = queue.popleft()
-                    inflight[pool.submit(process_capture, t)] = (t, False)
+                    inflight[pool.executor.submit(process_capture, t)] = (t, False)
             finished, _ = cf.wait(list(inflight), return_when=cf.FIRST_COMPLETED)
             broken = False
             for fut in finished:
@@ -133,28 +158,16 @@ def run_local(todo: Sequence[CaptureTask], jobs: int, collect: Callable[[dict[st
                         collect(fut.result())
                     except Exception:
                         suspects.append(t)
-                pool.shutdown(wait=False, cancel_futures=True)
+                pool.executor.shutdown(wait=False, cancel_futures=True)
                 pool = None
     except BaseException:
         if pool is not None:
-            _kill_pool(pool)
+            pool.kill()
             pool = None
         raise
     finally:
         if pool is not None:
-            pool.shutdown(wait=True)
-
-
-def _kill_pool(pool: cf.ProcessPoolExecutor) -> None:
-    """Stop a pool now: cancel what is queued and end the running workers (Ctrl-C)."""
-    procs = list(getattr(pool, "_processes", {}).values())
-    pool.shutdown(wait=False, cancel_futures=True)
-    for p in procs:
-        with contextlib.suppress(Exception):
-            p.terminate()
-    for p in procs:
-        with contextlib.suppress(Exception):
-            p.join(timeout=5)
+            pool.executor.shutdown(wait=True)
 
 
 def run_dask(todo: Sequence[CaptureTask], scheduler: Any, collect: Callable[[dict[str, Any]], None]) -> None:
