@@ -26,6 +26,8 @@ One concept per module:
   captures whose entry exists (``force=True`` reruns them); an interrupted run
   (Ctrl-C, a killed worker, a killed main process) loses only the captures
   still in progress.  A lock file keeps one run per output folder.
+* `index_page`: ``index.html``, the sortable page over the summary (a jinja2
+  template beside the single-capture report's).
 * `runner`: `run`, `plan` and `run_one` tie these together.
 
 Captures and the output folder must be reachable from every worker under the
