@@ -54,7 +54,7 @@ def _warm_modules(recipe: Recipe) -> list[str]:
         detector_names()  # loads the built-in detector modules
     names = sorted(m for m in list(sys.modules) if m.split(".")[0] in _PRELOAD_ROOTS and "._" not in m
                    and not m.startswith(("numpy.tests", "scipy._lib.tests")))
-    return names + ["waveforms._batch_warmup"]  # last: runs the chain once in the server
+    return names
 
 
 #: Variables that set the thread count of BLAS / OpenMP; when the user set any
