@@ -328,3 +328,34 @@ def test_dry_run_lists_the_plan_and_writes_nothing(tmp_path):
         "north-yard/logger99.h5", "plan"] == "to run"
     res = CliRunner().invoke(cli, ["batch", str(tmp_path / "in"), "--out", str(out), "--recipe", str(rec), "--dry-run"])
     assert res.exit_code == 0 and "done: skipped" in res.output and "north-yard/logger99.h5" in res.output
+
+
+def _worker_report() -> dict:
+    import threadpoolctl
+
+    return {"blas": [p["num_threads"] for p in threadpoolctl.threadpool_info() if p["user_api"] == "blas"],
+            "env": {k: os.environ.get(k) for k in batch.executors.THREAD_VARIABLES}}
+
+
+def test_workers_run_one_blas_thread_without_touching_the_environment(monkeypatch):
+    """The pool initializer caps BLAS threads in the worker; os.environ of this process is left alone.
+
+    threadpoolctl (PyPI) reads the thread count back from the loaded BLAS library; no external source for the policy.
+    """
+    import threadpoolctl
+
+    for k in batch.executors.THREAD_VARIABLES:
+        monkeypatch.delenv(k, raising=False)
+    here = [p["num_threads"] for p in threadpoolctl.threadpool_info() if p["user_api"] == "blas"]
+    assert here, "numpy's BLAS is loaded"
+    if max(here) < 2:
+        pytest.skip("BLAS runs one thread here anyway (one core): the cap cannot be seen")
+    before = dict(os.environ)
+    pool = batch.executors._Pool(1, batch.runner.load_recipe(None), fresh_workers=True)
+    try:
+        seen = pool.executor.submit(_worker_report).result(timeout=120)
+    finally:
+        pool.executor.shutdown(wait=True)
+    assert seen["blas"] and set(seen["blas"]) == {1}
+    assert seen["env"] == {k: None for k in batch.executors.THREAD_VARIABLES}  # not passed through the environment
+    assert dict(os.environ) == before

@@ -1,4 +1,4 @@
-"""The archive summary: one row per capture, as CSV, Parquet and a sortable HTML index.
+"""The archive summary: one row per capture, as CSV, Parquet and a sortable HTML index (waveforms.batch.index_page).
 
 A row says where the capture came from (file, site), when it starts and how
 long it is, the verdict, how many events of each kind were found and when the
@@ -14,14 +14,10 @@ a fixed column order; `write_summary` writes the three files atomically.
 
 from __future__ import annotations
 
-import base64
 import dataclasses
-import hashlib
-import html
 import io
 import math
 import os
-import urllib.parse
 from collections.abc import Iterable, Mapping, Sequence
 from pathlib import Path
 from typing import Any
@@ -228,118 +224,8 @@ def write_summary(frame: pd.DataFrame, out_dir: str | os.PathLike[str], title: s
     return paths
 
 
-def _fmt(value: Any, col: str) -> str:
-    if value is None or value is pd.NA or (isinstance(value, float) and not math.isfinite(value)):
-        return ""
-    if col in _FLOAT_COLS:
-        return f"{float(value):.3f}" if col.endswith("_s") else f"{float(value):.2f}"
-    return str(value)
-
-
-_SHOWN = ["file", "site", "verdict", "start", "duration_s", "max_current_x_fla", "worst_i2_i1_pct",
-          "thermal_capacity_used_pct"] + _EVENT_COLS + ["nameplate", "error"]
-
-_CSS = """
-body{font-family:"DejaVu Sans",Verdana,sans-serif;margin:1.5em;color:#1b1b1b;background:#f4f4ef}
-h1{font-size:22px;color:#12344d;border-bottom:3px solid #0072b2;padding-bottom:6px}
-table{border-collapse:collapse;font-size:13px;background:#fff}
-th,td{border:1px solid #c9c9c9;padding:3px 6px;text-align:left;vertical-align:top}
-th{background:#e8eef2;cursor:pointer;position:sticky;top:0;font-weight:600}
-th small{display:block;font-weight:400;color:#555}
-td.n{text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap}
-td.t{white-space:nowrap}
-tr[data-verdict*="open phase"] td.v,tr[data-verdict*="stall"] td.v{background:#fbe3cf;font-weight:600}
-tr[data-verdict="dip"] td.v,tr[data-verdict*="interruption"] td.v,tr[data-verdict*="unbalance"] td.v{background:#fdf3d0}
-tr.error td{background:#fbeaea}
-tbody tr:hover td{outline:1px solid #0072b2}
-.caution{font-size:12px;color:#555;max-width:60em}
-"""
-
-#: Column headings shown above the machine names (the names stay as in summary.csv).
-_LABELS = {
-    "duration_s": "duration [s]", "max_current_x_fla": "max current / FLA", "worst_i2_i1_pct": "worst I2/I1 [%]",
-    "thermal_capacity_used_pct": "thermal capacity used [%]", "start": "start (local)",
-}
-
-# Our own few lines: sort on a header click (numbers numerically, blanks last), filter by verdict and text.
-# The page address may carry a view: index.html#sort=-max_current_x_fla&verdict=open%20phase
-_JS = """
-(function(){
-var tbody=document.getElementById('rows'), sel=document.getElementById('verdict'), txt=document.getElementById('text');
-var heads=Array.prototype.slice.call(document.querySelectorAll('th[data-col]'));
-function key(td){var v=td.getAttribute('data-v');if(v===null||v==='')return null;var x=Number(v);return isNaN(x)?v.toLowerCase():x;}
-function sortBy(i,up){
- var rows=Array.prototype.slice.call(tbody.rows);
- rows.sort(function(a,b){var x=key(a.cells[i]),y=key(b.cells[i]);
-  if(x===null&&y===null)return 0;if(x===null)return 1;if(y===null)return -1;
-  if(typeof x!==typeof y){x=String(x);y=String(y);}return x<y?-up:x>y?up:0;});
- rows.forEach(function(r){tbody.appendChild(r);});
- heads.forEach(function(th){th.removeAttribute('aria-sort');});
- heads[i].setAttribute('aria-sort',up>0?'ascending':'descending');}
-heads.forEach(function(th){th.addEventListener('click',function(){
- var i=Number(th.getAttribute('data-col'));sortBy(i,th.getAttribute('aria-sort')==='ascending'?-1:1);});});
-function filt(){var v=sel.value,t=txt.value.toLowerCase(),n=0;
- Array.prototype.forEach.call(tbody.rows,function(r){
-  var ok=(v===''||r.getAttribute('data-verdict')===v)&&(t===''||r.textContent.toLowerCase().indexOf(t)>=0);
-  r.style.display=ok?'':'none';if(ok)n++;});
- document.getElementById('count').textContent=n;}
-sel.addEventListener('change',filt);txt.addEventListener('input',filt);
-location.hash.slice(1).split('&').forEach(function(kv){
- var j=kv.indexOf('=');if(j<0)return;var k=kv.slice(0,j),v=decodeURIComponent(kv.slice(j+1));
- if(k==='verdict'){for(var o=0;o<sel.options.length;o++){if(sel.options[o].value===v)sel.value=v;}}
- if(k==='sort'){var up=v.charAt(0)==='-'?-1:1,name=up<0?v.slice(1):v;
-  heads.forEach(function(th,i){if(th.getAttribute('data-name')===name)sortBy(i,up);});}});
-filt();
-})();
-"""
-_CSP = ("default-src 'none'; style-src 'unsafe-inline'; img-src data:; "
-        f"script-src 'sha256-{base64.b64encode(hashlib.sha256(_JS.encode()).digest()).decode()}'")
-
-
 def index_html(frame: pd.DataFrame, title: str = "Capture summary") -> str:
-    """A self-contained HTML table of the summary: sortable columns, a verdict filter, links to reports.
+    """The ``index.html`` page of the summary (built by `waveforms.batch.index_page.index_html`)."""
+    from .batch.index_page import index_html as page  # here, not at the top: waveforms.batch imports this module
 
-    Every file name, site, verdict and error text is HTML-escaped; links are
-    URL-quoted relative paths.
-    """
-    esc = html.escape
-    verdicts = sorted({str(v) for v in frame["verdict"]})
-    opts = "".join(f'<option value="{esc(v)}">{esc(v or "(none)")}</option>' for v in verdicts)
-    def heading(c: str) -> str:
-        label = _LABELS.get(c, c.replace("_", " "))
-        return esc(label) + (f"<small>{esc(c)}</small>" if label != c else "")
-
-    head = "".join(
-        f'<th data-col="{i}" data-name="{esc(c)}" title="click to sort">{heading(c)}</th>' for i, c in enumerate(_SHOWN)
-    )
-    body = []
-    for rec in frame.to_dict("records"):
-        cells = []
-        for c in _SHOWN:
-            val = rec.get(c)
-            shown = _fmt(val, c)
-            num = c in _FLOAT_COLS or c in _INT_COLS
-            sort_v = shown if not num else ("" if shown == "" else repr(float(val)))
-            inner = esc(shown)
-            if c == "file" and rec.get("report"):
-                href = urllib.parse.quote(str(rec["report"]), safe="/")
-                inner = f'<a href="{esc(href, quote=True)}">{inner}</a>'
-            css = "n" if num else {"verdict": "v", "start": "t"}.get(c, "")
-            cells.append(f'<td{f" class={css}" if css else ""} data-v="{esc(sort_v, quote=True)}">{inner}</td>')
-        cls = ' class="error"' if rec.get("status") == "error" else ""
-        body.append(f'<tr{cls} data-verdict="{esc(str(rec.get("verdict", "")), quote=True)}">{"".join(cells)}</tr>')
-    n_err = int((frame["status"] == "error").sum()) if len(frame) else 0
-    return (
-        "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
-        f'<meta http-equiv="Content-Security-Policy" content="{_CSP}">'
-        f"<title>{esc(title)}</title><style>{_CSS}</style></head><body>\n"
-        f"<h1>{esc(title)}</h1>\n"
-        f"<p>{len(frame)} captures, {n_err} could not be analysed. Showing <span id=\"count\">{len(frame)}</span>.</p>\n"
-        f'<p><label>verdict <select id="verdict"><option value="">all</option>{opts}</select></label> '
-        '<label>contains <input id="text" type="search"></label></p>\n'
-        f"<table><thead><tr>{head}</tr></thead><tbody id=\"rows\">\n" + "\n".join(body) + "\n</tbody></table>\n"
-        '<p class="caution">Times are seconds from each capture\'s start. This summary informs an investigation; '
-        "it does not replace protective devices. Work on energized equipment only by qualified people, "
-        "following local electrical codes and licensed practice.</p>\n"
-        f"<script>{_JS}</script>\n</body></html>\n"
-    )
+    return page(frame, title)

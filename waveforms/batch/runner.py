@@ -1,0 +1,310 @@
+"""`run` and `plan` over an archive, and `run_one` for a notebook: discovery, plan, executor, summary."""
+
+from __future__ import annotations
+
+import dataclasses
+import json
+import os
+import sys
+from collections.abc import Callable, Sequence
+from pathlib import Path
+from typing import Any
+
+import pandas as pd
+
+from ..atomic import write_text
+from ..errors import InvalidParameterError
+from ..recipe import Recipe, RunState, load_recipe, run_recipe
+from ..summary import events_frame, summary_frame, summary_row, write_summary
+from .executors import run_dask, run_local
+from .inputs import InputFile, discover, hash_all
+from .manifest import output_lock, read_manifest, write_entry
+from .motors import MotorMap, motor_map, plate_digest
+from .task import CaptureTask, capture_folder
+
+CAPTURES_FOLDER = "captures"
+
+
+@dataclasses.dataclass
+class BatchResult:
+    """Outcome of `run`.
+
+    Attributes
+    ----------
+    summary : DataFrame
+        One row per capture (`waveforms.summary.SUMMARY_COLUMNS`), in input order.
+    events : DataFrame
+        Every event: ``file``, ``site``, then the event columns.
+    n_done, n_skipped, n_failed : int
+        Analysed in this run, taken from the manifest, with an error row.
+    interrupted : bool
+        True when the run was stopped (Ctrl-C) before every capture was done.
+    out : Path or None
+    files : dict
+        ``summary.csv``, ``summary.parquet``, ``index.html`` paths when written.
+    """
+
+    summary: pd.DataFrame
+    events: pd.DataFrame
+    n_done: int = 0
+    n_skipped: int = 0
+    n_failed: int = 0
+    interrupted: bool = False
+    out: Path | None = None
+    files: dict[str, Path] = dataclasses.field(default_factory=dict)
+
+    @property
+    def ok(self) -> bool:
+        return self.n_failed == 0 and not self.interrupted
+
+    def cycles(self, file: str) -> pd.DataFrame:
+        """The per-cycle table of one capture (by its ``file`` name), read from its output folder.
+
+        Needs an output folder and a recipe whose report stage writes the table
+        (``cycles = "parquet"`` or ``"csv"``, the shipped recipes do).
+        """
+        rows = self.summary[self.summary["file"] == file]
+        if rows.empty:
+            raise InvalidParameterError(f"{file!r} is not a capture of this run")
+        if self.out is None or not rows["outputs"].iloc[0]:
+            raise InvalidParameterError(f"{file!r}: no output folder, so no cycle table was kept")
+        folder = self.out / rows["outputs"].iloc[0]
+        for name, reader in (("cycles.parquet", pd.read_parquet), ("cycles.csv", pd.read_csv)):
+            if (folder / name).is_file():
+                return reader(folder / name)
+        raise InvalidParameterError(f"{file!r}: the recipe wrote no cycle table (report.cycles = 'none'?)")
+
+
+def _resolve(inputs: Any, recipe: Any, motor: Any, motors: Any, out: Any) -> tuple[Any, list[Any], Any, Path | None, list[Any]]:
+    """Recipe, input list, nameplate map, output folder and discovered captures, shared by `run` and `plan`."""
+    rec = load_recipe(recipe)
+    if isinstance(inputs, (str, os.PathLike)):
+        inputs = [inputs]
+    mmap = motor_map(motor, motors)
+    out_path = None if out is None else Path(out)
+    files = discover(inputs, exclude=[out_path] if out_path is not None else [])
+    return rec, inputs, mmap, out_path, files
+
+
+def run(
+    inputs: Sequence[str | os.PathLike[str]] | str | os.PathLike[str],
+    recipe: Recipe | str | os.PathLike[str] | None = None,
+    out: str | os.PathLike[str] | None = None,
+    jobs: int | None = None,
+    motor: str | os.PathLike[str] | None = None,
+    motors: str | os.PathLike[str] | None = None,
+    force: bool = False,
+    retry_errors: bool = False,
+    scheduler: Any = None,
+    progress: bool = False,
+    on_result: Callable[[dict[str, Any]], None] | None = None,
+    fresh_workers: bool = True,
+) -> BatchResult:
+    """Run a recipe over an archive of captures.
+
+    Parameters
+    ----------
+    inputs : path, glob, fsspec URL, or a list of them
+    recipe : Recipe, shipped name, file or None (default recipe)
+    out : path-like, optional
+        Output folder: per-capture outputs in ``captures/``, the manifest, the
+        summary files.  Without one nothing is written and nothing resumes.
+    jobs : int, optional
+        Worker processes; default the recipe's ``batch.jobs``, 0 = CPU count.
+    motor : path-like, optional
+        One nameplate TOML for every capture.
+    motors : path-like, optional
+        A mapping of sites / name patterns to nameplates (`MotorMap`).
+    force : bool
+        Rerun captures already in the manifest.
+    retry_errors : bool
+        Rerun captures whose manifest entry is an error row.
+    scheduler : str or distributed.Client, optional
+        Dask scheduler address (or a client); default the recipe's
+        ``batch.scheduler``; empty = local worker processes.
+    progress : bool
+        Show a progress bar on stderr.
+    on_result : callable, optional
+        Called in the main process with each new entry (after it is saved).
+    fresh_workers : bool
+        Local runs: a fresh worker process for every capture (nothing carries
+        over from one capture to the next).  False reuses each worker for many
+        captures: faster (no fork per capture), less isolated.
+
+    Returns
+    -------
+    BatchResult
+    """
+    rec, inputs, mmap, out_path, files = _resolve(inputs, recipe, motor, motors, out)
+    if not files:
+        raise InvalidParameterError(f"no capture files found in {[os.fspath(i) for i in inputs]}")
+    n_jobs = rec.batch.get("jobs", 0) if jobs is None else int(jobs)
+    if n_jobs < 0:
+        raise InvalidParameterError(f"jobs={n_jobs} must be 0 (one per core) or more")
+    n_jobs = n_jobs or (os.cpu_count() or 1)
+    sched = rec.batch.get("scheduler", "") if scheduler is None else scheduler
+
+    if out_path is not None:
+        out_path.mkdir(parents=True, exist_ok=True)
+    with output_lock(out_path):
+        done = read_manifest(out_path) if out_path is not None else {}
+        tasks, todo, _states = _plan(files, rec, mmap, out_path, done, force, retry_errors, n_jobs)
+        keys = [t.key for t in tasks]
+        fp = rec.fingerprint()
+        n_skipped = len({t.key for t in tasks} - {t.key for t in todo})
+        new: dict[str, dict[str, Any]] = {}
+
+        bar = _progress(len(todo), progress)
+        n_failed_new = 0
+
+        def collect(entry: dict[str, Any]) -> None:
+            nonlocal n_failed_new
+            if out_path is not None:
+                write_entry(out_path, entry)
+            new[entry["key"]] = entry
+            if entry["row"].get("status") == "error":
+                n_failed_new += 1
+            if bar is not None:
+                bar.update(1)
+                bar.set_postfix(failed=n_failed_new, refresh=False)
+            if on_result is not None:
+                on_result(entry)
+
+        interrupted = False
+        try:
+            if sched:
+                run_dask(todo, sched, collect)
+            else:
+                run_local(todo, n_jobs, collect, rec, fresh_workers)
+        except KeyboardInterrupt:
+            interrupted = True
+        finally:
+            if bar is not None:
+                bar.close()
+
+        entries = {**done, **new}
+        rows, ev_frames = [], []
+        for t, key in zip(tasks, keys, strict=True):
+            e = entries.get(key)
+            if e is None:
+                continue  # not finished (interrupted)
+            row = dict(e["row"])
+            row.update(file=t.input.name, site=t.input.site, path=t.input.path)
+            rows.append(row)
+            if e.get("events"):
+                fr = pd.DataFrame.from_records(e["events"])
+                fr.insert(0, "site", t.input.site)
+                fr.insert(0, "file", t.input.name)
+                ev_frames.append(fr)
+        summary = summary_frame(rows)
+        events = pd.concat(ev_frames, ignore_index=True) if ev_frames else _empty_events()
+        written: dict[str, Path] = {}
+        if out_path is not None:
+            written = write_summary(summary, out_path, title=f"Capture summary: recipe {rec.name}")
+            index = {"format": "motor-waveforms batch manifest", "recipe": rec.name, "recipe_fingerprint": fp,
+                     "recipe_source": rec.source, "complete": not interrupted,
+                     "captures": [{"file": t.input.name, "path": t.input.path, "key": k, "done": k in entries}
+                                  for t, k in zip(tasks, keys, strict=True)]}
+            write_text(out_path / "manifest.json", json.dumps(index, indent=1))
+        n_failed = int((summary["status"] == "error").sum()) if len(summary) else 0
+        return BatchResult(summary=summary, events=events, n_done=len(new), n_skipped=n_skipped, n_failed=n_failed,
+                           interrupted=interrupted, out=out_path, files=written)
+
+
+def _plan(files: Sequence[InputFile], rec: Recipe, mmap: MotorMap, out_path: Path | None,
+          done: dict[str, dict[str, Any]], force: bool, retry_errors: bool, n_jobs: int,
+          ) -> tuple[list[CaptureTask], list[CaptureTask], list[str]]:
+    """Every capture's task, the tasks to run, and what will happen to each capture."""
+    hashes = hash_all([f.path for f in files], n_jobs)
+    fp = rec.fingerprint()
+    tasks: list[CaptureTask] = []
+    todo: list[CaptureTask] = []
+    states: list[str] = []
+    seen: set[str] = set()
+    for f, sha in zip(files, hashes, strict=True):
+        plate, plate_src = mmap.for_input(f)
+        key = f"{sha[:32]}-{fp[:12]}-{plate_digest(plate)[:8]}"
+        cap_dir = None if out_path is None else str(out_path / CAPTURES_FOLDER / capture_folder(f, sha))
+        t = CaptureTask(input=f, sha256=sha, key=key, recipe=rec, nameplate=None if plate is None else plate.to_dict(),
+                        nameplate_source=plate_src, out_dir=cap_dir, out_root=None if out_path is None else str(out_path))
+        tasks.append(t)
+        prior = done.get(key)
+        failed = prior is not None and prior["row"].get("status") == "error"
+        fresh = prior is None or force or prior.get("retry", False) or (retry_errors and failed)
+        if key in seen:
+            states.append("same content as an earlier file: analysed once")
+        elif fresh:
+            todo.append(t)
+            seen.add(key)
+            states.append("to run")
+        else:
+            states.append("failed before: skipped (--retry-errors reruns it)" if failed else "done: skipped")
+    return tasks, todo, states
+
+
+def plan(
+    inputs: Sequence[str | os.PathLike[str]] | str | os.PathLike[str],
+    recipe: Recipe | str | os.PathLike[str] | None = None,
+    out: str | os.PathLike[str] | None = None,
+    motor: str | os.PathLike[str] | None = None,
+    motors: str | os.PathLike[str] | None = None,
+    force: bool = False,
+    retry_errors: bool = False,
+) -> pd.DataFrame:
+    """What `run` would do, without doing it: one row per capture (``file``, ``site``, ``path``,
+    ``sha256``, ``nameplate``, ``plan``).  Nothing is written."""
+    rec, inputs, mmap, out_path, files = _resolve(inputs, recipe, motor, motors, out)
+    done = read_manifest(out_path) if out_path is not None else {}
+    tasks, _todo, states = _plan(files, rec, mmap, out_path, done, force, retry_errors, os.cpu_count() or 1)
+    return pd.DataFrame({
+        "file": [t.input.name for t in tasks], "site": [t.input.site for t in tasks],
+        "path": [t.input.path for t in tasks], "sha256": [t.sha256 for t in tasks],
+        "nameplate": [t.nameplate_source for t in tasks], "plan": states,
+    })
+
+
+def _empty_events() -> pd.DataFrame:
+    fr = events_frame([])
+    fr.insert(0, "site", pd.Series(dtype=object))
+    fr.insert(0, "file", pd.Series(dtype=object))
+    return fr
+
+
+def _progress(total: int, enabled: bool) -> Any:
+    if not enabled:
+        return None
+    from tqdm import tqdm
+
+    return tqdm(total=total, desc="captures", unit="file", file=sys.stderr, dynamic_ncols=True,
+                postfix={"failed": 0}, smoothing=0.1)
+
+
+@dataclasses.dataclass
+class CaptureResult:
+    """Pandas views of one capture's run (see `run_one`)."""
+
+    summary: pd.Series
+    events: pd.DataFrame
+    cycles: pd.DataFrame | None
+    speed: pd.DataFrame | None
+    state: RunState
+
+
+def run_one(
+    capture: Any,
+    recipe: Recipe | str | os.PathLike[str] | None = None,
+    nameplate: Any = None,
+    out_dir: str | os.PathLike[str] | None = None,
+) -> CaptureResult:
+    """Run a recipe on one capture in this process and return pandas objects.
+
+    Errors are raised (not turned into rows) so a notebook shows them.
+    """
+    state = run_recipe(recipe, capture, nameplate=nameplate, out_dir=out_dir)
+    name = Path(state.source).name
+    rec = load_recipe(recipe)
+    row = summary_row(state, name, Path(state.source).resolve().parent.name if "://" not in state.source else "",
+                      {"path": state.source, "recipe": rec.name, "recipe_hash": rec.fingerprint()[:16],
+                       "report": state.outputs.get("html", ""), "sha256": getattr(state.capture.provenance, "sha256", "")})
+    return CaptureResult(summary=summary_frame([row]).iloc[0], events=state.events_frame(), cycles=state.cycles,
+                         speed=state.speed, state=state)
