@@ -28,14 +28,13 @@ import math
 
 import numpy as np
 
+from ..measure.sequence import A as _A  # the operator a = 1 /120 deg (Fortescue 1918)
 from .context import LINES, DetectionInput, runs, speed_summary
 from .event import Event
 from .pointonwave import refine_onset_s
 from .registry import register
 
-_A = cmath.exp(2j * math.pi / 3)  # the operator a = 1 /120 deg (Fortescue 1918)
 _NEXT = {"A": "B", "B": "C", "C": "A"}
-_PREV = {"A": "C", "B": "A", "C": "B"}
 
 
 def _ratio_series(inp: DetectionInput, line: str) -> tuple[np.ndarray, complex] | None:

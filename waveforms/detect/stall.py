@@ -23,6 +23,7 @@ import math
 
 import numpy as np
 
+from ..measure.sequence import sequence_components
 from .context import LINES, DetectionInput, runs, speed_summary
 from .pointonwave import refine_onset_s
 from .event import Event
@@ -48,9 +49,6 @@ def runs_on_after(inp: DetectionInput, b: int, cycles: int = 5) -> bool:
     if b >= inp.n:
         return False
     return bool(inp.energised[b : b + cycles].all())
-
-
-_A = complex(-0.5, math.sqrt(3.0) / 2.0)  # the operator a = 1 /120 deg (Fortescue 1918)
 
 
 def apparent_impedance(inp: DetectionInput, a: int, b: int) -> np.ndarray | None:
@@ -83,8 +81,7 @@ def apparent_impedance(inp: DetectionInput, a: int, b: int) -> np.ndarray | None
         v1 = inp.col("V1")
         if v1 is None:
             return None
-        # Fortescue (1918): I1 = (Ia + a Ib + a^2 Ic) / 3
-        i1 = (ph_i["A"] + _A * ph_i["B"] + _A * _A * ph_i["C"]) / 3.0
+        _, i1, _ = sequence_components(ph_i["A"], ph_i["B"], ph_i["C"])  # Fortescue (1918): I1 = (Ia + a Ib + a^2 Ic) / 3
         return (v1 / i1)[a:b]
 
 
