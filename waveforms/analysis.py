@@ -24,6 +24,7 @@ import pandas as pd
 
 from .capture import Capture
 from .detect import DetectionInput, DetectParams, Event, run_detectors
+from .detect.event import iso_at
 from .errors import InvalidParameterError, WaveformsError
 from .motor.nameplate import Nameplate
 from .motor.thermal import ThermalParams, ThermalResult, assess_thermal
@@ -98,13 +99,6 @@ class AnalysisResult:
 
     def events_of(self, kind: str) -> list[Event]:
         return [e for e in self.events if e.kind == kind]
-
-
-def iso_at(start: _dt.datetime, t_s: float | None) -> str | None:
-    """``start + t_s`` as ISO 8601 with microseconds and UTC offset (None for None)."""
-    if t_s is None or not math.isfinite(t_s):
-        return None
-    return (start + _dt.timedelta(seconds=float(t_s))).isoformat(timespec="microseconds")
 
 
 def locked_rotor_a(plate: Nameplate | None) -> float | None:

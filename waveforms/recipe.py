@@ -183,10 +183,10 @@ class RunState:
         return None if self.measurements is None else self.measurements.cycles
 
     def events_frame(self) -> Any:
-        """Events as a DataFrame: kind, phase, start_s, end_s and their supporting figures."""
-        from .summary import events_frame
+        """The events table (`waveforms.detect.event.EVENT_COLUMNS`, as events.csv)."""
+        from .detect.event import events_frame
 
-        return events_frame(self.events)
+        return events_frame(self.events, None if self.capture is None else self.capture.start_time)
 
 
 StageFunc = Callable[[RunState, dict[str, Any]], None]
