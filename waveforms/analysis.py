@@ -23,7 +23,7 @@ import numpy as np
 import pandas as pd
 
 from .capture import Capture
-from .detect import DetectionInput, DetectParams, Event, run_detectors
+from .detect import DetectionInput, DetectParams, Event, detect
 from .detect.event import iso_at
 from .errors import InvalidParameterError, WaveformsError
 from .motor.nameplate import Nameplate
@@ -386,8 +386,9 @@ def detect_events(
         ``states`` as `motor_states`, ``timeline`` as `merge_periods`.
     """
     inp = detection_input(capture, measurements, speed, nameplate, params or DetectParams())
-    events = run_detectors(inp, only=only)
-    notes = [f"detect: {n}" for n in dict.fromkeys(inp.notes)]
+    found = detect(inp, only=only)
+    events = found.events
+    notes = [f"detect: {n}" for n in found.notes]
     states = motor_states(inp, events)
     return events, states, merge_periods(states), notes
 

@@ -3,7 +3,9 @@
 `DetectionInput` gathers the measurement tables, the speed track, the
 nameplate, the declared voltage and the thresholds (`DetectParams`), and
 computes once the per-cycle arrays several detectors share: line-current
-magnitudes, "energised", "dead line" and the supply-voltage ratio.
+magnitudes, "energised", "dead line" and the supply-voltage ratio.  It is
+read-only for the detectors: derived values are cached, nothing is appended,
+and a detector says what it assumed in its own notes (`reference_notes`).
 """
 
 from __future__ import annotations
@@ -118,10 +120,6 @@ class DetectionInput:
         Conductor -> channel label (``{"A": "Va", ...}``, ``{"A": "Ia", ...}``).
     voltage_reference : {"LN", "LL", None}
     params : DetectParams
-    events : list of Event
-        Filled as the detectors run.
-    notes : list of str
-        What a detector could not do or assumed.
     """
 
     cycles: pd.DataFrame
@@ -135,8 +133,6 @@ class DetectionInput:
     current_channels: dict[str, str] = dataclasses.field(default_factory=dict)
     voltage_reference: str | None = None
     params: DetectParams = dataclasses.field(default_factory=DetectParams)
-    events: list = dataclasses.field(default_factory=list)
-    notes: list[str] = dataclasses.field(default_factory=list)
 
     def __post_init__(self) -> None:
         if "t_s" not in self.cycles:
@@ -220,22 +216,36 @@ class DetectionInput:
 
     @functools.cached_property
     def current_ref_a(self) -> float:
-        """FLA, or (no nameplate) the median largest line current over cycles carrying current."""
+        """FLA, or (no nameplate) the median largest line current over cycles carrying current [A]."""
         if self.fla_a:
             return float(self.fla_a)
         m = self.i_max[np.isfinite(self.i_max)]
         if m.size == 0:
             return math.nan
         on = m[m > 0.05 * np.max(m)]
-        self.notes.append("no nameplate FLA: current thresholds scaled to the capture's median running current")
         return float(np.median(on)) if on.size else math.nan
 
     @functools.cached_property
     def locked_rotor_ref_a(self) -> float:
+        """The locked-rotor current, or (none given) 6 x `current_ref_a` [A]."""
         if self.locked_rotor_a:
             return float(self.locked_rotor_a)
-        self.notes.append("no locked-rotor current: 6 x the reference current assumed")
         return 6.0 * self.current_ref_a
+
+    def reference_notes(self, locked_rotor: bool = False) -> tuple[str, ...]:
+        """What `current_ref_a` (and, with ``locked_rotor``, `locked_rotor_ref_a`) assumed.
+
+        For the notes of a detector using them; empty without line currents
+        (nothing is scaled then) and for figures the nameplate gives.
+        """
+        if not np.isfinite(self.i_max).any():
+            return ()
+        out = []
+        if locked_rotor and not self.locked_rotor_a:
+            out.append("no locked-rotor current: 6 x the reference current assumed")
+        if not self.fla_a:
+            out.append("no nameplate FLA: current thresholds scaled to the capture's median running current")
+        return tuple(out)
 
     @functools.cached_property
     def energised(self) -> np.ndarray:

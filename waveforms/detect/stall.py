@@ -27,7 +27,7 @@ from ..measure.sequence import sequence_components
 from .context import LINES, DetectionInput, runs, speed_summary
 from .pointonwave import refine_onset_s
 from .event import Event
-from .registry import register
+from .registry import Findings, register
 
 
 def high_current_mask(inp: DetectionInput) -> tuple[np.ndarray, np.ndarray]:
@@ -126,11 +126,11 @@ def _dip_just_before(inp: DetectionInput, a: int) -> bool:
 
 
 @register("stall")
-def detect_stall(inp: DetectionInput) -> list[Event]:
+def detect_stall(inp: DetectionInput, prior: dict) -> Findings:
     """Stalls (locked rotor) on a healthy or single-phased supply."""
+    notes = inp.reference_notes(locked_rotor=True)
     if not np.isfinite(inp.i_max).any() or not np.isfinite(inp.locked_rotor_ref_a):
-        inp.notes.append("no line currents: stall not assessed")
-        return []
+        return Findings(notes=(*notes, "no line currents: stall not assessed"))
     p = inp.params
     high, thr = high_current_mask(inp)
     out: list[Event] = []
@@ -189,4 +189,4 @@ def detect_stall(inp: DetectionInput) -> list[Event]:
                      f"({100 * figs['i_over_locked_rotor']:.0f} % of locked-rotor current) for {dur_txt}"),
             figures=figs,
         ))
-    return out
+    return Findings(tuple(out), notes)
