@@ -16,13 +16,15 @@ which parameters::
     scheduler = ""       # Dask scheduler address; "" = local worker processes
 
 The *stage registry* in this module is the one place that lists the stage
-names, their parameters (type, default, meaning) and which earlier stages each
-needs; validation, ``motor-waveforms recipes`` and docs/batch.md read it.  Each stage
-turns its recipe table into arguments and calls the public library function
-that owns the work (`waveforms.io.read_capture`; the step functions of
-`waveforms.analysis`: `measure_capture`, `estimate_speed`, `detect_events`,
-`assess_motor_thermal`, `build_result`; `waveforms.report.write_report`).  A
-stage holds no rule of its own: the same functions make `waveforms.analysis.analyze`.
+names, their settings dataclasses (whose fields give each key's type, default,
+meaning and bounds, checked in ``__post_init__``; `waveforms.settings`) and
+which earlier stages each needs; validation, ``motor-waveforms recipes`` and
+docs/batch.md read it.  Each stage turns its recipe table into arguments and
+calls the public library function that owns the work (`waveforms.io.read_capture`;
+the step functions of `waveforms.analysis`: `measure_capture`, `estimate_speed`,
+`detect_events`, `assess_motor_thermal`, `build_result`;
+`waveforms.report.write_report`).  `run_recipe` is the one runner of the
+chain: `waveforms.analysis.analyze` is a thin call of the default recipe.
 
 The recipes shipped with the package live in ``waveforms/pipelines_data/``
 (``pipelines/`` at the top of the repository holds the same files).
