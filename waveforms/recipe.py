@@ -40,7 +40,6 @@ import hashlib
 import importlib
 import json
 import os
-import re
 import time
 import tomllib
 from collections.abc import Callable, Mapping, Sequence
