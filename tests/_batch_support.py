@@ -8,6 +8,7 @@ recipe's ``plugins`` list.
 
 from __future__ import annotations
 
+import dataclasses
 import datetime as dt
 import os
 import signal
@@ -18,7 +19,8 @@ import numpy as np
 
 from waveforms.capture import from_arrays, standard_channels
 from waveforms.io.hdf5_native import write_native
-from waveforms.recipe import Param, Stage, get_stage, register_stage
+from waveforms.recipe import Stage, get_stage, register_stage
+from waveforms.settings import check_fields, setting
 
 FS_HZ = 6400.0  # 128 samples per 50 Hz cycle
 F_HZ = 50.0
@@ -89,21 +91,37 @@ def _die(state, params) -> None:
         os.kill(os.getpid(), signal.SIGKILL)
 
 
+@dataclasses.dataclass(frozen=True)
+class WaitSettings:
+    """Test only: the ``wait`` stage's keys."""
+
+    seconds: float = setting(0.0, "sleep [s]", minimum=0.0, forward=False)
+    only_if_name_contains: str = setting("", "sleep only for these files", forward=False)
+    while_file_exists: str = setting("", "stop sleeping when this file is gone", forward=False)
+
+    def __post_init__(self) -> None:
+        check_fields(self)
+
+
+@dataclasses.dataclass(frozen=True)
+class DieSettings:
+    """Test only: the ``die`` stage's keys."""
+
+    only_if_name_contains: str = setting("", "kill the worker on these files", forward=False)
+
+    def __post_init__(self) -> None:
+        check_fields(self)
+
+
 def _register() -> None:
     try:
         get_stage("wait")
     except Exception:
-        register_stage(Stage("wait", "test only: sleep", _wait, params=(
-            Param("seconds", "float", 0.0, "sleep [s]", minimum=0.0, kwarg=""),
-            Param("only_if_name_contains", "str", "", "sleep only for these files", kwarg=""),
-            Param("while_file_exists", "str", "", "stop sleeping when this file is gone", kwarg=""),
-        ), needs=("import",)))
+        register_stage(Stage("wait", "test only: sleep", _wait, settings=(WaitSettings,), needs=("import",)))
     try:
         get_stage("die")
     except Exception:
-        register_stage(Stage("die", "test only: kill the worker process", _die, params=(
-            Param("only_if_name_contains", "str", "", "kill the worker on these files", kwarg=""),
-        ), needs=("import",)))
+        register_stage(Stage("die", "test only: kill the worker process", _die, settings=(DieSettings,), needs=("import",)))
 
 
 _register()

@@ -2,12 +2,11 @@
 
 Each step is a small public function taking and returning plain objects
 (`measure_capture`, `estimate_speed`, `detect_events`, `assess_motor_thermal`,
-`build_result`, with `analysis_parameters` for the parameter record).
-`analyze` calls them in order and is the library's main entry point; the
-recipe stages of `waveforms.recipe` (behind ``motor-waveforms analyze`` and
-``motor-waveforms batch``) call the same functions, so each rule and note text is
-written once.  The result is an `AnalysisResult` holding every table and a
-plain-language verdict; writing files is left to `waveforms.report`.
+`build_result`, with `analysis_parameters` for the parameter record).  The
+chain itself is run in one place, `waveforms.recipe.run_recipe`, whose stages
+call these functions; `analyze`, the library's main entry point, is a thin
+call of the default recipe.  The result is an `AnalysisResult` holding every
+table and a plain-language verdict; writing files is left to `waveforms.report`.
 """
 
 from __future__ import annotations
@@ -16,17 +15,31 @@ import dataclasses
 import datetime as _dt
 import math
 import platform
-import time
 from typing import Any
 
 import numpy as np
 import pandas as pd
 
 from .capture import Capture
-from .detect import DetectionInput, DetectParams, Event, run_detectors
+from .detect import DetectionInput, DetectParams, Event, detect
+from .detect.event import iso_at
 from .errors import InvalidParameterError, WaveformsError
 from .motor.nameplate import Nameplate
-from .motor.thermal import ThermalParams, ThermalResult, assess_thermal
+from .motor.thermal import TRIP_CLASS_TARGET_S, ThermalParams, ThermalResult, assess_thermal
+from .settings import Rule, check_fields, register_rules
+
+# The rules of `ThermalParams` (waveforms/motor/thermal.py cannot carry them yet): one bound per
+# parameter, met by `assess_motor_thermal`, the thermal recipe stage and the command line alike.
+register_rules(ThermalParams, {
+    "motor_tau_s": Rule("heating time constant of the motor [s]; 600 s is an assumption (no source): give the maker's figure",
+                        check=lambda v: None if v >= 1.0 else
+                        f"{v!r} is below the minimum 1 s (a heating time constant is positive, and no motor's is under 1 s)"),
+    "k_neg": Rule("negative-sequence heating weight K [-]; absent = 175 / I_LR^2 (IEEE C37.96, from memory)", minimum=0.0),
+    "relay_setting_a": Rule("overload relay current setting [A]; absent = nameplate FLA",
+                            check=lambda v: None if v > 0 else f"{v!r} must be positive"),
+    "trip_classes": Rule("IEC 60947-4-1 trip classes to evaluate", choices=tuple(TRIP_CLASS_TARGET_S)),
+    "hot_start": Rule("start the thermal models from steady rated current (1 pu) rather than cold"),
+})
 
 #: Motor states shaded on the report's timeline, in order of precedence.
 STATES: tuple[str, ...] = ("de-energised", "single-phased, stalled", "stalled", "single-phased", "three-phase")
@@ -98,13 +111,6 @@ class AnalysisResult:
 
     def events_of(self, kind: str) -> list[Event]:
         return [e for e in self.events if e.kind == kind]
-
-
-def iso_at(start: _dt.datetime, t_s: float | None) -> str | None:
-    """``start + t_s`` as ISO 8601 with microseconds and UTC offset (None for None)."""
-    if t_s is None or not math.isfinite(t_s):
-        return None
-    return (start + _dt.timedelta(seconds=float(t_s))).isoformat(timespec="microseconds")
 
 
 def locked_rotor_a(plate: Nameplate | None) -> float | None:
@@ -260,9 +266,8 @@ def verdict_text(
 
 
 # -- the steps of the chain ------------------------------------------------------
-# Each step takes and returns plain objects (no file I/O).  `analyze` calls them in
-# order; the recipe stages (`waveforms.recipe`) call the same functions, so the
-# rules and the note texts below exist once.
+# Each step takes and returns plain objects (no file I/O).  The recipe stages
+# (`waveforms.recipe`) call them, in the one runner `run_recipe`.
 
 NO_NAMEPLATE_NOTE = "no nameplate: thresholds scaled to the capture's own running current; thermal stress not assessed"
 SPEED_NO_NAMEPLATE_NOTE = "speed: not estimated, no nameplate (pole count unknown)"
@@ -392,8 +397,9 @@ def detect_events(
         ``states`` as `motor_states`, ``timeline`` as `merge_periods`.
     """
     inp = detection_input(capture, measurements, speed, nameplate, params or DetectParams())
-    events = run_detectors(inp, only=only)
-    notes = [f"detect: {n}" for n in dict.fromkeys(inp.notes)]
+    found = detect(inp, only=only)
+    events = found.events
+    notes = [f"detect: {n}" for n in found.notes]
     states = motor_states(inp, events)
     return events, states, merge_periods(states), notes
 
@@ -408,9 +414,10 @@ def assess_motor_thermal(
     (ThermalResult or None, list of str)
         None without a nameplate or without a line-current column.
     """
+    tparams = params or ThermalParams()
+    check_fields(tparams)
     if nameplate is None or cycles is None or not any(f"I{c}_rms" in cycles for c in "abc"):
         return None, []
-    tparams = params or ThermalParams()
     thermal = assess_thermal(
         cycles, fla_a=float(nameplate.fla_a), service_factor=float(nameplate.service_factor),
         locked_rotor_a=locked_rotor_a(nameplate), connection=nameplate.connection, params=tparams,
@@ -465,9 +472,9 @@ def analyze(
 ) -> AnalysisResult:
     """Analyse one capture: events, speed, thermal stress and a verdict.
 
-    The steps, in order: `measure_capture`, `estimate_speed`, `detect_events`,
-    `assess_motor_thermal`, `waveforms.quality.quality_notes`, `build_result`
-    (the recipe stages of `waveforms.recipe` call the same functions).
+    A thin call of the default recipe without its report stage
+    (`waveforms.recipe.run_recipe`, the one path of the chain), with the
+    arguments below set as the stages' parameters.
 
     Parameters
     ----------
@@ -481,59 +488,34 @@ def analyze(
     speed : bool
         Estimate the speed track (needs a nameplate for the pole count).
     speed_options : dict, optional
-        Keyword arguments for `waveforms.speed.track_speed` (``window_s`` ...);
-        the window defaults to `default_speed_window_s`.
+        Keys of the speed stage (``window_s``, ``pole_pairs`` and the other
+        `SpeedSettings` fields); the window defaults to `default_speed_window_s`.
     detectors : tuple of str, optional
-        Run only these detectors (see `waveforms.detect.detector_names`).
+        Report only these detectors (see `waveforms.detect.detector_names`).
     quality : bool
         Gather data-quality notes (one more pass over the samples).
     measure_options : dict, optional
-        Keyword arguments for `waveforms.measure.measure`.
+        Keys of the measure stage (``chunk_samples``, ``overlap_cycles``).
 
     Returns
     -------
     AnalysisResult
     """
-    timings: dict[str, float] = {}
-    plate = nameplate if nameplate is not None else capture.nameplate
-    notes = nameplate_notes(plate)
-    t0 = time.perf_counter()
-    m = measure_capture(capture, measure_options)
-    timings["measure"] = time.perf_counter() - t0
+    from .recipe import RecipeError, default_recipe, run_recipe
 
-    track = None
-    if speed:
-        t0 = time.perf_counter()
-        track, speed_notes = estimate_speed(capture, m.cycles, plate, speed_options)
-        notes.extend(speed_notes)
-        timings["speed"] = time.perf_counter() - t0
-
-    t0 = time.perf_counter()
-    events, states, timeline, detect_notes = detect_events(capture, m, track, plate, detect_params, detectors)
-    notes.extend(detect_notes)
-    timings["detect"] = time.perf_counter() - t0
-
-    t0 = time.perf_counter()
-    thermal, thermal_notes = assess_motor_thermal(m.cycles, plate, thermal_params)
-    notes.extend(thermal_notes)
-    if thermal is not None:
-        timings["thermal"] = time.perf_counter() - t0
-
-    qnotes: list[dict] = []
-    if quality:
-        t0 = time.perf_counter()
-        from .quality import quality_notes
-
-        qnotes = quality_notes(capture)
-        timings["quality"] = time.perf_counter() - t0
-    params = analysis_parameters(
-        capture, detect_params=detect_params, thermal_params=thermal_params, speed_options=speed_options,
-        speed_enabled=speed, detectors=detectors, measure_options=measure_options,
-    )
-    return build_result(
-        capture, plate, m, speed=track, events=events, thermal=thermal, states=states, timeline=timeline,
-        notes=notes, quality=qnotes, parameters=params, timings_s=timings,
-    )
+    det: dict[str, Any] = {} if detect_params is None else dataclasses.asdict(detect_params)
+    if detectors is not None:
+        det["detectors"] = list(detectors)
+    tables = {"import": {"quality": bool(quality)}, "measure": dict(measure_options or {}),
+              "speed": {**(speed_options or {}), "enabled": bool(speed)}, "detect": det,
+              "thermal": {} if thermal_params is None else dataclasses.asdict(thermal_params)}
+    rec = default_recipe().without("report")
+    try:
+        for stage, values in tables.items():
+            rec = rec.with_params(stage, values)
+    except RecipeError as e:  # a bad argument, not a bad file: name the argument's key
+        raise InvalidParameterError(f"analyze: {e.where}: {e.problem}") from None
+    return run_recipe(rec, capture, nameplate=nameplate).analysis
 
 
 __all__ = [

@@ -16,13 +16,15 @@ which parameters::
     scheduler = ""       # Dask scheduler address; "" = local worker processes
 
 The *stage registry* in this module is the one place that lists the stage
-names, their parameters (type, default, meaning) and which earlier stages each
-needs; validation, ``motor-waveforms recipes`` and docs/batch.md read it.  Each stage
-turns its recipe table into arguments and calls the public library function
-that owns the work (`waveforms.io.read_capture`; the step functions of
-`waveforms.analysis`: `measure_capture`, `estimate_speed`, `detect_events`,
-`assess_motor_thermal`, `build_result`; `waveforms.report.write_report`).  A
-stage holds no rule of its own: the same functions make `waveforms.analysis.analyze`.
+names, their settings dataclasses (whose fields give each key's type, default,
+meaning and bounds, checked in ``__post_init__``; `waveforms.settings`) and
+which earlier stages each needs; validation, ``motor-waveforms recipes`` and
+docs/batch.md read it.  Each stage turns its recipe table into arguments and
+calls the public library function that owns the work (`waveforms.io.read_capture`;
+the step functions of `waveforms.analysis`: `measure_capture`, `estimate_speed`,
+`detect_events`, `assess_motor_thermal`, `build_result`;
+`waveforms.report.write_report`).  `run_recipe` is the one runner of the
+chain: `waveforms.analysis.analyze` is a thin call of the default recipe.
 
 The recipes shipped with the package live in ``waveforms/pipelines_data/``
 (``pipelines/`` at the top of the repository holds the same files).
@@ -38,7 +40,6 @@ import hashlib
 import importlib
 import json
 import os
-import re
 import time
 import tomllib
 from collections.abc import Callable, Mapping, Sequence
@@ -47,6 +48,7 @@ from pathlib import Path
 from typing import Any
 
 from .errors import CaptureReadError, InvalidParameterError
+from .settings import check_fields, setting
 
 #: Name of the recipe `analyze` and `motor-waveforms batch` use when none is given.
 DEFAULT_RECIPE = "investigate"
@@ -60,86 +62,33 @@ class RecipeError(CaptureReadError):
 
 
 # -- parameters and stages --------------------------------------------------------
-_KINDS = ("bool", "int", "float", "str", "str_list", "int_list")
-
-
 @dataclasses.dataclass(frozen=True)
 class Param:
-    """One parameter of a stage.
+    """One key of a stage's recipe table: a field of one of the stage's settings dataclasses.
 
     Parameters
     ----------
     name : str
-        Key in the stage's recipe table.
+        Key in the stage's recipe table (the field's name).
     kind : {"bool", "int", "float", "str", "str_list", "int_list"}
     default : object
-        Value when the recipe does not give the key.  ``None`` means "left to the
-        library function's own default" (the key is then not passed on).
+        Value recorded when the recipe does not give the key; ``None`` for a
+        field of the wrapped library's settings ("its own default").
     doc : str
         Meaning, with the unit in brackets.
-    choices : tuple, optional
-        Allowed values.
-    minimum, maximum : float, optional
-        Inclusive bounds for numbers.
     kwarg : str, optional
-        Keyword of the wrapped library function this value is passed as
-        (default: ``name``); ``""`` when the stage uses the value itself.
-    validate : callable, optional
-        Extra check ``value -> problem or None`` (e.g. against a registry).
+        Keyword this value is passed on as (the name); ``""`` when the stage uses it itself.
     """
 
     name: str
     kind: str
     default: Any
     doc: str
-    choices: tuple[Any, ...] | None = None
-    minimum: float | None = None
-    maximum: float | None = None
     kwarg: str | None = None
-    validate: Callable[[Any], str | None] | None = None
-
-    def __post_init__(self) -> None:
-        if self.kind not in _KINDS:
-            raise InvalidParameterError(f"parameter {self.name!r}: kind={self.kind!r} must be one of {_KINDS}")
 
     @property
     def target(self) -> str:
         return self.name if self.kwarg is None else self.kwarg
-
-    def check(self, value: Any) -> str | None:
-        """Problem with ``value`` in plain words, or None when it is acceptable."""
-        k = self.kind
-        if k == "bool":
-            ok = isinstance(value, bool)
-        elif k == "int":
-            ok = isinstance(value, int) and not isinstance(value, bool)
-        elif k == "float":
-            ok = isinstance(value, (int, float)) and not isinstance(value, bool)
-        elif k == "str":
-            ok = isinstance(value, str)
-        elif k == "str_list":
-            ok = isinstance(value, list) and all(isinstance(v, str) for v in value)
-        else:
-            ok = isinstance(value, list) and all(isinstance(v, int) and not isinstance(v, bool) for v in value)
-        if not ok:
-            want = {"bool": "true or false", "int": "a whole number", "float": "a number",
-                    "str": "a string", "str_list": "a list of strings", "int_list": "a list of whole numbers"}[k]
-            return f"{value!r} must be {want}"
-        if self.choices is not None:
-            items = value if k.endswith("_list") else [value]
-            bad = [v for v in items if v not in self.choices]
-            if bad:
-                return f"{bad[0]!r} is not one of {list(self.choices)}"
-        if k in ("int", "float"):
-            if value != value:  # NaN
-                return "NaN is not allowed"
-            if self.minimum is not None and value < self.minimum:
-                return f"{value!r} is below the minimum {self.minimum:g}"
-            if self.maximum is not None and value > self.maximum:
-                return f"{value!r} is above the maximum {self.maximum:g}"
-        if self.validate is not None:
-            return self.validate(value)
-        return None
 
 
 @dataclasses.dataclass
@@ -183,10 +132,10 @@ class RunState:
         return None if self.measurements is None else self.measurements.cycles
 
     def events_frame(self) -> Any:
-        """Events as a DataFrame: kind, phase, start_s, end_s and their supporting figures."""
-        from .summary import events_frame
+        """The events table (`waveforms.detect.event.EVENT_COLUMNS`, as events.csv)."""
+        from .detect.event import events_frame
 
-        return events_frame(self.events)
+        return events_frame(self.events, None if self.capture is None else self.capture.start_time)
 
 
 StageFunc = Callable[[RunState, dict[str, Any]], None]
@@ -194,32 +143,49 @@ StageFunc = Callable[[RunState, dict[str, Any]], None]
 
 @dataclasses.dataclass(frozen=True)
 class Stage:
-    """A registered stage: a name, its parameters and the callable that runs it.
+    """A registered stage: a name, its settings and the callable that runs it.
 
     Parameters
     ----------
     name : str
     description : str
     run : callable ``(state, params) -> None``
-        Updates `RunState` in place.  ``params`` holds every parameter, defaults
-        filled in.
-    params : tuple of Param
+        Updates `RunState` in place.  ``params`` holds every key of the stage's
+        table (`Stage.params`); `Stage.build` turns it into the settings objects.
+    settings : tuple of dataclass types
+        The stage's own settings, validated in their ``__post_init__``
+        (`waveforms.settings.check_fields`); defaults are recorded in the recipe.
+    library_settings : dataclass type, optional
+        The wrapped library's settings (`DetectParams`, `SpeedSettings`, ...);
+        a key the recipe leaves out is recorded as None, the library's own default.
     needs : tuple of str
         Stages that must come earlier in the recipe.
     library : str
         ``module:name`` the stage wraps (for the listing and the signature check).
-    check : callable, optional
-        ``params -> None`` that raises `InvalidParameterError` for a combination
-        the wrapped library rejects (run when the recipe is loaded).
     """
 
     name: str
     description: str
     run: StageFunc
-    params: tuple[Param, ...] = ()
+    settings: tuple[type, ...] = ()
+    library_settings: type | None = None
     needs: tuple[str, ...] = ()
     library: str = ""
-    check: Callable[[dict[str, Any]], None] | None = None
+
+    def _classes(self) -> tuple[type, ...]:
+        return self.settings + (() if self.library_settings is None else (self.library_settings,))
+
+    @property
+    def params(self) -> tuple[Param, ...]:
+        from .settings import field_table
+
+        out = []
+        for cls in self._classes():
+            lib = cls is self.library_settings
+            for f, kind, rule in field_table(cls):
+                out.append(Param(f.name, kind, None if lib else f.default, rule.doc or f"see {cls.__module__}.{cls.__name__}",
+                                 kwarg=None if rule.forward else ""))
+        return tuple(out)
 
     def param(self, name: str) -> Param:
         for p in self.params:
@@ -229,6 +195,27 @@ class Stage:
 
     def defaults(self) -> dict[str, Any]:
         return {p.name: p.default for p in self.params}
+
+    def build(self, params: Mapping[str, Any]) -> tuple[Any, ...]:
+        """The settings objects (`settings`, then `library_settings`) from a table; None = the field's default.
+
+        Raises
+        ------
+        SettingError
+            A field's value is wrong (names the field).
+        InvalidParameterError
+            A combination the settings class refuses.
+        """
+        from .settings import check_fields
+
+        out = []
+        for cls in self._classes():
+            kw = {f.name: params[f.name] for f in dataclasses.fields(cls) if params.get(f.name) is not None}
+            kw = {k: tuple(v) if isinstance(v, list) else v for k, v in kw.items()}
+            obj = cls(**kw)
+            check_fields(obj)  # for a class that cannot call it from its own __post_init__
+            out.append(obj)
+        return tuple(out)
 
 
 _STAGES: dict[str, Stage] = {}
@@ -334,21 +321,25 @@ class Recipe:
             raise RecipeError(self.source or self.name, f"table [{stage}]",
                               f"stage {stage!r} is not in recipe.stages {list(self.stage_names)}")
         spec = get_stage(stage)
-        _check_table(values, spec.params, stage, self.source or self.name)  # the new values only
-        full = {**self.params(stage), **values}
-        if spec.check is not None:
-            try:
-                spec.check(full)
-            except InvalidParameterError as e:
-                raise RecipeError(self.source or self.name, f"table [{stage}]", str(e)) from None
+        _known_keys(values, spec.params, stage, self.source or self.name)
+        full = _check_table({**self.params(stage), **values}, spec, stage, self.source or self.name)
         steps = tuple((n, full if n == stage else p) for n, p in self.steps)
         return dataclasses.replace(self, steps=steps)
 
 
-_BATCH_PARAMS = (
-    Param("jobs", "int", 0, "worker processes; 0 = one per CPU core", minimum=0),
-    Param("scheduler", "str", "", "Dask distributed scheduler address (tcp://host:8786); empty = local processes"),
-)
+@dataclasses.dataclass(frozen=True)
+class BatchSettings:
+    """How a batch run is carried out (the recipe's ``[batch]`` table; not part of the result)."""
+
+    jobs: int = setting(0, "worker processes; 0 = one per CPU core", minimum=0)
+    scheduler: str = setting("", "Dask distributed scheduler address (tcp://host:8786); empty = local processes")
+
+    def __post_init__(self) -> None:
+        check_fields(self)
+
+
+_BATCH = Stage(name="batch", description="how a batch run is carried out", run=lambda state, params: None,
+               settings=(BatchSettings,))
 _RECIPE_KEYS = ("name", "description", "stages", "plugins")
 
 
@@ -408,31 +399,37 @@ def parse_recipe(data: Mapping[str, Any], source: str = "<recipe>") -> Recipe:
         table = data.get(n, {})
         if not isinstance(table, dict):
             raise RecipeError(source, f"key {n}", "must be a table of parameters")
-        full = _check_table(table, stage.params, n, source)
-        if stage.check is not None:
-            try:
-                stage.check(full)
-            except InvalidParameterError as e:
-                raise RecipeError(source, f"table [{n}]", str(e)) from None
-        steps.append((n, full))
+        _known_keys(table, stage.params, n, source)
+        steps.append((n, _check_table(table, stage, n, source)))
     batch_table = data.get("batch", {})
     if not isinstance(batch_table, dict):
         raise RecipeError(source, "key batch", "must be a table")
-    batch = _check_table(batch_table, _BATCH_PARAMS, "batch", source)
+    _known_keys(batch_table, _BATCH.params, "batch", source)
+    batch = _check_table(batch_table, _BATCH, "batch", source)
     return Recipe(name=name.strip(), description=description.strip(), steps=tuple(steps), batch=batch,
                   plugins=tuple(plugins), source=source)
 
 
-def _check_table(table: Mapping[str, Any], params: Sequence[Param], prefix: str, source: str) -> dict[str, Any]:
-    known = {p.name: p for p in params}
-    for key, value in table.items():
+def _known_keys(table: Mapping[str, Any], params: Sequence[Param], prefix: str, source: str) -> None:
+    known = {p.name for p in params}
+    for key in table:
         if key not in known:
             hint = f"known keys: {sorted(known)}" if known else "this stage takes no parameters"
             raise RecipeError(source, f"key {prefix}.{key}", f"unknown parameter; {hint}")
-        problem = known[key].check(value)
-        if problem:
-            raise RecipeError(source, f"key {prefix}.{key}", problem)
-    return {p.name: table.get(p.name, p.default) for p in params}
+
+
+def _check_table(table: Mapping[str, Any], stage: Stage, prefix: str, source: str) -> dict[str, Any]:
+    """Every key of the stage's table, defaults filled in, checked by building the stage's settings objects."""
+    from .settings import SettingError
+
+    full = {p.name: table.get(p.name, p.default) for p in stage.params}
+    try:
+        stage.build(full)
+    except SettingError as e:
+        raise RecipeError(source, f"key {prefix}.{e.field}", e.problem) from None
+    except InvalidParameterError as e:
+        raise RecipeError(source, f"table [{prefix}]", str(e)) from None
+    return full
 
 
 def load_recipe(name_or_path: str | os.PathLike[str] | Recipe | None = None) -> Recipe:
@@ -568,93 +565,42 @@ def _assemble_analysis(state: RunState) -> None:
     )
 
 
-# -- parameters taken from a library's settings dataclass ---------------------------
-def _numpydoc_params(doc: str | None) -> dict[str, str]:
-    """``name -> description`` from a numpydoc Parameters section (``a, b : float`` lines shared)."""
-    out: dict[str, str] = {}
-    if not doc:
-        return out
-    lines = doc.expandtabs().splitlines()
-    try:
-        start = next(i for i, ln in enumerate(lines) if ln.strip() == "Parameters") + 2
-    except StopIteration:
-        return out
-    names: list[str] = []
-    indent = None
-    for ln in lines[start:]:
-        if not ln.strip():
-            continue
-        ind = len(ln) - len(ln.lstrip())
-        if indent is None:
-            indent = ind
-        if ind < indent or (ind == indent and set(ln.strip()) <= set("-")):
-            break
-        if ind == indent:
-            if ln.strip().endswith("----"):
-                break
-            names = [n.strip() for n in ln.split(":")[0].split(",")]
-            for n in names:
-                out[n] = ""
-        else:
-            for n in names:
-                out[n] = (out[n] + " " + ln.strip()).strip()
-    return out
-
-
-def _kind_of(annotation: Any, default: Any) -> str:
-    text = annotation if isinstance(annotation, str) else getattr(annotation, "__name__", str(annotation))
-    if "tuple[int" in text or "list[int" in text:
-        return "int_list"
-    if "tuple[str" in text or "list[str" in text:
-        return "str_list"
-    for k in ("bool", "int", "float", "str"):
-        if re.search(rf"\b{k}\b", text):
-            return k
-    return {bool: "bool", int: "int", float: "float", str: "str"}.get(type(default), "str")
-
-
-def params_from_dataclass(cls: type, exclude: Sequence[str] = (), prefix_doc: str = "",
-                          overrides: Mapping[str, Mapping[str, Any]] | None = None) -> tuple[Param, ...]:
-    """Stage parameters mirroring a library's frozen settings dataclass.
-
-    Each field becomes a `Param` of the same name, kind from its annotation,
-    description from the class's numpydoc Parameters section; the default is
-    ``None`` (= the dataclass's own default, so the library stays the one place
-    that fixes it).  ``overrides`` adds checks the dataclass does not make
-    itself (``{"trip_classes": {"choices": (...)}}``).
-    """
-    docs = _numpydoc_params(cls.__doc__)
-    out = []
-    for f in dataclasses.fields(cls):
-        if f.name in exclude:
-            continue
-        default = f.default if f.default is not dataclasses.MISSING else None
-        extra = dict((overrides or {}).get(f.name, {}))
-        out.append(Param(f.name, _kind_of(f.type, default), None,
-                         (prefix_doc + docs.get(f.name, "")).strip() or f"see {cls.__module__}.{cls.__name__}", **extra))
-    return tuple(out)
-
-
-def _build_settings(cls: type, params: Mapping[str, Any], stage: Stage, exclude: Sequence[str] = ()) -> Any:
-    names = {f.name for f in dataclasses.fields(cls)}
-    kw = {k: (tuple(v) if isinstance(v, list) else v) for k, v in library_kwargs(params, stage).items()
-          if k in names and k not in exclude}
-    try:
-        return cls(**kw)
-    except TypeError as e:  # a field the dataclass does not accept
-        raise InvalidParameterError(str(e)) from None
-
-
 # -- the built-in stages -------------------------------------------------------------
+# Each stage turns its table into arguments for the library function that owns the work and
+# stores the outputs on `RunState`; it holds no rule of its own.
+def _known_format(value: str) -> str | None:
+    from .io import importer_names
+
+    names = importer_names()
+    return None if value == "" or value in names else f"{value!r} is not an importer; known: {list(names)}"
+
+
+@dataclasses.dataclass(frozen=True)
+class ImportSettings:
+    """The ``import`` stage: how the capture file is read."""
+
+    format: str = setting("", "importer name; empty = recognise the file by its content", check=_known_format, forward=False)
+    nominal_frequency_hz: float | None = setting(
+        None, "declared system frequency, 50 or 60 [Hz]; absent = from the file or inferred", choices=(50.0, 60.0, 50, 60),
+        forward=False)
+    nominal_voltage_v: float | None = setting(None, "declared line-to-line voltage [V]; absent = from the file",
+                                              minimum=0.0, forward=False)
+    wiring: str = setting("", "'3-wire' or '4-wire'; empty = from the file", choices=("", "3-wire", "4-wire"), forward=False)
+    quality: bool = setting(True, "gather data-quality notes (clipping, flat or dead channels, gaps; one more pass)",
+                            forward=False)
+
+    def __post_init__(self) -> None:
+        check_fields(self)
+
+
 def _stage_import(state: RunState, params: dict[str, Any]) -> None:
     from .io import ReadOptions, read_capture
 
+    (s,) = get_stage("import").build(params)
     if state.capture is None:
-        opts = ReadOptions(
-            nominal_frequency_hz=params["nominal_frequency_hz"], nominal_voltage_v=params["nominal_voltage_v"],
-            wiring=params["wiring"] or None,
-        )
-        state.capture = read_capture(state.source, format=params["format"] or None, options=opts)
+        opts = ReadOptions(nominal_frequency_hz=s.nominal_frequency_hz, nominal_voltage_v=s.nominal_voltage_v,
+                           wiring=s.wiring or None)
+        state.capture = read_capture(state.source, format=s.format or None, options=opts)
         if state.origin:  # read through a local copy: the provenance names the original
             prov = dataclasses.replace(state.capture.provenance, source_path=state.origin)
             state.capture = state.capture.replace(provenance=prov)
@@ -666,7 +612,7 @@ def _stage_import(state: RunState, params: dict[str, Any]) -> None:
     from .analysis import nameplate_notes
 
     state.notes.extend(nameplate_notes(state.nameplate))
-    if params["quality"]:
+    if s.quality:
         from .quality import quality_notes
 
         t0 = time.perf_counter()
@@ -674,67 +620,53 @@ def _stage_import(state: RunState, params: dict[str, Any]) -> None:
         state.timings_s["quality"] = time.perf_counter() - t0  # part of the import stage's time
 
 
-def _known_format(value: str) -> str | None:
-    from .io import importer_names
+@dataclasses.dataclass(frozen=True)
+class MeasureSettings:
+    """The ``measure`` stage: keyword arguments of `waveforms.measure.measure` (absent = its default)."""
 
-    names = importer_names()
-    return None if value == "" or value in names else f"{value!r} is not an importer; known: {list(names)}"
+    chunk_samples: int | None = setting(None, "samples per processing block (bounds memory; results do not depend on it) [samples]",
+                                        minimum=4096)
+    overlap_cycles: int | None = setting(None, "nominal cycles of overlap between blocks (at least 20) [cycles]", minimum=20)
+
+    def __post_init__(self) -> None:
+        check_fields(self)
 
 
 def _stage_measure(state: RunState, params: dict[str, Any]) -> None:
     from .analysis import measure_capture
 
-    kw = library_kwargs(params, _STAGES["measure"])
+    kw = library_kwargs(params, get_stage("measure"))
     state.settings["measure"] = kw
     state.measurements = measure_capture(state.capture, kw)
 
 
-def _measure_params() -> tuple[Param, ...]:
-    return (
-        Param("chunk_samples", "int", None, "samples per processing block (bounds memory; results do not depend on it) [samples]",
-              minimum=4096),
-        Param("overlap_cycles", "int", None, "nominal cycles of overlap between blocks (at least 20) [cycles]", minimum=20),
-    )
+@dataclasses.dataclass(frozen=True)
+class SpeedStageSettings:
+    """The ``speed`` stage's own keys (beside every field of `SpeedSettings`)."""
 
+    enabled: bool = setting(True, "estimate the speed; false = leave the speed track empty", forward=False)
+    pole_pairs: int | None = setting(None, "override the nameplate's pole pairs [-]", minimum=1)
+    rotor_bars: int | None = setting(None, "override the nameplate's rotor bar count [-]", minimum=4)
 
-def _speed_settings_cls() -> type:
-    from .speed.estimator import SpeedSettings
-
-    return SpeedSettings
-
-
-_SPEED_OWN = (
-    Param("enabled", "bool", True, "estimate the speed; false = leave the speed track empty", kwarg=""),
-    # window_s comes from SpeedSettings; absent = `waveforms.analysis.default_speed_window_s`
-    Param("pole_pairs", "int", None, "override the nameplate's pole pairs [-]", minimum=1),
-    Param("rotor_bars", "int", None, "override the nameplate's rotor bar count [-]", minimum=4),
-)
+    def __post_init__(self) -> None:
+        check_fields(self)
 
 
 def _stage_speed(state: RunState, params: dict[str, Any]) -> None:
     from .analysis import estimate_speed
 
+    own, _ = get_stage("speed").build(params)
     # the speed-track keyword arguments the recipe gives (absent window_s: `analysis.default_speed_window_s`)
-    opts = {k: (tuple(v) if isinstance(v, list) else v) for k, v in library_kwargs(params, _STAGES["speed"]).items()}
+    opts = {k: (tuple(v) if isinstance(v, list) else v) for k, v in library_kwargs(params, get_stage("speed")).items()}
     state.settings["speed"] = opts
-    state.settings["speed_enabled"] = bool(params["enabled"])
-    if not params["enabled"]:
+    state.settings["speed_enabled"] = bool(own.enabled)
+    if not own.enabled:
         return
     state.speed, notes = estimate_speed(state.capture, state.cycles, state.nameplate, opts)
     state.notes.extend(notes)
 
 
-def _check_speed(params: dict[str, Any]) -> None:
-    _build_settings(_speed_settings_cls(), params, _STAGES["speed"])
-
-
-def _detect_params_cls() -> type:
-    from .detect import DetectParams
-
-    return DetectParams
-
-
-def _known_detectors(value: list[str]) -> str | None:
+def _known_detectors(value: tuple[str, ...]) -> str | None:
     from .detect import detector_names
 
     names = detector_names()
@@ -742,52 +674,47 @@ def _known_detectors(value: list[str]) -> str | None:
     return f"{bad[0]!r} is not a detector; known: {list(names)}" if bad else None
 
 
-_DETECT_OWN = (
-    Param("detectors", "str_list", None, "detectors to run; absent = all, in registry order", kwarg="",
-          validate=_known_detectors),
-)
+@dataclasses.dataclass(frozen=True)
+class DetectorChoice:
+    """The ``detect`` stage's own key (beside every field of `DetectParams`)."""
+
+    detectors: tuple[str, ...] | None = setting(
+        None, "detectors to report; absent = all (what a named one needs runs for it)", check=_known_detectors, forward=False)
+
+    def __post_init__(self) -> None:
+        check_fields(self)
 
 
 def _stage_detect(state: RunState, params: dict[str, Any]) -> None:
     from .analysis import detect_events
 
-    dparams = _build_settings(_detect_params_cls(), params, _STAGES["detect"])
-    only = None if params["detectors"] is None else tuple(params["detectors"])
+    choice, dparams = get_stage("detect").build(params)
     state.events, state.states, state.timeline, notes = detect_events(
-        state.capture, state.measurements, state.speed, state.nameplate, dparams, only)
+        state.capture, state.measurements, state.speed, state.nameplate, dparams, choice.detectors)
     state.notes.extend(notes)
     state.settings["detect"] = dparams
-    state.settings["detectors"] = only
-
-
-def _check_detect(params: dict[str, Any]) -> None:
-    _build_settings(_detect_params_cls(), params, _STAGES["detect"])
-
-
-def _thermal_params_cls() -> type:
-    from .motor.thermal import ThermalParams
-
-    return ThermalParams
-
-
-def _thermal_overrides() -> dict[str, dict[str, Any]]:
-    from .motor.thermal import TRIP_CLASS_TARGET_S
-
-    return {"trip_classes": {"choices": tuple(TRIP_CLASS_TARGET_S)}, "motor_tau_s": {"minimum": 1.0},
-            "k_neg": {"minimum": 0.0}, "relay_setting_a": {"minimum": 0.0}}
+    state.settings["detectors"] = choice.detectors
 
 
 def _stage_thermal(state: RunState, params: dict[str, Any]) -> None:
     from .analysis import assess_motor_thermal
 
-    tparams = _build_settings(_thermal_params_cls(), params, _STAGES["thermal"])
+    (tparams,) = get_stage("thermal").build(params)
     state.settings["thermal"] = tparams
     state.thermal, notes = assess_motor_thermal(state.cycles, state.nameplate, tparams)
     state.notes.extend(notes)
 
 
-def _check_thermal(params: dict[str, Any]) -> None:
-    _build_settings(_thermal_params_cls(), params, _STAGES["thermal"])
+@dataclasses.dataclass(frozen=True)
+class ReportSettings:
+    """The ``report`` stage: which per-capture files are written."""
+
+    html: bool = setting(True, "write report.html (plots and the event list)")
+    cycles: str = setting("parquet", "per-cycle table file: 'parquet', 'csv' or 'none'", choices=("parquet", "csv", "none"),
+                          forward=False)
+
+    def __post_init__(self) -> None:
+        check_fields(self)
 
 
 def _stage_report(state: RunState, params: dict[str, Any]) -> None:
@@ -797,19 +724,20 @@ def _stage_report(state: RunState, params: dict[str, Any]) -> None:
         return
     from .atomic import atomic_path
 
+    (s,) = get_stage("report").build(params)
     out = state.out_dir
     out.mkdir(parents=True, exist_ok=True)
     if state.analysis is not None:
         from .report import write_report
 
-        written = write_report(state.analysis, out, html=params["html"])
+        written = write_report(state.analysis, out, html=s.html)
         for name, path in written.items():
             state.outputs[{"report.html": "html", "result.json": "json", "events.csv": "events_csv"}.get(name, name)] = str(path)
     cyc = state.cycles
-    if params["cycles"] != "none" and cyc is not None:
-        target = out / f"cycles.{params['cycles']}"
+    if s.cycles != "none" and cyc is not None:
+        target = out / f"cycles.{s.cycles}"
         with atomic_path(target) as tmp:
-            if params["cycles"] == "csv":
+            if s.cycles == "csv":
                 cyc.to_csv(tmp, index=False)
             else:
                 cyc.to_parquet(tmp, index=False)
@@ -817,56 +745,39 @@ def _stage_report(state: RunState, params: dict[str, Any]) -> None:
 
 
 def _register_builtin() -> None:
+    from .detect import DetectParams
+    from .motor.thermal import ThermalParams
+    from .speed.estimator import SpeedSettings
+
+    from . import analysis  # noqa: F401  (gives ThermalParams its rules)
+
     register_stage(Stage(
-        name="import",
-        description="read the capture file (format recognised unless given) and attach the nameplate",
-        run=_stage_import,
-        params=(
-            Param("format", "str", "", "importer name; empty = recognise the file by its content", kwarg="",
-                  validate=_known_format),
-            Param("nominal_frequency_hz", "float", None, "declared system frequency, 50 or 60 [Hz]; absent = from the file or inferred",
-                  choices=(50.0, 60.0, 50, 60), kwarg=""),
-            Param("nominal_voltage_v", "float", None, "declared line-to-line voltage [V]; absent = from the file",
-                  minimum=0.0, kwarg=""),
-            Param("wiring", "str", "", "'3-wire' or '4-wire'; empty = from the file", choices=("", "3-wire", "4-wire"), kwarg=""),
-            Param("quality", "bool", True, "gather data-quality notes (clipping, flat or dead channels, gaps; one more pass)",
-                  kwarg=""),
-        ),
-        library="waveforms.io:read_capture",
+        name="import", description="read the capture file (format recognised unless given) and attach the nameplate",
+        run=_stage_import, settings=(ImportSettings,), library="waveforms.io:read_capture",
     ))
     register_stage(Stage(
-        name="measure",
-        description="per-cycle phasors, RMS, sequence components, unbalance, power; Urms(1/2); harmonics",
-        run=_stage_measure, params=_measure_params(), needs=("import",), library="waveforms.measure:measure",
+        name="measure", description="per-cycle phasors, RMS, sequence components, unbalance, power; Urms(1/2); harmonics",
+        run=_stage_measure, settings=(MeasureSettings,), needs=("import",), library="waveforms.measure:measure",
     ))
     register_stage(Stage(
-        name="speed",
-        description="rotor speed and slip from the current spectrum (needs the nameplate's poles)",
-        run=_stage_speed, params=_SPEED_OWN + params_from_dataclass(_speed_settings_cls()),
-        needs=("import",), library="waveforms.speed:track_speed", check=_check_speed,
+        name="speed", description="rotor speed and slip from the current spectrum (needs the nameplate's poles)",
+        run=_stage_speed, settings=(SpeedStageSettings,), library_settings=SpeedSettings,
+        needs=("import",), library="waveforms.speed:track_speed",
     ))
     register_stage(Stage(
-        name="detect",
-        description="events: open phase, stall, start, dip, swell, interruption, unbalance",
-        run=_stage_detect, params=_DETECT_OWN + params_from_dataclass(_detect_params_cls()),
-        needs=("import", "measure"), library="waveforms.detect:run_detectors", check=_check_detect,
+        name="detect", description="events: open phase, stall, start, dip, swell, interruption, unbalance",
+        run=_stage_detect, settings=(DetectorChoice,), library_settings=DetectParams,
+        needs=("import", "measure"), library="waveforms.detect:run_detectors",
     ))
     register_stage(Stage(
         name="thermal",
         description="thermal capacity used and overload-relay trips, from the per-cycle currents and the nameplate",
-        run=_stage_thermal, params=params_from_dataclass(_thermal_params_cls(), overrides=_thermal_overrides()),
-        needs=("import", "measure"), library="waveforms.motor.thermal:assess_thermal", check=_check_thermal,
+        run=_stage_thermal, library_settings=ThermalParams,
+        needs=("import", "measure"), library="waveforms.motor.thermal:assess_thermal",
     ))
     register_stage(Stage(
-        name="report",
-        description="per-capture outputs: result.json, events.csv, report.html (after detect), the cycle table",
-        run=_stage_report,
-        params=(
-            Param("html", "bool", True, "write report.html (plots and the event list)"),
-            Param("cycles", "str", "parquet", "per-cycle table file: 'parquet', 'csv' or 'none'",
-                  choices=("parquet", "csv", "none"), kwarg=""),
-        ),
-        needs=("import",), library="waveforms.report:write_report",
+        name="report", description="per-capture outputs: result.json, events.csv, report.html (after detect), the cycle table",
+        run=_stage_report, settings=(ReportSettings,), needs=("import",), library="waveforms.report:write_report",
     ))
 
 

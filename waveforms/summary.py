@@ -14,7 +14,6 @@ a fixed column order; `write_summary` writes the three files atomically.
 
 from __future__ import annotations
 
-import dataclasses
 import io
 import math
 import os
@@ -26,7 +25,8 @@ import numpy as np
 import pandas as pd
 
 from .atomic import atomic_path, write_text
-from .detect.event import EVENT_KINDS  # the detectors' list is the one list of event kinds
+# the detectors' list is the one list of event kinds; the events table has one schema (EVENT_COLUMNS, as events.csv)
+from .detect.event import EVENT_KINDS, events_frame, iso_at
 
 #: Verdict shown for a capture that could not be analysed.
 ERROR_VERDICT = "error"
@@ -48,48 +48,6 @@ SUMMARY_COLUMNS: tuple[str, ...] = tuple(_HEAD + _EVENT_COLS + _TAIL + _EVENT_TI
 _FLOAT_COLS = {"duration_s", "worst_i2_i1_pct", "max_current_x_fla", "thermal_capacity_used_pct", "elapsed_s"} | {
     f"first_{k}_s" for k in EVENT_KINDS}
 _INT_COLS = {f"n_{k}" for k in EVENT_KINDS}
-
-
-# -- events --------------------------------------------------------------------------
-def _event_record(ev: Any) -> dict[str, Any]:
-    if dataclasses.is_dataclass(ev) and not isinstance(ev, type):
-        raw = {f.name: getattr(ev, f.name) for f in dataclasses.fields(ev)}
-    elif isinstance(ev, Mapping):
-        raw = dict(ev)
-    else:
-        raw = {k: v for k, v in vars(ev).items() if not k.startswith("_")}
-    out: dict[str, Any] = {}
-    for k, v in raw.items():
-        if isinstance(v, (np.generic,)):
-            v = v.item()
-        if v is None or isinstance(v, (str, bool, int, float)):
-            out[k] = v
-        elif isinstance(v, Mapping):  # supporting figures: flatten one level of scalars
-            for k2, v2 in v.items():
-                if isinstance(v2, np.generic):
-                    v2 = v2.item()
-                if v2 is None or isinstance(v2, (str, bool, int, float)):
-                    out[f"{k}.{k2}"] = v2
-    return out
-
-
-def events_frame(events: Iterable[Any]) -> pd.DataFrame:
-    """Events as a DataFrame: ``kind``, ``phase``, ``start_s``, ``end_s`` first, then scalar figures.
-
-    Accepts event dataclasses, plain objects or mappings; nested mappings of
-    supporting figures are flattened one level (``figures.i2_i1_pct``).
-    """
-    recs = [_event_record(e) for e in events]
-    base = ["kind", "phase", "start_s", "end_s"]
-    if not recs:
-        return pd.DataFrame({c: pd.Series(dtype=object if c in ("kind", "phase") else float) for c in base})
-    frame = pd.DataFrame.from_records(recs)
-    for c in base:
-        if c not in frame:
-            frame[c] = None
-    for c in ("start_s", "end_s"):
-        frame[c] = pd.to_numeric(frame[c], errors="coerce").astype(float)
-    return frame[base + [c for c in frame.columns if c not in base]]
 
 
 # -- rows --------------------------------------------------------------------------------
@@ -148,8 +106,6 @@ def summary_row(state: Any, file: str, site: str, extra: Mapping[str, Any] | Non
         row[f"n_{k}"] = int(len(sel)) if detected else None
         row[f"first_{k}_s"] = float(sel["start_s"].min()) if len(sel) else math.nan
         if len(sel) and cap is not None:  # the same instant as a clock time, with the capture's UTC offset
-            from .analysis import iso_at
-
             row[f"first_{k}_time"] = iso_at(cap.start_time, row[f"first_{k}_s"])
     cycles = state.cycles
     row["worst_i2_i1_pct"] = math.nan

@@ -20,8 +20,6 @@ from .errors import InvalidParameterError
 
 #: Stamps further than this fraction of a sample period from the grid are "irregular".
 IRREGULAR_FRACTION = 0.25
-#: Steps longer than this many sample periods are gaps.
-GAP_PERIODS = 1.5
 #: When resampling irregular stamps, steps longer than this many target periods are gaps
 #: (irregular stamps legitimately step by more than 1.5 periods now and then).
 RESAMPLE_GAP_PERIODS = 2.5

@@ -84,9 +84,6 @@ def command(capture: str, motor: str | None, out_dir: str, recipe_name: str, no_
     if missing:
         raise InvalidParameterError(f"--recipe {recipe_name}: recipe {rec.name!r} has no {' and no '.join(missing)} stage; "
                                     f"analyze needs both (stages: {list(rec.stage_names)})")
-    for value, opt in ((motor_tau_s, "--motor-tau"), (relay_setting_a, "--relay-setting"), (k_neg, "--k-neg")):
-        if value is not None and not value >= (0 if opt == "--k-neg" else 1e-9):
-            raise InvalidParameterError(f"{opt} {value!r} must be {'non-negative' if opt == '--k-neg' else 'positive'}")
     rec = _set(rec, "report", {"cycles": cycles, **({"html": False} if no_html else {})}, "--no-html" if no_html else "--cycles")
     if no_speed and "speed" in rec.stage_names:
         rec = _set(rec, "speed", {"enabled": False}, "--no-speed")

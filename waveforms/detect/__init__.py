@@ -2,14 +2,15 @@
 
 Each detector reads the per-cycle measurement table (and, where it needs them,
 the half-cycle table, the speed track, the nameplate and -- for point-on-wave
-refinement only -- the capture's samples) and returns `Event` objects.
+refinement only -- the capture's samples) and the events of the earlier
+detectors it declares, and returns its `Findings` (events and notes).
 """
 
 from .context import DetectionInput, DetectParams
-from .event import EVENT_KINDS, Event, events_frame
-from .registry import DETECTORS, detector_names, register, run_detectors
+from .event import EVENT_COLUMNS, EVENT_KINDS, Event, events_frame
+from .registry import DETECTORS, Detections, Findings, detect, detector_names, register, run_detectors
 
 __all__ = [
-    "DETECTORS", "DetectParams", "DetectionInput", "EVENT_KINDS", "Event",
-    "detector_names", "events_frame", "register", "run_detectors",
+    "DETECTORS", "DetectParams", "Detections", "DetectionInput", "EVENT_COLUMNS", "EVENT_KINDS", "Event", "Findings",
+    "detect", "detector_names", "events_frame", "register", "run_detectors",
 ]

@@ -3,7 +3,9 @@
 `DetectionInput` gathers the measurement tables, the speed track, the
 nameplate, the declared voltage and the thresholds (`DetectParams`), and
 computes once the per-cycle arrays several detectors share: line-current
-magnitudes, "energised", "dead line" and the supply-voltage ratio.
+magnitudes, "energised", "dead line" and the supply-voltage ratio.  It is
+read-only for the detectors: derived values are cached, nothing is appended,
+and a detector says what it assumed in its own notes (`reference_notes`).
 """
 
 from __future__ import annotations
@@ -17,78 +19,52 @@ import numpy as np
 import pandas as pd
 
 from ..errors import InvalidParameterError
+from ..settings import check_fields, setting
 
 LINES = ("A", "B", "C")
 
 
 @dataclasses.dataclass(frozen=True)
 class DetectParams:
-    """Thresholds of the detectors (defaults in brackets are our choices unless a source is named).
+    """Thresholds of the detectors (defaults are our choices unless a source is named).
 
-    Parameters
-    ----------
-    energised_frac_fla : float
-        A line carries current when its fundamental exceeds this fraction of FLA [pu] (0.05).
-    dead_line_frac : float
-        A line is dead when its current is below this fraction of the larger of
-        the other two [-] (0.10).
-    pair_balance : float
-        With one line open the other two carry equal and opposite currents
-        (Kirchhoff); they must agree within this relative difference [-] (0.25).
-    min_open_cycles : int
-        Consecutive dead-line cycles needed for an open phase (3).
-    stall_frac_lr : float
-        Stall / locked-rotor region: largest line current above this fraction
-        of the locked-rotor current scaled by the supply voltage [-] (0.5).
-    min_stall_s : float
-        Shortest stall reported [s] (1.0).
-    standstill_tol_3ph, standstill_tol_1ph : float
-        The stall begins when the motor's apparent impedance stays within this
-        relative distance of its final standstill value [-] (0.015 on three
-        phases, 0.0015 single-phased; chosen for about 5 % of synchronous speed).
-    stalled_single_phase_frac : float
-        Single-phased and stalled when the current is above this fraction of
-        the locked-rotor current [-] (0.6; ideal single-phase locked-rotor
-        current is sqrt(3)/2 = 0.866 of the three-phase one).
-    dip_threshold_pct, swell_threshold_pct, interruption_threshold_pct, hysteresis_pct : float
-        IEC 61000-4-30 5.4 thresholds on Urms(1/2) in % of the declared voltage
-        (90, 110, 10, 2).
-    unbalance_threshold_pct : float
-        Sustained NEMA line-voltage unbalance above this is an event [%] (1.0:
-        NEMA MG-1 derating starts above 1 %).
-    unbalance_window_s, unbalance_min_s : float
-        Rolling-median window and shortest duration of a sustained unbalance [s] (1.0, 2.0).
-    upstream_residual_tol : float
-        Upstream of the logger when the open line's line-to-line voltages moved,
-        across the onset, by more than this fraction of the line-to-line voltage
-        beyond what the supply impedance explains [-] (0.03).
-    upstream_mag_tol, upstream_angle_tol_deg, upstream_v2_rise_pct : float
-        Fallback when that test cannot be made (no synchrophasor angles, or no
-        "before"): changes of the open line's voltage (relative magnitude,
-        angle) or of V2/V1 (percentage points) beyond which the open point is
-        upstream (0.07, 8 deg, 3 %).
+    Each field's meaning, unit and bounds are given with it (`waveforms.settings.setting`)
+    and checked when the object is made.
     """
 
-    energised_frac_fla: float = 0.05
-    dead_line_frac: float = 0.10
-    pair_balance: float = 0.25
-    min_open_cycles: int = 3
-    stall_frac_lr: float = 0.5
-    min_stall_s: float = 1.0
-    standstill_tol_3ph: float = 0.015
-    standstill_tol_1ph: float = 0.0015
-    stalled_single_phase_frac: float = 0.6
-    dip_threshold_pct: float = 90.0
-    swell_threshold_pct: float = 110.0
-    interruption_threshold_pct: float = 10.0
-    hysteresis_pct: float = 2.0
-    unbalance_threshold_pct: float = 1.0
-    unbalance_window_s: float = 1.0
-    unbalance_min_s: float = 2.0
-    upstream_residual_tol: float = 0.03
-    upstream_mag_tol: float = 0.07
-    upstream_angle_tol_deg: float = 8.0
-    upstream_v2_rise_pct: float = 3.0
+    energised_frac_fla: float = setting(0.05, "a line carries current when its fundamental exceeds this fraction of FLA [pu]", minimum=0.0)
+    dead_line_frac: float = setting(0.10, "a line is dead when its current is below this fraction of the larger of the other two [-]",
+                                    minimum=0.0, maximum=1.0)
+    pair_balance: float = setting(0.25, "with one line open the other two carry equal and opposite currents (Kirchhoff); "
+                                  "they must agree within this relative difference [-]", minimum=0.0)
+    min_open_cycles: int = setting(3, "consecutive dead-line cycles needed for an open phase [cycles]", minimum=1)
+    stall_frac_lr: float = setting(0.5, "stall region: largest line current above this fraction of the locked-rotor current "
+                                   "scaled by the supply voltage [-]", minimum=0.0)
+    min_stall_s: float = setting(1.0, "shortest stall reported [s]", minimum=0.0)
+    standstill_tol_3ph: float = setting(0.015, "the stall begins when the apparent impedance stays within this relative distance "
+                                        "of its standstill value, three-phase [-] (about 5 % of synchronous speed)", minimum=0.0)
+    standstill_tol_1ph: float = setting(0.0015, "the same, single-phased [-]", minimum=0.0)
+    stalled_single_phase_frac: float = setting(0.6, "single-phased and stalled above this fraction of the locked-rotor current [-] "
+                                               "(ideal single-phase locked-rotor current is sqrt(3)/2 = 0.866 of the three-phase one)",
+                                               minimum=0.0, maximum=1.0)
+    dip_threshold_pct: float = setting(90.0, "IEC 61000-4-30 5.4.2: dip below this Urms(1/2) [% of declared]", minimum=0.0)
+    swell_threshold_pct: float = setting(110.0, "IEC 61000-4-30 5.4.2: swell above this Urms(1/2) [% of declared]", minimum=0.0)
+    interruption_threshold_pct: float = setting(10.0, "IEC 61000-4-30 5.5: interruption below this on all channels [% of declared]",
+                                                minimum=0.0)
+    hysteresis_pct: float = setting(2.0, "IEC 61000-4-30 hysteresis of the thresholds above [% of declared]", minimum=0.0)
+    unbalance_threshold_pct: float = setting(1.0, "sustained NEMA line-voltage unbalance above this is an event [%] "
+                                             "(NEMA MG-1 derating starts above 1 %)", minimum=0.0)
+    unbalance_window_s: float = setting(1.0, "rolling-median window of the unbalance [s]", minimum=0.0)
+    unbalance_min_s: float = setting(2.0, "shortest sustained unbalance [s]", minimum=0.0)
+    upstream_residual_tol: float = setting(0.03, "upstream of the logger when the open line's line-to-line voltages moved by more "
+                                           "than this fraction beyond what the supply impedance explains [-]", minimum=0.0)
+    upstream_mag_tol: float = setting(0.07, "fallback test: relative change of the open line's voltage beyond which the open point "
+                                      "is upstream [-]", minimum=0.0)
+    upstream_angle_tol_deg: float = setting(8.0, "fallback test: angle change of the open line's voltage [deg]", minimum=0.0)
+    upstream_v2_rise_pct: float = setting(3.0, "fallback test: rise of V2/V1 [percentage points]", minimum=0.0)
+
+    def __post_init__(self) -> None:
+        check_fields(self)
 
     def to_dict(self) -> dict[str, Any]:
         return dataclasses.asdict(self)
@@ -118,10 +94,6 @@ class DetectionInput:
         Conductor -> channel label (``{"A": "Va", ...}``, ``{"A": "Ia", ...}``).
     voltage_reference : {"LN", "LL", None}
     params : DetectParams
-    events : list of Event
-        Filled as the detectors run.
-    notes : list of str
-        What a detector could not do or assumed.
     """
 
     cycles: pd.DataFrame
@@ -135,8 +107,6 @@ class DetectionInput:
     current_channels: dict[str, str] = dataclasses.field(default_factory=dict)
     voltage_reference: str | None = None
     params: DetectParams = dataclasses.field(default_factory=DetectParams)
-    events: list = dataclasses.field(default_factory=list)
-    notes: list[str] = dataclasses.field(default_factory=list)
 
     def __post_init__(self) -> None:
         if "t_s" not in self.cycles:
@@ -220,22 +190,36 @@ class DetectionInput:
 
     @functools.cached_property
     def current_ref_a(self) -> float:
-        """FLA, or (no nameplate) the median largest line current over cycles carrying current."""
+        """FLA, or (no nameplate) the median largest line current over cycles carrying current [A]."""
         if self.fla_a:
             return float(self.fla_a)
         m = self.i_max[np.isfinite(self.i_max)]
         if m.size == 0:
             return math.nan
         on = m[m > 0.05 * np.max(m)]
-        self.notes.append("no nameplate FLA: current thresholds scaled to the capture's median running current")
         return float(np.median(on)) if on.size else math.nan
 
     @functools.cached_property
     def locked_rotor_ref_a(self) -> float:
+        """The locked-rotor current, or (none given) 6 x `current_ref_a` [A]."""
         if self.locked_rotor_a:
             return float(self.locked_rotor_a)
-        self.notes.append("no locked-rotor current: 6 x the reference current assumed")
         return 6.0 * self.current_ref_a
+
+    def reference_notes(self, locked_rotor: bool = False) -> tuple[str, ...]:
+        """What `current_ref_a` (and, with ``locked_rotor``, `locked_rotor_ref_a`) assumed.
+
+        For the notes of a detector using them; empty without line currents
+        (nothing is scaled then) and for figures the nameplate gives.
+        """
+        if not np.isfinite(self.i_max).any():
+            return ()
+        out = []
+        if locked_rotor and not self.locked_rotor_a:
+            out.append("no locked-rotor current: 6 x the reference current assumed")
+        if not self.fla_a:
+            out.append("no nameplate FLA: current thresholds scaled to the capture's median running current")
+        return tuple(out)
 
     @functools.cached_property
     def energised(self) -> np.ndarray:

@@ -26,7 +26,7 @@ import numpy as np
 from ..errors import InvalidParameterError
 from .context import LINES, DetectionInput, runs, schmitt
 from .event import Event
-from .registry import register
+from .registry import Findings, register
 
 #: IEEE 1159 Table 2 duration bands (in cycles, then seconds) [2].
 _CYCLES_INSTANT = 30.0
@@ -109,7 +109,7 @@ def ieee1159_category(kind: str, duration_s: float | None, magnitude_pu: float, 
     return OUTSIDE_IEEE1159  # an interruption at or above 0.1 pu
 
 
-def _half_cycle_matrix(inp: DetectionInput) -> tuple[np.ndarray, np.ndarray, list[str]] | None:
+def _half_cycle_matrix(inp: DetectionInput, notes: list[str]) -> tuple[np.ndarray, np.ndarray, list[str]] | None:
     labels = [inp.voltage_channels[c] for c in LINES if c in inp.voltage_channels]
     if not labels:
         return None
@@ -123,24 +123,27 @@ def _half_cycle_matrix(inp: DetectionInput) -> tuple[np.ndarray, np.ndarray, lis
         hc = hc[hc["t_s"].to_numpy(float) - inp.cycle_s >= t_ok - 1e-9]
         return hc["t_s"].to_numpy(float), np.vstack([hc[f"{lab}_rms_half"].to_numpy(float) for lab in labels]), labels
     if all(f"{lab}_rms" in inp.cycles for lab in labels):
-        inp.notes.append("no Urms(1/2) table: dips assessed on one-cycle RMS values (IEC 61000-4-30 asks for Urms(1/2))")
+        notes.append("no Urms(1/2) table: dips assessed on one-cycle RMS values (IEC 61000-4-30 asks for Urms(1/2))")
         return inp.t_end_s, np.vstack([inp.cycles[f"{lab}_rms"].to_numpy(float) for lab in labels]), labels
     return None
 
 
-def declared_voltage(inp: DetectionInput, urms: np.ndarray) -> tuple[float, str]:
-    """Declared voltage of the channels [V] and where it came from."""
+def declared_voltage(inp: DetectionInput, urms: np.ndarray, notes: list[str] | None = None) -> tuple[float, str]:
+    """Declared voltage of the channels [V] and where it came from (the capture's median, said in ``notes``, when none)."""
     if inp.declared_voltage_ll_v:
         u = inp.declared_voltage_ll_v / (math.sqrt(3.0) if inp.voltage_reference == "LN" else 1.0)
         return float(u), "declared"
     med = float(np.nanmedian(urms))
-    inp.notes.append(f"no declared voltage: the capture's median Urms(1/2), {med:.1f} V, used as reference")
+    if notes is not None:
+        notes.append(f"no declared voltage: the capture's median Urms(1/2), {med:.1f} V, used as reference")
     return med, "capture median"
 
 
-def _open_phase_explains(inp: DetectionInput, start_s: float, end_s: float | None, low_channels: list[str]) -> bool:
+def _open_phase_explains(
+    inp: DetectionInput, open_phases: tuple[Event, ...], start_s: float, end_s: float | None, low_channels: list[str],
+) -> bool:
     """True when an upstream open phase on the line(s) of these channels overlaps the dip."""
-    for e in inp.events:
+    for e in open_phases:
         if e.kind != "open_phase" or not e.overlaps(start_s, end_s):
             continue
         line = e.phase
@@ -162,16 +165,19 @@ def _motor_off_at(inp: DetectionInput, t: np.ndarray) -> np.ndarray:
     return ~inp.energised[k]
 
 
-@register("dips")
-def detect_dips(inp: DetectionInput) -> list[Event]:
-    """Dips, swells and interruptions (IEC 61000-4-30 5.4, 5.5) with IEEE 1159 categories."""
-    got = _half_cycle_matrix(inp)
+@register("dips", needs=("open_phase",))
+def detect_dips(inp: DetectionInput, prior: dict) -> Findings:
+    """Dips, swells and interruptions (IEC 61000-4-30 5.4, 5.5) with IEEE 1159 categories.
+
+    A dip that an upstream open phase explains (``prior["open_phase"]``) is that event's, not reported again.
+    """
+    notes: list[str] = []
+    got = _half_cycle_matrix(inp, notes)
     if got is None:
-        inp.notes.append("no voltage channels: dips, swells and interruptions not assessed")
-        return []
+        return Findings(notes=(*notes, "no voltage channels: dips, swells and interruptions not assessed"))
     t, u, labels = got
     p = inp.params
-    udin, udin_src = declared_voltage(inp, u)
+    udin, udin_src = declared_voltage(inp, u, notes)
     pct = 100.0 * u / udin
     lo = np.nanmin(pct, axis=0)
     hi = np.nanmax(pct, axis=0)
@@ -187,6 +193,7 @@ def detect_dips(inp: DetectionInput) -> list[Event]:
     found: list[Event] = []
     interruptions: list[tuple[float, float | None]] = []
     motor_off = _motor_off_at(inp, t)
+    notes.extend(inp.reference_notes())  # the motor-current threshold of "de-energised"
     for kind, mask in (("interruption", in_int), ("dip", in_dip), ("swell", in_swell)):
         for a, b in runs(mask):
             start = float(t[a])
@@ -195,7 +202,7 @@ def detect_dips(inp: DetectionInput) -> list[Event]:
                 # no voltage and no current at a capture edge: the motor circuit is switched off on the
                 # supply side of the logger (or the supply is lost) -- shown as "de-energised", not as an interruption
                 interruptions.append((start, end))
-                inp.notes.append(
+                notes.append(
                     f"no voltage and no motor current from {start:.3f} s to {'the end' if end is None else f'{end:.3f} s'}: "
                     "motor circuit de-energised at the logger (switching device or supply); not reported as a supply interruption")
                 continue
@@ -210,7 +217,7 @@ def detect_dips(inp: DetectionInput) -> list[Event]:
                 mag = float(np.nanmin(seg))
                 thr = p.interruption_threshold_pct if kind == "interruption" else p.dip_threshold_pct
                 worst = [labels[int(k)] for k in np.flatnonzero(np.nanmin(seg, axis=1) < thr)]
-            if kind == "dip" and _open_phase_explains(inp, start, end, worst):
+            if kind == "dip" and _open_phase_explains(inp, prior["open_phase"], start, end, worst):
                 continue  # an upstream open phase, reported as such
             if kind == "interruption":
                 interruptions.append((start, end))
@@ -240,4 +247,4 @@ def detect_dips(inp: DetectionInput) -> list[Event]:
                     "hysteresis_pct": h,
                 },
             ))
-    return found
+    return Findings(tuple(found), tuple(notes))

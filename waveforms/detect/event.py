@@ -1,9 +1,18 @@
-"""The `Event`: one thing that happened in a capture, with the figures behind it."""
+"""The `Event`: one thing that happened in a capture, with the figures behind it; the events table.
+
+`EVENT_COLUMNS` is the one schema of the events table: ``events.csv``
+(`waveforms.report.events_csv`), the batch run's events table and
+`waveforms.recipe.RunState.events_frame` all write these columns, row by row
+through `event_row`.
+"""
 
 from __future__ import annotations
 
 import dataclasses
+import datetime as _dt
+import json
 import math
+from collections.abc import Iterable, Mapping
 from typing import Any
 
 import numpy as np
@@ -85,8 +94,38 @@ def plain(x: Any) -> Any:
     return x
 
 
-def events_frame(events: list[Event]) -> pd.DataFrame:
-    """One row per event: kind, phase, start_s, end_s, duration_s, summary, detector."""
-    cols = ["kind", "phase", "start_s", "end_s", "duration_s", "summary", "detector"]
-    rows = [{k: e.to_dict()[k] for k in cols} for e in events]
-    return pd.DataFrame(rows, columns=cols)
+def iso_at(start: _dt.datetime, t_s: float | None) -> str | None:
+    """``start + t_s`` as ISO 8601 with microseconds and UTC offset (None for None)."""
+    if t_s is None or not math.isfinite(t_s):
+        return None
+    return (start + _dt.timedelta(seconds=float(t_s))).isoformat(timespec="microseconds")
+
+
+#: Columns of the events table (events.csv, the batch events table, `events_frame`), in order.
+EVENT_COLUMNS: tuple[str, ...] = (
+    "kind", "phase", "start_s", "end_s", "duration_s", "start_time", "end_time", "summary", "detector", "figures_json",
+)
+
+
+def event_row(event: Event | Mapping[str, Any], start_time: _dt.datetime | None = None) -> dict[str, Any]:
+    """One row of the events table (`EVENT_COLUMNS`) from an `Event` or a result.json event.
+
+    ``start_time`` (the capture's start) gives the clock times ``start_time`` /
+    ``end_time``; a result.json event carries them already; otherwise they are None.
+    The supporting figures are one JSON cell, keys sorted.
+    """
+    d = dict(event) if isinstance(event, Mapping) else event.to_dict()
+    if start_time is not None and "start_time" not in d:
+        d["start_time"] = iso_at(start_time, d.get("start_s"))
+        d["end_time"] = iso_at(start_time, d.get("end_s"))
+    row = {c: d.get(c) for c in EVENT_COLUMNS[:-1]}
+    row["figures_json"] = json.dumps(plain(d.get("figures", {})), sort_keys=True, ensure_ascii=False)
+    return row
+
+
+def events_frame(events: Iterable[Event | Mapping[str, Any]], start_time: _dt.datetime | None = None) -> pd.DataFrame:
+    """The events table: one row per event, columns `EVENT_COLUMNS` (times in seconds as floats, NaN = open end)."""
+    frame = pd.DataFrame([event_row(e, start_time) for e in events], columns=list(EVENT_COLUMNS))
+    for c in ("start_s", "end_s", "duration_s"):
+        frame[c] = pd.to_numeric(frame[c], errors="coerce").astype(float)
+    return frame

@@ -28,14 +28,13 @@ import math
 
 import numpy as np
 
+from ..measure.sequence import A as _A  # the operator a = 1 /120 deg (Fortescue 1918)
 from .context import LINES, DetectionInput, runs, speed_summary
 from .event import Event
 from .pointonwave import refine_onset_s
-from .registry import register
+from .registry import Findings, register
 
-_A = cmath.exp(2j * math.pi / 3)  # the operator a = 1 /120 deg (Fortescue 1918)
 _NEXT = {"A": "B", "B": "C", "C": "A"}
-_PREV = {"A": "C", "B": "A", "C": "B"}
 
 
 def _ratio_series(inp: DetectionInput, line: str) -> tuple[np.ndarray, complex] | None:
@@ -209,8 +208,8 @@ def _location(inp: DetectionInput, line: str, a: int, b: int, onset_s: float | N
     return figs
 
 
-def _motor_after(inp: DetectionInput, start_s: float, end_s: float | None) -> dict:
-    stalls = [e for e in inp.events if e.kind == "stall" and e.overlaps(start_s, end_s)]
+def _motor_after(inp: DetectionInput, stall_events: tuple[Event, ...], start_s: float, end_s: float | None) -> dict:
+    stalls = [e for e in stall_events if e.kind == "stall" and e.overlaps(start_s, end_s)]
     figs: dict = speed_summary(inp.speed, start_s + 0.2, end_s)
     if stalls:
         s0 = min(e.start_s for e in stalls)
@@ -224,12 +223,11 @@ def _motor_after(inp: DetectionInput, start_s: float, end_s: float | None) -> di
     return figs
 
 
-@register("open_phase")
-def detect_open_phase(inp: DetectionInput) -> list[Event]:
-    """Open phases, one event per line and stretch."""
+@register("open_phase", needs=("stall",))
+def detect_open_phase(inp: DetectionInput, prior: dict) -> Findings:
+    """Open phases, one event per line and stretch; the stall events tell what the motor did."""
     if not inp.has_three_currents:
-        inp.notes.append("fewer than three line currents: open phase not assessed")
-        return []
+        return Findings(notes=("fewer than three line currents: open phase not assessed",))
     p = inp.params
     out: list[Event] = []
     f = 1.0 / inp.cycle_s
@@ -281,7 +279,7 @@ def detect_open_phase(inp: DetectionInput) -> list[Event]:
                     figs.update(loc)
             else:
                 figs.update(_location(inp, line, a, b, start_s if refined is not None else None))
-            figs.update(_motor_after(inp, start_s, end_s))
+            figs.update(_motor_after(inp, prior["stall"], start_s, end_s))
             where = {"upstream": "upstream of the logger", "downstream": "downstream of the logger (between logger and motor)"}.get(figs["location"], "at an undetermined place")
             when = "present from the capture start" if at_start else "present at energisation" if from_energisation else f"opened at {start_s:.4f} s"
             tail = {"phase returned": f", returned at {end_s:.4f} s" if end_s is not None else "",
@@ -291,4 +289,4 @@ def detect_open_phase(inp: DetectionInput) -> list[Event]:
                 summary=f"line {line} open ({when}{tail}), open point {where}; motor {figs['motor_state']}",
                 figures=figs,
             ))
-    return out
+    return Findings(tuple(out), inp.reference_notes())

@@ -1,60 +1,154 @@
-"""The detector registry: one entry per detector module, run in a fixed order.
+"""The detector registry: each detector declares the earlier detectors whose events it reads.
 
-Detectors run in `RUN_ORDER`; each sees the events found before it
-(`DetectionInput.events`), so that, e.g., the dip detector can leave out the
-voltage depression that an upstream open phase explains.
+A detector is a pure function ``(inp, prior) -> Findings``: ``inp`` is the
+shared, read-only `DetectionInput`; ``prior`` maps each detector named in its
+``needs`` to that detector's events (e.g. the dip detector leaves out the
+voltage depression that an upstream open phase explains, so it needs
+``open_phase``).  It returns its events and notes and changes nothing else,
+so running it twice, or as part of a subset, gives the same result.
+
+The run order is a topological order of the declared needs (ties by name,
+so it does not depend on which module was imported first); a cycle is refused.
 """
 
 from __future__ import annotations
 
-from collections.abc import Callable
+import dataclasses
+from collections.abc import Callable, Iterable, Mapping
 
 from ..errors import InvalidParameterError
 from .context import DetectionInput
 from .event import Event
 
-Detector = Callable[[DetectionInput], list[Event]]
+
+@dataclasses.dataclass(frozen=True)
+class Findings:
+    """What one detector found: its events and its notes (what it could not do or assumed)."""
+
+    events: tuple[Event, ...] = ()
+    notes: tuple[str, ...] = ()
+
+
+DetectorFunc = Callable[[DetectionInput, Mapping[str, tuple[Event, ...]]], Findings]
+
+
+@dataclasses.dataclass(frozen=True)
+class Detector:
+    """A registered detector: its name, the detectors whose events it reads, and the function."""
+
+    name: str
+    run: DetectorFunc
+    needs: tuple[str, ...] = ()
+
 
 DETECTORS: dict[str, Detector] = {}
 
-#: Run order of the built-in detectors (later ones read earlier events);
-#: detectors registered by other modules run after these, in registration order.
-RUN_ORDER: tuple[str, ...] = ("stall", "start", "open_phase", "dips", "unbalance")
 
+def register(name: str, needs: Iterable[str] = ()) -> Callable[[DetectorFunc], DetectorFunc]:
+    """Decorator: add a detector under ``name`` (unique) that reads the events of the detectors ``needs``."""
 
-def register(name: str) -> Callable[[Detector], Detector]:
-    """Decorator: add a detector under ``name`` (unique)."""
-
-    def deco(fn: Detector) -> Detector:
+    def deco(fn: DetectorFunc) -> DetectorFunc:
         if name in DETECTORS:
             raise InvalidParameterError(f"detector {name!r} is registered twice")
-        DETECTORS[name] = fn
+        DETECTORS[name] = Detector(name=name, run=fn, needs=tuple(needs))
         return fn
 
     return deco
 
 
 def _load_builtin() -> None:
-    # order matters: later detectors read earlier events
-    from . import stall, start, open_phase, dips, unbalance  # noqa: F401
+    from . import dips, open_phase, stall, start, unbalance  # noqa: F401
+
+
+def run_order(detectors: Mapping[str, Detector] | None = None) -> tuple[str, ...]:
+    """Detector names in a topological order of their needs (ties: by name).
+
+    Raises
+    ------
+    InvalidParameterError
+        A detector needs one that is not registered, or the needs form a cycle (named).
+    """
+    reg = DETECTORS if detectors is None else detectors
+    for d in reg.values():
+        missing = [n for n in d.needs if n not in reg]
+        if missing:
+            raise InvalidParameterError(f"detector {d.name!r} needs {missing}, which are not registered; known: {list(reg)}")
+    done: list[str] = []
+    left = sorted(reg)
+    while left:
+        ready = next((n for n in left if all(m in done for m in reg[n].needs)), None)
+        if ready is None:
+            raise InvalidParameterError(f"the detectors' needs form a cycle: {_cycle(reg, left)}")
+        done.append(ready)
+        left.remove(ready)
+    return tuple(done)
+
+
+def _cycle(reg: Mapping[str, Detector], left: list[str]) -> str:
+    """One cycle among the detectors ``left`` (each has an unmet need among them), as ``a -> b -> a``."""
+    path = [left[0]]
+    while True:
+        nxt = next(m for m in reg[path[-1]].needs if m in left)
+        if nxt in path:
+            loop = path[path.index(nxt):] + [nxt]
+            return " -> ".join(loop)
+        path.append(nxt)
 
 
 def detector_names() -> tuple[str, ...]:
     """Registered detectors in run order."""
     _load_builtin()
-    return tuple(n for n in RUN_ORDER if n in DETECTORS) + tuple(n for n in DETECTORS if n not in RUN_ORDER)
+    return run_order()
 
 
-def run_detectors(inp: DetectionInput, only: tuple[str, ...] | None = None) -> list[Event]:
-    """Run every registered detector (or those named in ``only``); events sorted by start."""
-    _load_builtin()
-    if only is not None:
-        bad = [n for n in only if n not in DETECTORS]
-        if bad:
-            raise InvalidParameterError(f"unknown detector(s) {bad}; known: {list(DETECTORS)}")
-    for name in detector_names():
-        if only is not None and name not in only:
-            continue
-        found = DETECTORS[name](inp)
-        inp.events.extend(found)
-    return sorted(inp.events, key=lambda e: (e.start_s, e.kind))
+def _with_needs(names: Iterable[str]) -> set[str]:
+    out: set[str] = set()
+    todo = list(names)
+    while todo:
+        n = todo.pop()
+        if n not in out:
+            out.add(n)
+            todo.extend(DETECTORS[n].needs)
+    return out
+
+
+@dataclasses.dataclass(frozen=True)
+class Detections:
+    """The outcome of `detect`: every requested detector's `Findings`, and the events and notes together."""
+
+    by_detector: dict[str, Findings]
+
+    @property
+    def events(self) -> list[Event]:
+        """All events, sorted by start and kind."""
+        return sorted((e for f in self.by_detector.values() for e in f.events), key=lambda e: (e.start_s, e.kind))
+
+    @property
+    def notes(self) -> list[str]:
+        """All notes in run order, each once."""
+        return list(dict.fromkeys(n for f in self.by_detector.values() for n in f.notes))
+
+
+def detect(inp: DetectionInput, only: Iterable[str] | None = None) -> Detections:
+    """Run every registered detector (or those named in ``only``, with what they need), in run order.
+
+    A detector named in ``only`` gets the events of the detectors it needs, run
+    for it but not reported, so its findings equal those of a full run.
+    """
+    order = detector_names()
+    wanted = set(order) if only is None else set(only)
+    bad = sorted(wanted - set(order))
+    if bad:
+        raise InvalidParameterError(f"unknown detector(s) {bad}; known: {list(order)}")
+    run = _with_needs(wanted)
+    found: dict[str, Findings] = {}
+    for name in order:
+        if name in run:
+            d = DETECTORS[name]
+            found[name] = d.run(inp, {n: found[n].events for n in d.needs})
+    return Detections({n: f for n, f in found.items() if n in wanted})
+
+
+def run_detectors(inp: DetectionInput, only: Iterable[str] | None = None) -> list[Event]:
+    """The events of `detect`, sorted by start and kind."""
+    return detect(inp, only).events

@@ -23,10 +23,11 @@ import math
 
 import numpy as np
 
+from ..measure.sequence import sequence_components
 from .context import LINES, DetectionInput, runs, speed_summary
 from .pointonwave import refine_onset_s
 from .event import Event
-from .registry import register
+from .registry import Findings, register
 
 
 def high_current_mask(inp: DetectionInput) -> tuple[np.ndarray, np.ndarray]:
@@ -48,9 +49,6 @@ def runs_on_after(inp: DetectionInput, b: int, cycles: int = 5) -> bool:
     if b >= inp.n:
         return False
     return bool(inp.energised[b : b + cycles].all())
-
-
-_A = complex(-0.5, math.sqrt(3.0) / 2.0)  # the operator a = 1 /120 deg (Fortescue 1918)
 
 
 def apparent_impedance(inp: DetectionInput, a: int, b: int) -> np.ndarray | None:
@@ -83,8 +81,7 @@ def apparent_impedance(inp: DetectionInput, a: int, b: int) -> np.ndarray | None
         v1 = inp.col("V1")
         if v1 is None:
             return None
-        # Fortescue (1918): I1 = (Ia + a Ib + a^2 Ic) / 3
-        i1 = (ph_i["A"] + _A * ph_i["B"] + _A * _A * ph_i["C"]) / 3.0
+        _, i1, _ = sequence_components(ph_i["A"], ph_i["B"], ph_i["C"])  # Fortescue (1918): I1 = (Ia + a Ib + a^2 Ic) / 3
         return (v1 / i1)[a:b]
 
 
@@ -129,11 +126,11 @@ def _dip_just_before(inp: DetectionInput, a: int) -> bool:
 
 
 @register("stall")
-def detect_stall(inp: DetectionInput) -> list[Event]:
+def detect_stall(inp: DetectionInput, prior: dict) -> Findings:
     """Stalls (locked rotor) on a healthy or single-phased supply."""
+    notes = inp.reference_notes(locked_rotor=True)
     if not np.isfinite(inp.i_max).any() or not np.isfinite(inp.locked_rotor_ref_a):
-        inp.notes.append("no line currents: stall not assessed")
-        return []
+        return Findings(notes=(*notes, "no line currents: stall not assessed"))
     p = inp.params
     high, thr = high_current_mask(inp)
     out: list[Event] = []
@@ -192,4 +189,4 @@ def detect_stall(inp: DetectionInput) -> list[Event]:
                      f"({100 * figs['i_over_locked_rotor']:.0f} % of locked-rotor current) for {dur_txt}"),
             figures=figs,
         ))
-    return out
+    return Findings(tuple(out), notes)

@@ -18,15 +18,16 @@ import numpy as np
 from .context import DetectionInput, runs, speed_summary
 from .event import Event
 from .pointonwave import refine_onset_s
-from .registry import register
+from .registry import Findings, register
 from .stall import high_current_mask
 
 
 @register("start")
-def detect_start(inp: DetectionInput) -> list[Event]:
+def detect_start(inp: DetectionInput, prior: dict) -> Findings:
     """Start attempts with inrush, acceleration time and outcome."""
+    notes = inp.reference_notes(locked_rotor=True)
     if not np.isfinite(inp.i_max).any() or not np.isfinite(inp.current_ref_a):
-        return []
+        return Findings(notes=notes)
     on = inp.energised
     high, _ = high_current_mask(inp)
     out: list[Event] = []
@@ -74,4 +75,4 @@ def detect_start(inp: DetectionInput) -> list[Event]:
             summary = f"failed start: inrush {inrush / fla:.1f} x FLA, {why}"
         figs.update(speed_summary(inp.speed, start_s, end_s))
         out.append(Event(kind="start", phase=None, start_s=start_s, end_s=end_s, summary=summary, figures=figs, detector="start"))
-    return out
+    return Findings(tuple(out), notes)

@@ -13,12 +13,14 @@ References
 
 from __future__ import annotations
 
+from collections.abc import Iterable
+
 import numpy as np
 import pandas as pd
 
 from .context import DetectionInput, runs
 from .event import Event
-from .registry import register
+from .registry import Findings, register
 
 #: NEMA MG-1 derating curve points (percent unbalance, derating factor), read
 #: off the published figure [1] (2.5 -> 0.93, 3 -> 0.89 middle of 0.88-0.90,
@@ -55,10 +57,10 @@ def extra_temperature_rise_pct(unbalance_pct: np.ndarray | float) -> np.ndarray:
     return 2.0 * x**2  # rule of thumb, 2 x (% unbalance)^2 %
 
 
-def _excluded(inp: DetectionInput) -> np.ndarray:
+def _excluded(inp: DetectionInput, events: Iterable[Event]) -> np.ndarray:
     """Cycles inside an open phase, dip, swell or interruption: not a steady supply unbalance."""
     ex = np.zeros(inp.n, dtype=bool)
-    for e in inp.events:
+    for e in events:
         if e.kind in ("open_phase", "dip", "swell", "interruption"):
             end = np.inf if e.end_s is None else e.end_s
             ex |= (inp.t_end_s >= e.start_s) & (inp.t_start_s <= end)
@@ -66,16 +68,18 @@ def _excluded(inp: DetectionInput) -> np.ndarray:
     return ex
 
 
-@register("unbalance")
-def detect_unbalance(inp: DetectionInput) -> list[Event]:
-    """Sustained NEMA line-voltage unbalance above the threshold, with the NEMA MG-1 derating."""
+@register("unbalance", needs=("open_phase", "dips"))
+def detect_unbalance(inp: DetectionInput, prior: dict) -> Findings:
+    """Sustained NEMA line-voltage unbalance above the threshold, with the NEMA MG-1 derating.
+
+    Cycles inside the open phases and the dips, swells and interruptions found before are left out.
+    """
     u = inp.col("V_unbal_nema_pct")
     if u is None:
-        inp.notes.append("no voltage unbalance column: supply unbalance not assessed")
-        return []
+        return Findings(notes=("no voltage unbalance column: supply unbalance not assessed",))
     p = inp.params
     win = max(1, int(round(p.unbalance_window_s / inp.cycle_s)))
-    masked = np.where(_excluded(inp), np.nan, u)
+    masked = np.where(_excluded(inp, (*prior["open_phase"], *prior["dips"])), np.nan, u)
     med = pd.Series(masked).rolling(win, center=True, min_periods=max(1, win // 2)).median().to_numpy()
     hot = np.isfinite(med) & (med > p.unbalance_threshold_pct)
     min_cycles = max(1, int(round(p.unbalance_min_s / inp.cycle_s)))
@@ -108,4 +112,4 @@ def detect_unbalance(inp: DetectionInput) -> list[Event]:
                      f"expect roughly {figs['extra_temperature_rise_pct']:.0f} % extra winding temperature rise (rule of thumb)"),
             figures=figs,
         ))
-    return out
+    return Findings(tuple(out), inp.reference_notes() if inp.has_three_currents else ())

@@ -28,22 +28,3 @@ def mean_products(x: np.ndarray, weights: np.ndarray) -> np.ndarray:
 def mean_square(x: np.ndarray, weights: np.ndarray) -> np.ndarray:
     """Weighted sum of squares and total weight: ``(sum w x^2 (n_win, n_ch), sum w (n_win,))``."""
     return np.einsum("kcl,kcl,kl->kc", x, x, weights), weights.sum(axis=1)
-
-
-def urms_half(sq_first: np.ndarray, w_first: np.ndarray, sq_second: np.ndarray, w_second: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """One-cycle RMS over each cycle and over each mid-cycle-to-mid-cycle window.
-
-    ``sq_first[k]`` / ``sq_second[k]`` (shape ``(m, n_ch)``) are the weighted
-    sums of squares of the first / second half of cycle k, ``w_*`` the summed
-    weights (shape ``(m,)``).  Returns ``full`` (m, n_ch): RMS over cycle k, and
-    ``mid`` (m - 1, n_ch): RMS from the middle of cycle k to the middle of
-    cycle k+1.  Interleaved in time they form Urms(1/2) [1]_.
-
-    References
-    ----------
-    .. [1] IEC 61000-4-30:2015, 5.4.1 (one-cycle window refreshed every half
-           cycle; clause number from memory).
-    """
-    full = np.sqrt((sq_first + sq_second) / (w_first + w_second)[:, None])  # IEC 61000-4-30 Urms(1/2)
-    mid = np.sqrt((sq_second[:-1] + sq_first[1:]) / (w_second[:-1] + w_first[1:])[:, None])
-    return full, mid

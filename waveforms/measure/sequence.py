@@ -19,8 +19,6 @@ from __future__ import annotations
 import numpy as np
 
 A = np.exp(2j * np.pi / 3.0)  # the operator a = 1 at 120 deg [1]
-#: Analysis matrix: [X0, X1, X2] = FORTESCUE @ [Xa, Xb, Xc] [1], [2].
-FORTESCUE = np.array([[1, 1, 1], [1, A, A * A], [1, A * A, A]]) / 3.0
 
 
 def sequence_components(xa: np.ndarray, xb: np.ndarray, xc: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:

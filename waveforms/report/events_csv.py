@@ -4,13 +4,12 @@ from __future__ import annotations
 
 import csv
 import io
-import json
 from typing import Any
 
-#: Columns of events.csv, in order.
-EVENT_CSV_COLUMNS: tuple[str, ...] = (
-    "kind", "phase", "start_s", "end_s", "duration_s", "start_time", "end_time", "summary", "detector", "figures_json",
-)
+from ..detect.event import EVENT_COLUMNS, event_row
+
+#: Columns of events.csv, in order: the one events-table schema (`waveforms.detect.event.EVENT_COLUMNS`).
+EVENT_CSV_COLUMNS: tuple[str, ...] = EVENT_COLUMNS
 
 
 def _cell(v: Any) -> Any:
@@ -26,6 +25,6 @@ def events_csv(events: list[dict[str, Any]]) -> str:
     w = csv.writer(buf, lineterminator="\n")
     w.writerow(EVENT_CSV_COLUMNS)
     for e in events:
-        row = [e.get(c) for c in EVENT_CSV_COLUMNS[:-1]] + [json.dumps(e.get("figures", {}), sort_keys=True, ensure_ascii=False)]
-        w.writerow([_cell(v) for v in row])
+        row = event_row(e)
+        w.writerow([_cell(row[c]) for c in EVENT_CSV_COLUMNS])
     return buf.getvalue()

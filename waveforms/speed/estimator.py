@@ -42,6 +42,7 @@ import pandas as pd
 
 from ..capture import Capture, Channel, from_arrays
 from ..errors import InvalidParameterError
+from ..settings import check_fields, setting
 from . import signatures as sg
 from .spectrum import (
     Candidates,
@@ -66,62 +67,32 @@ STATUS_ESTIMATE = "estimate"
 
 @dataclasses.dataclass(frozen=True)
 class SpeedSettings:
-    """Parameters of the speed search (all optional; defaults in brackets).
+    """Parameters of the speed search (all optional); each field's meaning and unit is given with it.
 
-    Parameters
-    ----------
-    window_s : float
-        Window length [s] (10).
-    hop_s : float or None
-        Step between window starts [s] (half the window).
-    min_slip : float
-        Lowest slip searched [-] (0).
-    max_slip : float or None
-        Highest slip searched [-]; default ``max_slip_factor`` x rated slip, capped at 0.5.
-    max_slip_factor : float
-        Multiple of the rated slip used when ``max_slip`` is not given [-] (5).
-    threshold_db : float
-        Least prominence of an accepted component over the local median floor [dB] (12).
-    min_components : int
-        Least number of different components that must agree on the slip (2).
-    pair_tol_bins : float
-        Agreement tolerance in natural frequency bins of the less sensitive component (0.5).
-    components : {"auto", "slot", "eccentricity"}
-        ``auto``: slot harmonics when the rotor bar count is known and the band is
-        unambiguous (always for the pair nu = -1, +1 with ``min_components >= 2``),
-        else (or when they are not found) eccentricity sidebands.
-    eccentricity_orders : tuple of int
-        Orders ``m`` of the sidebands ``f1 (1 +/- m (1-s)/p)`` ((1,)).
-    slot_nus : tuple of int
-        Signed odd ``nu`` of the slot harmonics ``f1 (R (1-s)/p + nu)`` ((-1, 1)).
-    guard_bins : float
-        Half-width of the guard zone around DC and each supply harmonic [natural bins] (5).
-    pad : int
-        Zero-padding factor of the coarse spectrum (4).
-    refine : {"parabola", "zoom"}
-        Peak interpolation: a parabola on the zero-padded grid (fast; bias < 5e-5 bin),
-        or a chirp-z zoom around each peak before the parabola ("parabola").
-    min_current_a : float or None
-        Below this RMS the window is ``no_current`` [A]; default 2 % of the nameplate FLA, else 0.01 A.
+    ``components="auto"`` uses slot harmonics when the rotor bar count is known
+    and the band is unambiguous (always for the pair nu = -1, +1 with
+    ``min_components >= 2``), else (or when they are not found) eccentricity sidebands.
     """
 
-    window_s: float = 10.0
-    hop_s: float | None = None
-    min_slip: float = 0.0
-    max_slip: float | None = None
-    max_slip_factor: float = 5.0
-    threshold_db: float = 12.0
-    min_components: int = 2
-    pair_tol_bins: float = 0.5
-    components: str = "auto"
-    eccentricity_orders: tuple[int, ...] = (1,)
-    slot_nus: tuple[int, ...] = (-1, 1)
-    guard_bins: float = 5.0
-    pad: int = 4
-    refine: str = "parabola"
-    min_current_a: float | None = None
+    window_s: float = setting(10.0, "window length [s]")
+    hop_s: float | None = setting(None, "step between window starts [s]; absent = half the window")
+    min_slip: float = setting(0.0, "lowest slip searched [-]")
+    max_slip: float | None = setting(None, "highest slip searched [-]; absent = max_slip_factor x rated slip, capped at 0.5")
+    max_slip_factor: float = setting(5.0, "multiple of the rated slip used when max_slip is not given [-]")
+    threshold_db: float = setting(12.0, "least prominence of an accepted component over the local median floor [dB]")
+    min_components: int = setting(2, "least number of different components that must agree on the slip [-]")
+    pair_tol_bins: float = setting(0.5, "agreement tolerance in natural frequency bins of the less sensitive component [bins]")
+    components: str = setting("auto", "'auto', 'slot' (rotor-slot harmonics) or 'eccentricity' (sidebands)")
+    eccentricity_orders: tuple[int, ...] = setting((1,), "orders m of the sidebands f1 (1 +/- m (1-s)/p) [-]")
+    slot_nus: tuple[int, ...] = setting((-1, 1), "signed odd nu of the slot harmonics f1 (R (1-s)/p + nu) [-]")
+    guard_bins: float = setting(5.0, "half-width of the guard zone around DC and each supply harmonic [natural bins]")
+    pad: int = setting(4, "zero-padding factor of the coarse spectrum [-]")
+    refine: str = setting("parabola", "peak interpolation: 'parabola' on the zero-padded grid (fast; bias < 5e-5 bin) "
+                          "or 'zoom' (chirp-z zoom around each peak first)")
+    min_current_a: float | None = setting(None, "below this RMS a window is no_current [A]; absent = 2 % of the nameplate FLA, else 0.01 A")
 
     def __post_init__(self) -> None:
+        check_fields(self)  # types; the bounds below are the speed search's own
         if not (0.05 <= self.window_s <= 600):
             raise InvalidParameterError(f"window_s={self.window_s!r} must be between 0.05 and 600 s")
         if self.hop_s is not None and not (0 < self.hop_s):
