@@ -26,20 +26,6 @@ from .detect.event import iso_at
 from .errors import InvalidParameterError, WaveformsError
 from .motor.nameplate import Nameplate
 from .motor.thermal import TRIP_CLASS_TARGET_S, ThermalParams, ThermalResult, assess_thermal
-from .settings import Rule, check_fields, register_rules
-
-# The rules of `ThermalParams` (waveforms/motor/thermal.py cannot carry them yet): one bound per
-# parameter, met by `assess_motor_thermal`, the thermal recipe stage and the command line alike.
-register_rules(ThermalParams, {
-    "motor_tau_s": Rule("heating time constant of the motor [s]; 600 s is an assumption (no source): give the maker's figure",
-                        check=lambda v: None if v >= 1.0 else
-                        f"{v!r} is below the minimum 1 s (a heating time constant is positive, and no motor's is under 1 s)"),
-    "k_neg": Rule("negative-sequence heating weight K [-]; absent = 175 / I_LR^2 (IEEE C37.96, from memory)", minimum=0.0),
-    "relay_setting_a": Rule("overload relay current setting [A]; absent = nameplate FLA",
-                            check=lambda v: None if v > 0 else f"{v!r} must be positive"),
-    "trip_classes": Rule("IEC 60947-4-1 trip classes to evaluate", choices=tuple(TRIP_CLASS_TARGET_S)),
-    "hot_start": Rule("start the thermal models from steady rated current (1 pu) rather than cold"),
-})
 
 #: Motor states shaded on the report's timeline, in order of precedence.
 STATES: tuple[str, ...] = ("de-energised", "single-phased, stalled", "stalled", "single-phased", "three-phase")
@@ -415,7 +401,6 @@ def assess_motor_thermal(
         None without a nameplate or without a line-current column.
     """
     tparams = params or ThermalParams()
-    check_fields(tparams)
     if nameplate is None or cycles is None or not any(f"I{c}_rms" in cycles for c in "abc"):
         return None, []
     thermal = assess_thermal(

@@ -206,15 +206,11 @@ class Stage:
         InvalidParameterError
             A combination the settings class refuses.
         """
-        from .settings import check_fields
-
         out = []
         for cls in self._classes():
             kw = {f.name: params[f.name] for f in dataclasses.fields(cls) if params.get(f.name) is not None}
             kw = {k: tuple(v) if isinstance(v, list) else v for k, v in kw.items()}
-            obj = cls(**kw)
-            check_fields(obj)  # for a class that cannot call it from its own __post_init__
-            out.append(obj)
+            out.append(cls(**kw))  # each settings class checks its fields in __post_init__
         return tuple(out)
 
 
@@ -748,8 +744,6 @@ def _register_builtin() -> None:
     from .detect import DetectParams
     from .motor.thermal import ThermalParams
     from .speed.estimator import SpeedSettings
-
-    from . import analysis  # noqa: F401  (gives ThermalParams its rules)
 
     register_stage(Stage(
         name="import", description="read the capture file (format recognised unless given) and attach the nameplate",

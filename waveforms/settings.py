@@ -5,8 +5,7 @@ Every settings object of the chain (`waveforms.detect.DetectParams`,
 declares each field with `setting` (default, meaning with the unit, bounds or
 choices) and calls `check_fields` from ``__post_init__``; the field's bound is
 then written once, and the recipe tables, the command line and the library
-all meet the same check.  A settings class that cannot carry the metadata
-itself has its rules given once with `register_rules`.
+all meet the same check.
 
 `check_fields` raises `SettingError`, which names the field, so a recipe can
 say ``key detect.min_stall_s: -1 is below the minimum 0``.
@@ -66,21 +65,9 @@ def setting(default: Any, doc: str, **rule: Any) -> Any:
     return dataclasses.field(default=default, metadata={"rule": Rule(doc=doc, **rule)})
 
 
-_EXTERNAL: dict[type, dict[str, Rule]] = {}
-
-
-def register_rules(cls: type, rules: Mapping[str, Rule]) -> None:
-    """Give the rules of a settings class defined where field metadata cannot be added."""
-    names = {f.name for f in dataclasses.fields(cls)}
-    unknown = set(rules) - names
-    if unknown:
-        raise InvalidParameterError(f"{cls.__name__} has no field(s) {sorted(unknown)}")
-    _EXTERNAL[cls] = dict(rules)
-
-
 def rule_of(cls: type, field: dataclasses.Field) -> Rule:
-    ext = _EXTERNAL.get(cls, {})
-    return ext.get(field.name) or field.metadata.get("rule") or Rule()
+    """The `Rule` a field was declared with (`setting`); an empty rule for a plain field."""
+    return field.metadata.get("rule") or Rule()
 
 
 def kind_of(field: dataclasses.Field) -> tuple[str, bool]:
@@ -153,5 +140,5 @@ def field_table(cls: type) -> list[tuple[dataclasses.Field, str, Rule]]:
     return [(f, kind_of(f)[0], rule_of(cls, f)) for f in dataclasses.fields(cls)]
 
 
-__all__ = ["KINDS", "Rule", "SettingError", "check_fields", "field_table", "kind_of", "problem_with", "register_rules",
+__all__ = ["KINDS", "Rule", "SettingError", "check_fields", "field_table", "kind_of", "problem_with",
            "rule_of", "setting"]

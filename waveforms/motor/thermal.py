@@ -40,6 +40,7 @@ import pandas as pd
 from scipy.signal import lfilter
 
 from ..errors import InvalidParameterError
+from ..settings import check_fields, setting
 
 #: IEC 60947-4-1 trip-class bands: (lowest, highest) trip time [s] at 7.2 x the
 #: current setting, from the cold state ([3]).
@@ -228,11 +229,21 @@ class ThermalParams:
         Start the models from the state of steady rated current (1 pu) rather than cold.
     """
 
-    motor_tau_s: float = 600.0
-    k_neg: float | None = None
-    relay_setting_a: float | None = None
-    trip_classes: tuple[str, ...] = ("10", "20", "30")
-    hot_start: bool = False
+    motor_tau_s: float = setting(
+        600.0, "heating time constant of the motor [s]; 600 s is an assumption (no source): give the maker's figure",
+        check=lambda v: None if v >= 1.0 else
+        f"{v!r} is below the minimum 1 s (a heating time constant is positive, and no motor's is under 1 s)")
+    k_neg: float | None = setting(
+        None, "negative-sequence heating weight K [-]; absent = 175 / I_LR^2 (IEEE C37.96, from memory)", minimum=0.0)
+    relay_setting_a: float | None = setting(
+        None, "overload relay current setting [A]; absent = nameplate FLA",
+        check=lambda v: None if v > 0 else f"{v!r} must be positive")
+    trip_classes: tuple[str, ...] = setting(
+        ("10", "20", "30"), "IEC 60947-4-1 trip classes to evaluate", choices=tuple(TRIP_CLASS_TARGET_S))
+    hot_start: bool = setting(False, "start the thermal models from steady rated current (1 pu) rather than cold")
+
+    def __post_init__(self) -> None:
+        check_fields(self)  # one bound per field, written above; met by the library, recipes and CLI alike
 
 
 @dataclasses.dataclass(frozen=True)
