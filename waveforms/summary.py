@@ -39,15 +39,17 @@ VERDICT_CLASSES: tuple[tuple[str, str], ...] = (
 )
 NO_EVENT_VERDICT = "no event found"
 NOT_ASSESSED_VERDICT = "not assessed"
-_EVENT_COLS = [c for k in EVENT_KINDS for c in (f"n_{k}", f"first_{k}_s")]
+#: Per event kind: its count and the capture-relative time of its first event [s].
+EVENT_COUNT_COLUMNS: tuple[str, ...] = tuple(c for k in EVENT_KINDS for c in (f"n_{k}", f"first_{k}_s"))
 _TAIL = ["verdict_text", "worst_i2_i1_pct", "max_current_x_fla", "thermal_capacity_used_pct", "nameplate", "error",
          "report", "outputs", "path", "sha256", "recipe", "recipe_hash", "elapsed_s", "notes"]
 #: Summary columns, in order.
 _EVENT_TIME_COLS = [f"first_{k}_time" for k in EVENT_KINDS]
-SUMMARY_COLUMNS: tuple[str, ...] = tuple(_HEAD + _EVENT_COLS + _TAIL + _EVENT_TIME_COLS)
-_FLOAT_COLS = {"duration_s", "worst_i2_i1_pct", "max_current_x_fla", "thermal_capacity_used_pct", "elapsed_s"} | {
-    f"first_{k}_s" for k in EVENT_KINDS}
-_INT_COLS = {f"n_{k}" for k in EVENT_KINDS}
+SUMMARY_COLUMNS: tuple[str, ...] = tuple(_HEAD + list(EVENT_COUNT_COLUMNS) + _TAIL + _EVENT_TIME_COLS)
+#: Summary columns held as floats (NaN when absent) and as whole numbers.
+FLOAT_COLUMNS: frozenset[str] = frozenset({"duration_s", "worst_i2_i1_pct", "max_current_x_fla", "thermal_capacity_used_pct", "elapsed_s"} | {
+    f"first_{k}_s" for k in EVENT_KINDS})
+INT_COLUMNS: frozenset[str] = frozenset(f"n_{k}" for k in EVENT_KINDS)
 
 
 # -- rows --------------------------------------------------------------------------------
@@ -148,9 +150,9 @@ def summary_frame(rows: Sequence[Mapping[str, Any]]) -> pd.DataFrame:
     """Rows in the fixed column order, numbers as floats / nullable integers, text as strings."""
     frame = pd.DataFrame.from_records([{c: r.get(c) for c in SUMMARY_COLUMNS} for r in rows], columns=list(SUMMARY_COLUMNS))
     for c in SUMMARY_COLUMNS:
-        if c in _FLOAT_COLS:
+        if c in FLOAT_COLUMNS:
             frame[c] = pd.to_numeric(frame[c], errors="coerce").astype("float64")
-        elif c in _INT_COLS:
+        elif c in INT_COLUMNS:
             frame[c] = pd.to_numeric(frame[c], errors="coerce").astype("Int64")
         else:
             frame[c] = frame[c].fillna("").astype(str)

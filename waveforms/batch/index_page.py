@@ -25,7 +25,7 @@ import jinja2
 import pandas as pd
 from markupsafe import Markup
 
-from ..summary import _EVENT_COLS, _FLOAT_COLS, _INT_COLS
+from ..summary import EVENT_COUNT_COLUMNS, FLOAT_COLUMNS, INT_COLUMNS
 
 TEMPLATES = Path(__file__).resolve().parent.parent / "report" / "templates"
 TEMPLATE = "archive_index.html.j2"
@@ -33,7 +33,7 @@ SCRIPT = "archive_index.js"
 
 #: Summary columns shown, in order.
 SHOWN = ["file", "site", "verdict", "start", "duration_s", "max_current_x_fla", "worst_i2_i1_pct",
-         "thermal_capacity_used_pct"] + _EVENT_COLS + ["nameplate", "error"]
+         "thermal_capacity_used_pct"] + list(EVENT_COUNT_COLUMNS) + ["nameplate", "error"]
 
 #: Column headings shown above the machine names (the names stay as in summary.csv).
 LABELS = {
@@ -64,7 +64,7 @@ def _script() -> tuple[str, str]:
 def _fmt(value: Any, col: str) -> str:
     if value is None or value is pd.NA or (isinstance(value, float) and not math.isfinite(value)):
         return ""
-    if col in _FLOAT_COLS:
+    if col in FLOAT_COLUMNS:
         return f"{float(value):.3f}" if col.endswith("_s") else f"{float(value):.2f}"
     return str(value)
 
@@ -72,7 +72,7 @@ def _fmt(value: Any, col: str) -> str:
 def _cell(rec: dict[str, Any], c: str) -> dict[str, Any]:
     val = rec.get(c)
     shown = _fmt(val, c)
-    num = c in _FLOAT_COLS or c in _INT_COLS
+    num = c in FLOAT_COLUMNS or c in INT_COLUMNS
     href = None
     if c == "file" and rec.get("report"):
         href = urllib.parse.quote(str(rec["report"]), safe="/")
