@@ -43,7 +43,18 @@ _MEAN_PREFIXES = ("PF", "DPF")
 
 
 def declared_voltages(half_cycles: pd.DataFrame, info: dict[str, Any]) -> dict[str, float]:
-    """Declared voltage [V] per phase-voltage column of the half-cycle table, and how it was set."""
+    """Declared voltage [V] per phase-voltage column of the half-cycle table, and how it was set.
+
+    Examples
+    --------
+    With a declared 400 V (line-to-line) system the phase channels are judged
+    against 400 / sqrt(3) = 230.9 V:
+
+    >>> import pandas as pd
+    >>> half = pd.DataFrame({"t_s": [0.01, 0.02], "Va_rms_half": [231.0, 229.0]})
+    >>> {k: round(float(v), 1) for k, v in declared_voltages(half, {"channels": {"Va": "LN"}, "nominal_voltage_v": 400.0}).items()}
+    {'Va': 230.9}
+    """
     refs = info.get("channels", {})
     out: dict[str, float] = {}
     vnom = info.get("nominal_voltage_v")
@@ -79,6 +90,23 @@ def aggregate(cycles: pd.DataFrame, half_cycles: pd.DataFrame, kind: str, info: 
 
     Returns a DataFrame with ``t_start_s``, ``t_end_s``, ``n_cycles``, ``dip``,
     ``interruption``, ``flagged`` and the aggregated columns.
+
+    Examples
+    --------
+    Twenty 50 Hz cycles make two basic (10-cycle) intervals; a half cycle at
+    80 % of declared in the second flags it as a dip (IEC 61000-4-30 4.7):
+
+    >>> import numpy as np
+    >>> import pandas as pd
+    >>> k = np.arange(20)
+    >>> cycles = pd.DataFrame({"cycle": k, "t_s": (k + 0.5) / 50, "t_start_s": k / 50, "t_end_s": (k + 1) / 50,
+    ...                        "Va_rms": np.full(20, 230.0)})
+    >>> v_half = np.full(40, 230.0); v_half[30] = 184.0
+    >>> half = pd.DataFrame({"t_s": (np.arange(40) + 2) / 100, "Va_rms_half": v_half})
+    >>> info = {"channels": {"Va": "LN"}, "nominal_voltage_v": 398.4, "harmonic_window_cycles": 10}
+    >>> out = aggregate(cycles, half, "basic", info)
+    >>> out[["t_start_s", "t_end_s", "n_cycles", "dip", "Va_rms"]].round(1).to_dict("list")
+    {'t_start_s': [0.0, 0.2], 't_end_s': [0.2, 0.4], 'n_cycles': [10, 10], 'dip': [False, True], 'Va_rms': [230.0, 230.0]}
     """
     if kind not in KINDS:
         raise InvalidParameterError(f"interval kind={kind!r} must be one of {KINDS}")

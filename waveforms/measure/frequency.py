@@ -43,6 +43,11 @@ def reference_coefficients(conductors: list[str]) -> np.ndarray:
     ----------
     .. [1] E. Clarke, *Circuit Analysis of A-C Power Systems*, Vol. I, Wiley,
            1943 (alpha-beta-zero components).
+
+    Examples
+    --------
+    >>> reference_coefficients(["A", "B", "C"]).round(3).tolist()
+    [0.667, -0.333, -0.333]
     """
     n = len(conductors)
     if n == 3:
@@ -56,7 +61,13 @@ def reference_coefficients(conductors: list[str]) -> np.ndarray:
 
 
 def lowpass_sos(fs_hz: float, f_nom_hz: float) -> np.ndarray:
-    """2nd-order Butterworth low-pass at twice the nominal frequency (little ringing after abrupt events)."""
+    """2nd-order Butterworth low-pass at twice the nominal frequency (little ringing after abrupt events).
+
+    Examples
+    --------
+    >>> lowpass_sos(10_000.0, 50.0).shape  # one second-order section
+    (1, 6)
+    """
     cutoff = min(2.0 * f_nom_hz, 0.45 * fs_hz)
     return signal.butter(2, cutoff, btype="low", fs=fs_hz, output="sos")
 
@@ -66,6 +77,21 @@ def filtered_reference(ref: np.ndarray, sos: np.ndarray, pad_samples: int = 0) -
 
     ``pad_samples`` of odd (point-reflected) extension at each end, about two
     cycles, keep the start-up transient of the filter out of the first crossings.
+
+    Examples
+    --------
+    The fundamental keeps its phase (zero-phase filtering), so the zero
+    crossings stay where they were; its amplitude is that of a 2nd-order
+    Butterworth applied twice, 1 / (1 + (f/fc)^4) = 0.941 at f/fc = 1/2
+    (Butterworth magnitude response, common practice, no source):
+
+    >>> import numpy as np
+    >>> fs = 10_000.0
+    >>> t = np.arange(5000) / fs
+    >>> x = np.sin(2 * np.pi * 50 * t)
+    >>> y = filtered_reference(x, lowpass_sos(fs, 50.0), pad_samples=400)
+    >>> print(f"{y[1000:4000].max():.3f}", rising_crossings(y[1000:4000], fs, 1.0).round(2).tolist()[:3])
+    0.941 [0.0, 200.0, 400.0]
     """
     ref = np.where(np.isfinite(ref), ref, 0.0)
     if ref.size <= 3 * (2 * sos.shape[0] + 1):
@@ -79,6 +105,16 @@ def rising_crossings(ref: np.ndarray, fs_hz: float, min_slope_per_s: float) -> n
 
     The position is interpolated linearly between the two samples that bracket
     the crossing (common practice, no source).
+
+    Examples
+    --------
+    A 50 Hz sine sampled at 1 kS/s, starting 1 ms after a zero crossing, crosses
+    upwards 19 samples later, then every 20 samples:
+
+    >>> import numpy as np
+    >>> x = np.sin(2 * np.pi * 50 * (np.arange(100) + 1) / 1000.0)
+    >>> rising_crossings(x, 1000.0, min_slope_per_s=10.0).round(6).tolist()
+    [19.0, 39.0, 59.0, 79.0]
     """
     i = np.flatnonzero((ref[:-1] < 0.0) & (ref[1:] >= 0.0))
     d = ref[i + 1] - ref[i]
@@ -95,6 +131,18 @@ def cycle_boundaries(
     Grid boundaries sit at ``m * fs / f_nom`` samples from the capture start
     (``start_index`` is the block's first absolute sample), only where no
     crossing lies within `GRID_CLEARANCE` nominal periods.
+
+    Examples
+    --------
+    Tracked crossings in the first half of a block, none in the second (a dead
+    reference): grid boundaries at the nominal period fill the rest:
+
+    >>> import numpy as np
+    >>> b, tracked = cycle_boundaries(np.array([19.0, 39.0, 59.0]), 200, 0, 1000.0, 50.0)
+    >>> b.tolist()
+    [19.0, 39.0, 59.0, 80.0, 100.0, 120.0, 140.0, 160.0, 180.0]
+    >>> tracked.tolist()
+    [True, True, True, False, False, False, False, False, False]
     """
     period = fs_hz / f_nom_hz
     m0 = int(np.ceil(start_index / period))
@@ -126,6 +174,15 @@ def cycle_frequency(boundaries: np.ndarray, tracked: np.ndarray, fs_hz: float, f
     """Frequency [Hz] of each cycle ``boundaries[k] -> boundaries[k+1]``; NaN where not tracked.
 
     Returns one value per cycle (``len(boundaries) - 1``).
+
+    Examples
+    --------
+    Cycles of 200 samples at 10 kS/s are 50 Hz; a cycle between grid boundaries is not tracked:
+
+    >>> import numpy as np
+    >>> b = np.array([0.0, 200.0, 400.0, 600.0, 800.0])
+    >>> cycle_frequency(b, np.array([True, True, True, True, False]), 10_000.0, 50.0).tolist()
+    [50.0, 50.0, 50.0, nan]
     """
     length = np.diff(boundaries)
     nominal = fs_hz / f_nom_hz

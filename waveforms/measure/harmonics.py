@@ -26,12 +26,30 @@ THD_MAX_ORDER = 40
 
 
 def window_cycles(f_nom_hz: float) -> int:
-    """Cycles per window: 10 at 50 Hz, 12 at 60 Hz (IEC 61000-4-7 4.4.1, from memory)."""
+    """Cycles per window: 10 at 50 Hz, 12 at 60 Hz (IEC 61000-4-7 4.4.1, from memory).
+
+    Examples
+    --------
+    >>> window_cycles(50.0), window_cycles(60.0)
+    (10, 12)
+    """
     return 12 if f_nom_hz == 60.0 else 10
 
 
 def line_spectra(windows: np.ndarray) -> np.ndarray:
-    """RMS magnitude of each DFT line of equal-length windows, shape ``(..., N//2 + 1)``."""
+    """RMS magnitude of each DFT line of equal-length windows, shape ``(..., N//2 + 1)``.
+
+    Examples
+    --------
+    A 10-cycle window of a 50 Hz, 10 A RMS sine sampled at 5 kS/s has its whole
+    RMS on line 10 (the lines are 5 Hz apart):
+
+    >>> import numpy as np
+    >>> t = np.arange(1000) / 5000.0
+    >>> c = line_spectra(10 * np.sqrt(2) * np.sin(2 * np.pi * 50 * t))
+    >>> print(int(np.argmax(c)), f"{c.max():.3f}")
+    10 10.000
+    """
     n = windows.shape[-1]
     c = np.abs(np.fft.rfft(windows, axis=-1)) * (np.sqrt(2.0) / n)  # peak/sqrt2 of each line
     c[..., 0] /= np.sqrt(2.0)                                      # DC line is not a sinusoid
@@ -44,6 +62,17 @@ def groups(c: np.ndarray, n_cycles: int, max_order: int = MAX_ORDER) -> np.ndarr
     G_n^2 = C_{k-N/2}^2 / 2 + sum_{i=-N/2+1}^{N/2-1} C_{k+i}^2 + C_{k+N/2}^2 / 2,
     k = n N (IEC 61000-4-7 3.2, eq. (8) for N = 10; the same rule with N = 12 at 60 Hz).
     Orders whose group runs past the Nyquist line are NaN.
+
+    Examples
+    --------
+    The fifth harmonic at 20 % of the fundamental, in a 10-cycle window:
+
+    >>> import numpy as np
+    >>> t = np.arange(1000) / 5000.0
+    >>> x = np.sqrt(2) * (10 * np.sin(2 * np.pi * 50 * t) + 2 * np.sin(2 * np.pi * 250 * t))
+    >>> g = groups(line_spectra(x), 10)
+    >>> print(f"G1 = {g[0]:.3f}, G5 = {g[4]:.3f}")
+    G1 = 10.000, G5 = 2.000
     """
     h = n_cycles // 2
     p = np.square(c)
@@ -59,7 +88,16 @@ def groups(c: np.ndarray, n_cycles: int, max_order: int = MAX_ORDER) -> np.ndarr
 
 
 def subgroups(c: np.ndarray, n_cycles: int, max_order: int = MAX_ORDER) -> np.ndarray:
-    """Harmonic subgroup magnitudes: sqrt(C_{k-1}^2 + C_k^2 + C_{k+1}^2), k = n N (IEC 61000-4-7 3.2, eq. (9))."""
+    """Harmonic subgroup magnitudes: sqrt(C_{k-1}^2 + C_k^2 + C_{k+1}^2), k = n N (IEC 61000-4-7 3.2, eq. (9)).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> t = np.arange(1000) / 5000.0
+    >>> x = np.sqrt(2) * (10 * np.sin(2 * np.pi * 50 * t) + 2 * np.sin(2 * np.pi * 250 * t))
+    >>> print(f"{subgroups(line_spectra(x), 10)[4]:.3f}")
+    2.000
+    """
     p = np.square(c)
     nline = p.shape[-1]
     k = np.arange(1, max_order + 1) * n_cycles
@@ -75,6 +113,15 @@ def thd_pct(g: np.ndarray, max_order: int = THD_MAX_ORDER) -> np.ndarray:
     References
     ----------
     .. [1] IEC 61000-4-7, 3.3.2 / 3.3.3 (THDG, THDS; from memory).
+
+    Examples
+    --------
+    Fifth and seventh harmonics at 4 % and 3 % give a THD of 5 %:
+
+    >>> import numpy as np
+    >>> g = np.zeros(50); g[0], g[4], g[6] = 100.0, 4.0, 3.0
+    >>> print(f"{thd_pct(g):.1f}")
+    5.0
     """
     h = g[..., 1:max_order]
     with np.errstate(invalid="ignore", divide="ignore"):

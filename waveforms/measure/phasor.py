@@ -36,6 +36,13 @@ def basis(first: np.ndarray, width: int, centre: np.ndarray, omega_rad_s: np.nda
     """Regressors ``[1, cos w tau, sin w tau]`` for every window sample, shape ``(n_win, 3, width)``.
 
     ``tau`` [s] is the sample time minus the window centre (both in samples / fs).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> r = basis(np.array([0]), 5, np.array([2.0]), np.array([2 * np.pi * 50.0]), 1000.0)
+    >>> r.shape
+    (1, 3, 5)
     """
     tau = (first[:, None] + np.arange(width)[None, :] - centre[:, None]) / fs_hz
     arg = omega_rad_s[:, None] * tau
@@ -63,6 +70,24 @@ def fit_phasors(x: np.ndarray, weights: np.ndarray, regressors: np.ndarray) -> t
         RMS phasor at the window centre, angle of the cosine at the centre [rad].
     offset : ndarray, shape (n_win, n_ch)
         Fitted DC offset [V or A].
+
+    Examples
+    --------
+    One window of exactly one 50 Hz period at 10 kS/s of a 325.27 V peak cosine
+    at +30 degrees (230 V RMS), centred on the window's middle:
+
+    >>> import numpy as np
+    >>> from waveforms.measure.windows import gather, window_weights
+    >>> fs, f = 10_000.0, 50.0
+    >>> t = np.arange(400) / fs
+    >>> x = 230 * np.sqrt(2) * np.cos(2 * np.pi * f * t + np.pi / 6)
+    >>> first, w = window_weights(np.array([100.0]), np.array([300.0]))
+    >>> xs = gather(x[None, :], first, w.shape[1])
+    >>> reg = basis(first, w.shape[1], np.array([200.0]), np.array([2 * np.pi * f]), fs)
+    >>> ph, dc = fit_phasors(xs, w, reg)
+    >>> ph_t0 = to_nominal_frame(ph, np.array([200.0 / fs]), f)  # angle against cos(2 pi f t)
+    >>> print(f"{abs(ph_t0[0, 0]):.2f} V at {np.degrees(np.angle(ph_t0[0, 0])):.2f} deg")
+    230.00 V at 30.00 deg
     """
     wr = regressors * weights[:, None, :]                    # (n_win, 3, width)
     gram = np.einsum("kil,kjl->kij", wr, regressors)         # normal matrix (n_win, 3, 3)
@@ -79,6 +104,15 @@ def to_nominal_frame(phasor: np.ndarray, centre_s: np.ndarray, f_nom_hz: float) 
     ----------
     .. [1] IEEE Std C37.118.1-2011, clause 4.2, eq. (2)-(3): X = (Xm / sqrt 2)
            exp(j((w - w0) t + phi)).
+
+    Examples
+    --------
+    A phasor of angle 0 at a window centred 5 ms into a 50 Hz capture is, in
+    the frame of a cosine starting at t = 0, a quarter period (90 degrees) behind:
+
+    >>> import numpy as np
+    >>> print(f"{np.degrees(np.angle(to_nominal_frame(np.array(1 + 0j), 0.005, 50.0))):.1f}")
+    -90.0
     """
     ang = np.mod(2.0 * np.pi * f_nom_hz * np.asarray(centre_s), 2.0 * np.pi)
     return phasor * np.exp(-1j * ang)[..., None] if phasor.ndim == 2 else phasor * np.exp(-1j * ang)
@@ -90,5 +124,14 @@ def total_vector_error(estimate: np.ndarray, reference: np.ndarray) -> np.ndarra
     References
     ----------
     .. [1] IEEE Std C37.118.1-2011, clause 4.3, eq. (4).
+
+    Examples
+    --------
+    A 1 % magnitude error alone, and a 0.573 degree angle error alone, each give
+    a TVE of about 1 % (IEEE C37.118.1-2011, 4.3):
+
+    >>> import numpy as np
+    >>> print(f"{total_vector_error(1.01, 1.0):.4f} {total_vector_error(np.exp(1j * np.radians(0.573)), 1.0):.4f}")
+    0.0100 0.0100
     """
     return np.abs(np.asarray(estimate) - np.asarray(reference)) / np.abs(reference)

@@ -27,6 +27,23 @@ def sequence_components(xa: np.ndarray, xb: np.ndarray, xc: np.ndarray) -> tuple
     References
     ----------
     .. [1] Fortescue 1918; Gonen (2009) eq. (9.12)-(9.14).
+
+    Examples
+    --------
+    A balanced A-B-C set of 230 V phasors is all positive sequence:
+
+    >>> import numpy as np
+    >>> a = np.exp(2j * np.pi / 3)
+    >>> v0, v1, v2 = sequence_components(230 + 0j, 230 * a**2, 230 * a)
+    >>> print(f"{abs(v0):.1f} {abs(v1):.1f} {abs(v2):.1f}")
+    0.0 230.0 0.0
+
+    With line A open and the other two currents equal and opposite (single
+    phasing, the open line as reference), ``I1 = -I2``:
+
+    >>> i0, i1, i2 = sequence_components(0j, -10 + 0j, 10 + 0j)
+    >>> print(f"|I1| = {abs(i1):.3f}, |I2| = {abs(i2):.3f}, |I1 + I2| = {abs(i1 + i2):.3f}")
+    |I1| = 5.774, |I2| = 5.774, |I1 + I2| = 0.000
     """
     x0 = (xa + xb + xc) / 3.0              # Fortescue 1918: X0 = (Xa + Xb + Xc)/3
     x1 = (xa + A * xb + A * A * xc) / 3.0  # X1 = (Xa + a Xb + a^2 Xc)/3
@@ -42,6 +59,18 @@ def sequence_from_line_to_line(xab: np.ndarray, xbc: np.ndarray, xca: np.ndarray
     sequence ``sqrt(3) at -30 deg`` times (common practice, no source; follows
     from Vab = Va - Vb and the definitions of [1]).  The zero sequence of the
     line-to-neutral voltages cannot be recovered and is not returned.
+
+    Examples
+    --------
+    Line-to-line phasors of a balanced 400 V A-B-C system give a 230.9 V
+    positive sequence (400 / sqrt(3)) and no negative sequence:
+
+    >>> import numpy as np
+    >>> a = np.exp(2j * np.pi / 3)
+    >>> vab = 400 * np.exp(1j * np.pi / 6)
+    >>> v1, v2 = sequence_from_line_to_line(vab, vab * a**2, vab * a)
+    >>> print(f"{abs(v1):.1f} {abs(v2):.1f}")
+    230.9 0.0
     """
     _, y1, y2 = sequence_components(xab, xbc, xca)
     k1 = np.sqrt(3.0) * np.exp(1j * np.pi / 6.0)   # Vab1 = sqrt3 e^{+j30} Va1
@@ -56,6 +85,12 @@ def phase_sequence(x1: np.ndarray, x2: np.ndarray, margin: float = 2.0, min_magn
     being given a sequence it does not clearly have, and ``min_magnitude`` (the
     engine uses 10 % of the capture's typical voltage) keeps noise on a dead
     supply from being given one (common practice, no source).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> phase_sequence(np.array([230.0, 5.0, 100.0]), np.array([2.0, 229.0, 80.0])).tolist()
+    ['ABC', 'ACB', '']
     """
     m1, m2 = np.abs(x1), np.abs(x2)
     out = np.full(np.shape(m1), "", dtype=object)

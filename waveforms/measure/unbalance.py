@@ -24,7 +24,16 @@ import numpy as np
 
 
 def max_deviation_pct(xa: np.ndarray, xb: np.ndarray, xc: np.ndarray) -> np.ndarray:
-    """100 x max |x - mean| / mean of three magnitudes (NEMA MG-1 [1] on line-to-line values, PVUR [2] on phase values)."""
+    """100 x max |x - mean| / mean of three magnitudes (NEMA MG-1 [1] on line-to-line values, PVUR [2] on phase values).
+
+    Examples
+    --------
+    The NEMA MG 1 worked example (line voltages 460, 467 and 450 V: average 459 V,
+    largest deviation 9 V) gives 1.96 % (NEMA MG 1 Part 14, from memory):
+
+    >>> print(f"{max_deviation_pct(460.0, 467.0, 450.0):.2f}")
+    1.96
+    """
     m = np.stack([xa, xb, xc])
     mean = m.mean(axis=0)
     with np.errstate(invalid="ignore", divide="ignore"):
@@ -32,7 +41,14 @@ def max_deviation_pct(xa: np.ndarray, xb: np.ndarray, xc: np.ndarray) -> np.ndar
 
 
 def ratio_pct(minor: np.ndarray, major: np.ndarray) -> np.ndarray:
-    """100 x |minor| / |major| (NaN where the major is zero)."""
+    """100 x |minor| / |major| (NaN where the major is zero).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> ratio_pct(np.array([2.0, 1.0]), np.array([100.0, 0.0])).tolist()
+    [2.0, nan]
+    """
     major = np.abs(major)
     with np.errstate(invalid="ignore", divide="ignore"):
         return np.where(major > 0, 100.0 * np.abs(minor) / np.where(major > 0, major, 1.0), np.nan)
@@ -42,6 +58,13 @@ def vuf_pct(x1: np.ndarray, x2: np.ndarray) -> np.ndarray:
     """Rotation-independent true unbalance, 100 x smaller / larger of |X1|, |X2|.
 
     Equal to |X2|/|X1| for an A-B-C supply and |X1|/|X2| for an A-C-B one [3]_.
+
+    Examples
+    --------
+    The same figure whichever way the supply rotates:
+
+    >>> print(f"{vuf_pct(230.0, 4.6):.1f} {vuf_pct(4.6, 230.0):.1f}")
+    2.0 2.0
     """
     m1, m2 = np.abs(x1), np.abs(x2)
     return ratio_pct(np.minimum(m1, m2), np.maximum(m1, m2))
@@ -57,6 +80,19 @@ def iec_line_to_line_pct(uab: np.ndarray, ubc: np.ndarray, uca: np.ndarray) -> n
     ----------
     .. [3] IEC 61000-4-30:2015, 5.7.1 (from memory; the identity with |V2|/|V1|
            is checked in tests/test_measure_unbalance.py).
+
+    Examples
+    --------
+    From the magnitudes alone it equals |V2| / |V1| of the line-to-line set:
+
+    >>> import numpy as np
+    >>> a = np.exp(2j * np.pi / 3)
+    >>> u1, u2 = 400.0, 8.0
+    >>> uab = u1 + u2
+    >>> ubc = u1 * a**2 + u2 * a
+    >>> uca = u1 * a + u2 * a**2
+    >>> print(f"{iec_line_to_line_pct(abs(uab), abs(ubc), abs(uca)):.3f}")
+    2.000
     """
     a2, b2, c2 = np.square(uab), np.square(ubc), np.square(uca)
     s2 = a2 + b2 + c2

@@ -25,7 +25,15 @@ def _hat_integral(u: np.ndarray) -> np.ndarray:
 
 
 def window_grid(start: np.ndarray, stop: np.ndarray) -> tuple[np.ndarray, int]:
-    """First sample index of each window ``[start, stop]`` and a common row width covering all of them."""
+    """First sample index of each window ``[start, stop]`` and a common row width covering all of them.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> first, width = window_grid(np.array([0.5, 10.25]), np.array([8.5, 18.75]))
+    >>> print(first.tolist(), width)
+    [0, 10] 10
+    """
     first = np.floor(np.asarray(start, dtype=np.float64)).astype(np.int64)
     last = np.ceil(np.asarray(stop, dtype=np.float64)).astype(np.int64)
     width = int((last - first).max()) + 1 if first.size else 1
@@ -40,6 +48,15 @@ def weights_on_grid(first: np.ndarray, width: int, start: np.ndarray, stop: np.n
     common practice, no source).  The weights sum to ``stop - start``; they
     are 1 inside, 0 outside, and only the two samples next to each end need
     the integral.  ``start >= first`` is required.
+
+    Examples
+    --------
+    The weights sum to the window's length in samples, whatever its fractional ends:
+
+    >>> import numpy as np
+    >>> w = weights_on_grid(np.array([10]), 10, np.array([10.25]), np.array([18.75]))
+    >>> print(f"{w.sum():.2f}")
+    8.50
     """
     start = np.asarray(start, dtype=np.float64)
     stop = np.asarray(stop, dtype=np.float64)
@@ -64,6 +81,18 @@ def window_weights(start: np.ndarray, stop: np.ndarray) -> tuple[np.ndarray, np.
     first : ndarray of int, shape (n,)
     weights : ndarray, shape (n, width)
         Weight of sample ``first + j``; see `weights_on_grid`.
+
+    Examples
+    --------
+    A window that is exactly one period of a sampled sine reproduces its RMS
+    whatever its fractional start (period 20.5 samples here):
+
+    >>> import numpy as np
+    >>> x = np.sin(2 * np.pi * np.arange(100) / 20.5)
+    >>> first, w = window_weights(np.array([3.3]), np.array([3.3 + 20.5]))
+    >>> rms = np.sqrt((w[0] * x[first[0]:first[0] + w.shape[1]] ** 2).sum() / w.sum())
+    >>> print(f"{rms:.3f}")
+    0.707
     """
     first, width = window_grid(start, stop)
     return first, weights_on_grid(first, width, start, stop)
@@ -77,6 +106,13 @@ def gather(data: np.ndarray, first: np.ndarray, width: int, has_nan: bool | None
     read zeros there (their weights must be zero).  When the block holds NaN samples and ``weights`` is given, samples of
     zero weight are set to 0 (so a NaN just outside a window cannot reach it),
     while a NaN inside a window stays NaN.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> data = np.arange(20.0).reshape(2, 10)
+    >>> gather(data, np.array([0, 6]), 4)[1].tolist()
+    [[6.0, 7.0, 8.0, 9.0], [16.0, 17.0, 18.0, 19.0]]
     """
     if first.size and int(first.max()) + width > data.shape[1]:  # rows near the end: pad (zero weight there)
         data = np.concatenate([data, np.zeros((data.shape[0], width))], axis=1)
