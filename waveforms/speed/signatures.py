@@ -75,6 +75,11 @@ def eccentricity_signatures(orders: tuple[int, ...] = (1,)) -> tuple[Signature, 
     References
     ----------
     Thomson & Fenger, IEEE Industry Applications Magazine 7(4), 2001.
+
+    Examples
+    --------
+    >>> [s.label for s in eccentricity_signatures((1, 2))]
+    ['f1-1fr', 'f1+1fr', 'f1-2fr', 'f1+2fr']
     """
     out = []
     for m in orders:
@@ -92,6 +97,11 @@ def slot_signatures(rotor_bars: int, nus: tuple[int, ...] = (-3, -1, 1, 3), k: i
     References
     ----------
     Hurst & Habetler, IEEE Trans. Power Electronics 11(1), 1996 (with ``n_d = 0``).
+
+    Examples
+    --------
+    >>> [(s.label, s.a, s.b) for s in slot_signatures(28, nus=(-1, 1))]
+    [('1R-1', 28.0, -1.0), ('1R+1', 28.0, 1.0)]
     """
     if rotor_bars < 4:
         raise InvalidParameterError(f"{rotor_bars=} must be >= 4")
@@ -113,6 +123,18 @@ def component_frequency_hz(sig: Signature, slip, f1_hz, pole_pairs: int) -> np.n
     References
     ----------
     Eq. (1) of this module; Thomson & Fenger 2001; Hurst & Habetler 1996.
+
+    Examples
+    --------
+    A four-pole (p = 2) 60 Hz motor at 3 % slip turns at fr = 29.1 Hz; its
+    first eccentricity sidebands sit at f1 -/+ fr, its 28-bar slot harmonics at
+    60 (28 x 0.97 / 2 -/+ 1) Hz:
+
+    >>> lo, hi = eccentricity_signatures()
+    >>> print(f"{component_frequency_hz(lo, 0.03, 60.0, 2):.1f} {component_frequency_hz(hi, 0.03, 60.0, 2):.1f}")
+    30.9 89.1
+    >>> print([round(float(component_frequency_hz(s, 0.03, 60.0, 2)), 1) for s in slot_signatures(28, nus=(-1, 1))])
+    [754.8, 874.8]
     """
     s = np.asarray(slip, dtype=float)
     f1 = np.asarray(f1_hz, dtype=float)
@@ -120,24 +142,53 @@ def component_frequency_hz(sig: Signature, slip, f1_hz, pole_pairs: int) -> np.n
 
 
 def slip_from_frequency(sig: Signature, f_hz, f1_hz, pole_pairs: int) -> np.ndarray:
-    """Invert eq. (1): ``s = 1 - p (f / f1 - b) / a`` for a signed component frequency ``f`` [Hz]."""
+    """Invert eq. (1): ``s = 1 - p (f / f1 - b) / a`` for a signed component frequency ``f`` [Hz].
+
+    Examples
+    --------
+    The inverse of `component_frequency_hz`:
+
+    >>> sig = slot_signatures(28, nus=(1,))[0]
+    >>> print(f"{slip_from_frequency(sig, 874.8, 60.0, 2):.4f}")
+    0.0300
+    """
     f = np.asarray(f_hz, dtype=float)
     f1 = np.asarray(f1_hz, dtype=float)
     return 1.0 - pole_pairs * (f / f1 - sig.b) / sig.a  # eq. (1) solved for s
 
 
 def rotor_frequency_hz(slip, f1_hz, pole_pairs: int) -> np.ndarray:
-    """Mechanical rotation frequency ``fr = f1 (1 - s) / p`` [Hz] (common practice, no source)."""
+    """Mechanical rotation frequency ``fr = f1 (1 - s) / p`` [Hz] (common practice, no source).
+
+    Examples
+    --------
+    >>> print(f"{rotor_frequency_hz(0.03, 60.0, 2):.2f}")
+    29.10
+    """
     return np.asarray(f1_hz, dtype=float) * (1.0 - np.asarray(slip, dtype=float)) / pole_pairs
 
 
 def speed_rpm(slip, f1_hz, pole_pairs: int) -> np.ndarray:
-    """Shaft speed ``n = 60 f1 (1 - s) / p`` [rpm] (common practice, no source)."""
+    """Shaft speed ``n = 60 f1 (1 - s) / p`` [rpm] (common practice, no source).
+
+    Examples
+    --------
+    >>> print(f"{speed_rpm(0.03, 60.0, 2):.0f}")
+    1746
+    """
     return 60.0 * rotor_frequency_hz(slip, f1_hz, pole_pairs)
 
 
 def slip_from_speed(speed_rpm_, f1_hz, pole_pairs: int) -> np.ndarray:
-    """Slip ``s = (n_s - n) / n_s`` with ``n_s = 60 f1 / p`` (common practice, no source)."""
+    """Slip ``s = (n_s - n) / n_s`` with ``n_s = 60 f1 / p`` (common practice, no source).
+
+    Examples
+    --------
+    A 50 Hz four-pole motor at 1470 rpm (synchronous speed 1500 rpm):
+
+    >>> print(f"{slip_from_speed(1470.0, 50.0, 2):.3f}")
+    0.020
+    """
     ns = 60.0 * np.asarray(f1_hz, dtype=float) / pole_pairs
     return (ns - np.asarray(speed_rpm_, dtype=float)) / ns
 
@@ -147,6 +198,16 @@ def signature_band_hz(sig: Signature, slip_min: float, slip_max: float, f1_hz: f
 
     The sign is +1 when the signed frequency stays positive over the band, -1
     when it stays negative, 0 when it crosses zero (the band is then unusable).
+
+    Examples
+    --------
+    The band of the lower eccentricity sideband of a 50 Hz four-pole motor for
+    slips of 0 to 5 %, 25 to 26.25 Hz, positive throughout:
+
+    >>> lo, _ = eccentricity_signatures()
+    >>> f_lo, f_hi, sign = signature_band_hz(lo, 0.0, 0.05, 50.0, 2)
+    >>> print(f"{f_lo:.2f} {f_hi:.2f} {sign}")
+    25.00 26.25 1
     """
     f = component_frequency_hz(sig, np.array([slip_min, slip_max]), f1_hz, pole_pairs)
     tiny = 1e-9 * abs(f1_hz)  # an end exactly at 0 Hz (e.g. p = 1 at s = 0) does not cross zero
