@@ -282,6 +282,13 @@ def runs(mask: np.ndarray, min_len: int = 1, max_gap: int = 0) -> list[tuple[int
 
     Runs separated by at most ``max_gap`` False entries are merged; runs shorter
     than ``min_len`` are dropped.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> m = np.array([0, 1, 1, 0, 1, 0, 0, 0, 1, 1, 1], bool)
+    >>> runs(m), runs(m, min_len=2), runs(m, max_gap=1)
+    ([(1, 3), (4, 5), (8, 11)], [(1, 3), (8, 11)], [(1, 5), (8, 11)])
     """
     m = np.asarray(mask, dtype=bool)
     if m.size == 0:
@@ -300,6 +307,14 @@ def schmitt(set_mask: np.ndarray, reset_mask: np.ndarray) -> np.ndarray:
 
     Vectorised latch: the state at each index is the most recent decisive
     sample (set -> True, reset -> False), False before the first one.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> s = np.array([0, 1, 0, 0, 0, 0], bool)
+    >>> r = np.array([0, 0, 0, 1, 0, 0], bool)
+    >>> schmitt(s, r).tolist()
+    [False, True, True, False, False, False]
     """
     s = np.asarray(set_mask, dtype=bool)
     r = np.asarray(reset_mask, dtype=bool) & ~s
@@ -310,7 +325,17 @@ def schmitt(set_mask: np.ndarray, reset_mask: np.ndarray) -> np.ndarray:
 
 
 def speed_summary(speed: pd.DataFrame | None, t0_s: float, t1_s: float | None) -> dict[str, Any]:
-    """What the speed track says between two instants: windows, estimates, median slip and rpm."""
+    """What the speed track says between two instants: windows, estimates, median slip and rpm.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> import pandas as pd
+    >>> track = pd.DataFrame({"t_s": [5.0, 10.0, 15.0], "slip": [0.02, np.nan, 0.03],
+    ...                       "rpm": [1470.0, np.nan, 1455.0], "status": ["ok", "no_peak", "ok"]})
+    >>> speed_summary(track, 0.0, None)
+    {'speed_windows': 3, 'speed_estimates': 2, 'slip_median': 0.025, 'rpm_median': 1462.5, 'speed_status_counts': {'no_peak': 1, 'ok': 2}}
+    """
     if speed is None or len(speed) == 0 or "t_s" not in speed:
         return {"speed_windows": 0}
     t1 = math.inf if t1_s is None else t1_s

@@ -44,6 +44,12 @@ class Event:
         The supporting figures (plain JSON-able values, units in the keys).
     detector : str
         Registry name of the detector that found it.
+
+    Examples
+    --------
+    >>> e = Event("open_phase", "B", 12.35, None, "Line B lost", {"i_ratio_pct": 3.1})
+    >>> e.duration_s is None, e.overlaps(20.0, 30.0)
+    (True, True)
     """
 
     kind: str
@@ -79,7 +85,14 @@ class Event:
 
 
 def plain(x: Any) -> Any:
-    """Numpy scalars -> Python, NaN/inf -> None, recursively (JSON-safe)."""
+    """Numpy scalars -> Python, NaN/inf -> None, recursively (JSON-safe).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> plain({"n": np.int64(3), "x": np.float64(np.nan), "ok": np.bool_(True), "v": [np.float32(1.5)]})
+    {'n': 3, 'x': None, 'ok': True, 'v': [1.5]}
+    """
     if isinstance(x, dict):
         return {str(k): plain(v) for k, v in x.items()}
     if isinstance(x, (list, tuple)):
@@ -95,7 +108,14 @@ def plain(x: Any) -> Any:
 
 
 def iso_at(start: _dt.datetime, t_s: float | None) -> str | None:
-    """``start + t_s`` as ISO 8601 with microseconds and UTC offset (None for None)."""
+    """``start + t_s`` as ISO 8601 with microseconds and UTC offset (None for None).
+
+    Examples
+    --------
+    >>> import datetime as dt
+    >>> iso_at(dt.datetime(2026, 3, 1, 6, 0, tzinfo=dt.timezone.utc), 12.5)
+    '2026-03-01T06:00:12.500000+00:00'
+    """
     if t_s is None or not math.isfinite(t_s):
         return None
     return (start + _dt.timedelta(seconds=float(t_s))).isoformat(timespec="microseconds")
@@ -113,6 +133,14 @@ def event_row(event: Event | Mapping[str, Any], start_time: _dt.datetime | None 
     ``start_time`` (the capture's start) gives the clock times ``start_time`` /
     ``end_time``; a result.json event carries them already; otherwise they are None.
     The supporting figures are one JSON cell, keys sorted.
+
+    Examples
+    --------
+    >>> import datetime as dt
+    >>> row = event_row(Event("stall", None, 2.0, 6.2, "locked rotor", {"i_x_fla": 6.2}),
+    ...                 dt.datetime(2026, 3, 1, tzinfo=dt.timezone.utc))
+    >>> row["end_time"], row["figures_json"]
+    ('2026-03-01T00:00:06.200000+00:00', '{"i_x_fla": 6.2}')
     """
     d = dict(event) if isinstance(event, Mapping) else event.to_dict()
     if start_time is not None and "start_time" not in d:
@@ -124,7 +152,14 @@ def event_row(event: Event | Mapping[str, Any], start_time: _dt.datetime | None 
 
 
 def events_frame(events: Iterable[Event | Mapping[str, Any]], start_time: _dt.datetime | None = None) -> pd.DataFrame:
-    """The events table: one row per event, columns `EVENT_COLUMNS` (times in seconds as floats, NaN = open end)."""
+    """The events table: one row per event, columns `EVENT_COLUMNS` (times in seconds as floats, NaN = open end).
+
+    Examples
+    --------
+    >>> f = events_frame([Event("dip", "A", 1.0, 1.2, "dip"), Event("open_phase", "C", 3.0, None, "open")])
+    >>> f[["kind", "phase", "start_s", "end_s"]].to_dict("list")
+    {'kind': ['dip', 'open_phase'], 'phase': ['A', 'C'], 'start_s': [1.0, 3.0], 'end_s': [1.2, nan]}
+    """
     frame = pd.DataFrame([event_row(e, start_time) for e in events], columns=list(EVENT_COLUMNS))
     for c in ("start_s", "end_s", "duration_s"):
         frame[c] = pd.to_numeric(frame[c], errors="coerce").astype(float)

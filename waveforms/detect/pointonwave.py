@@ -26,6 +26,18 @@ def cycle_deviation(x: np.ndarray, samples_per_cycle: float) -> np.ndarray:
     x : ndarray, shape (n_channels, n)
     samples_per_cycle : float
         ``N = fs / f`` (may be fractional) [samples].
+
+    Examples
+    --------
+    A steady 50 Hz sine at 1 kS/s repeats every 20 samples; a step to half its
+    amplitude at sample 60 shows in the deviation from there on:
+
+    >>> import numpy as np
+    >>> x = np.sin(2 * np.pi * np.arange(100) / 20)
+    >>> x[60:] *= 0.5
+    >>> d = cycle_deviation(x, 20.0)[0]
+    >>> int(np.isnan(d).sum()), bool(np.abs(d[20:60]).max() < 1e-9), bool(np.abs(d[60:80]).max() > 0.4)
+    (20, True, True)
     """
     x = np.atleast_2d(np.asarray(x, dtype=float))
     if not samples_per_cycle > 1:
@@ -57,6 +69,15 @@ def departure_index(
         Smallest deviation that counts, in units of ``r`` (fraction of the amplitude).
     noise_factor : float
         Threshold as a multiple of the baseline's 99th percentile.
+
+    Examples
+    --------
+    A deviation that leaves the noise (0.001) at sample 50 and grows from there:
+
+    >>> import numpy as np
+    >>> r = np.r_[np.full(50, 0.001), np.linspace(0.01, 0.5, 20)]
+    >>> departure_index(r, search_from=30, baseline=slice(0, 30))
+    50
     """
     base = r[baseline]
     base = base[np.isfinite(base)]
@@ -95,6 +116,21 @@ def refine_onset_s(
         Fundamental frequency there [Hz].
     amplitude : float
         Peak amplitude that normalises the deviation [A or V].
+
+    Examples
+    --------
+    The sample at which line A's current of a 50 Hz, 5 kS/s capture drops to
+    zero (at 1.0002 s, between cycle boundaries):
+
+    >>> import numpy as np
+    >>> from waveforms.capture import from_arrays, standard_channels
+    >>> fs = 5000.0
+    >>> t = np.arange(10_000) / fs
+    >>> i = 10 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] - np.array([0, 2, 4])[:, None] * np.pi / 3)
+    >>> i[0, 5001:] = 0.0
+    >>> cap = from_arrays(i, standard_channels(voltages=None), fs)
+    >>> print(f"{refine_onset_s(cap, ['Ia', 'Ib', 'Ic'], (0.98, 1.04), 50.0, 14.14):.4f}")
+    1.0002
     """
     fs = capture.sample_rate_hz
     n_cyc = fs / frequency_hz
