@@ -16,10 +16,14 @@ from __future__ import annotations
 import dataclasses
 from typing import Any
 
+from typing import TYPE_CHECKING
+
 import numpy as np
-import pandas as pd
 
 from .capture import Capture
+
+if TYPE_CHECKING:  # pandas is imported where a table is made, not at start-up (issue 10 item 5)
+    import pandas as pd
 
 #: A run of at least this many equal samples at the max/min counts as flat-topping.
 CLIP_MIN_RUN = 3
@@ -84,6 +88,75 @@ class _Extreme:
         self.open_run = 0
 
 
+class StatsAccumulator:
+    """The per-channel figures of `channel_stats`, gathered from owned blocks fed in time order.
+
+    The shared pass of the measurement engine (`waveforms.measure.engine.measure`) feeds it the
+    same blocks it measures, so the survey needs no read of its own.
+    """
+
+    def __init__(self, capture: Capture) -> None:
+        self.capture = capture
+        n_ch = len(capture.channels)
+        self.count = np.zeros(n_ch)
+        self.nans = np.zeros(n_ch, dtype=np.int64)
+        self.s1 = np.zeros(n_ch)
+        self.s2 = np.zeros(n_ch)
+        self.hi = [_Extreme() for _ in range(n_ch)]
+        self.lo = [_Extreme() for _ in range(n_ch)]
+        self.shift = np.full(n_ch, np.nan)  # first finite value: sums taken about it (numerically stable)
+
+    def feed(self, x: np.ndarray) -> None:
+        """Add the samples ``x`` (n_channels, n), the next ones after those fed before."""
+        fin = np.isfinite(x)
+        self.nans += (~fin).sum(axis=1)
+        self.count += fin.sum(axis=1)
+        need = np.isnan(self.shift) & fin.any(axis=1)
+        if need.any():
+            first = np.argmax(fin, axis=1)
+            self.shift[need] = x[need, first[need]]
+        d = np.where(fin, x - np.nan_to_num(self.shift)[:, None], 0.0)
+        self.s1 += d.sum(axis=1)
+        self.s2 += (d * d).sum(axis=1)
+        for i in range(x.shape[0]):  # per channel, not per sample
+            self.hi[i].update(x[i], 1.0)
+            self.lo[i].update(x[i], -1.0)
+
+    def frame(self) -> pd.DataFrame:
+        """The statistics table (see `channel_stats`)."""
+        import pandas as pd
+
+        capture, count, shift = self.capture, self.count, self.shift
+        hi, lo = self.hi, self.lo
+        for e in hi + lo:
+            e.finish()
+        with np.errstate(invalid="ignore", divide="ignore"):
+            mean_d = self.s1 / count
+            var = np.maximum(self.s2 / count - mean_d**2, 0.0)
+            mean = mean_d + np.nan_to_num(shift)
+            rms = np.sqrt(var + mean**2)
+        return pd.DataFrame(
+            {
+                "kind": [c.kind for c in capture.channels],
+                "reference": [c.reference for c in capture.channels],
+                "unit": [c.unit for c in capture.channels],
+                "n": count.astype(np.int64),
+                "n_nan": self.nans,
+                "min": [e.value for e in lo],
+                "max": [e.value for e in hi],
+                "mean": np.where(count > 0, mean, np.nan),
+                "rms": np.where(count > 0, rms, np.nan),
+                "ac_rms": np.where(count > 0, np.sqrt(var), np.nan),
+                "max_runs": [e.runs for e in hi],
+                "min_runs": [e.runs for e in lo],
+                "max_longest": [e.longest for e in hi],
+                "min_longest": [e.longest for e in lo],
+                "at_extremes": [a.at_value + b.at_value for a, b in zip(hi, lo, strict=True)],
+            },
+            index=pd.Index(list(capture.channel_names), name="channel"),
+        )
+
+
 def channel_stats(capture: Capture, chunk_samples: int = 1 << 18) -> pd.DataFrame:
     """Per-channel statistics in one chunked pass (memory bounded by ``chunk_samples``).
 
@@ -96,56 +169,10 @@ def channel_stats(capture: Capture, chunk_samples: int = 1 << 18) -> pd.DataFram
         maximum/minimum), ``max_longest``/``min_longest``, ``at_extremes``
         (samples in such runs).  Values in V or A.
     """
-    n_ch = len(capture.channels)
-    count = np.zeros(n_ch)
-    nans = np.zeros(n_ch, dtype=np.int64)
-    s1 = np.zeros(n_ch)
-    s2 = np.zeros(n_ch)
-    hi = [_Extreme() for _ in range(n_ch)]
-    lo = [_Extreme() for _ in range(n_ch)]
-    shift = np.full(n_ch, np.nan)  # first finite value: sums taken about it (numerically stable)
+    acc = StatsAccumulator(capture)
     for chunk in capture.iter_chunks(chunk_samples):
-        x = chunk.owned
-        fin = np.isfinite(x)
-        nans += (~fin).sum(axis=1)
-        count += fin.sum(axis=1)
-        need = np.isnan(shift) & fin.any(axis=1)
-        if need.any():
-            first = np.argmax(fin, axis=1)
-            shift[need] = x[need, first[need]]
-        d = np.where(fin, x - np.nan_to_num(shift)[:, None], 0.0)
-        s1 += d.sum(axis=1)
-        s2 += (d * d).sum(axis=1)
-        for i in range(n_ch):  # per channel, not per sample
-            hi[i].update(x[i], 1.0)
-            lo[i].update(x[i], -1.0)
-    for e in hi + lo:
-        e.finish()
-    with np.errstate(invalid="ignore", divide="ignore"):
-        mean_d = s1 / count
-        var = np.maximum(s2 / count - mean_d**2, 0.0)
-        mean = mean_d + np.nan_to_num(shift)
-        rms = np.sqrt(var + mean**2)
-    return pd.DataFrame(
-        {
-            "kind": [c.kind for c in capture.channels],
-            "reference": [c.reference for c in capture.channels],
-            "unit": [c.unit for c in capture.channels],
-            "n": count.astype(np.int64),
-            "n_nan": nans,
-            "min": [e.value for e in lo],
-            "max": [e.value for e in hi],
-            "mean": np.where(count > 0, mean, np.nan),
-            "rms": np.where(count > 0, rms, np.nan),
-            "ac_rms": np.where(count > 0, np.sqrt(var), np.nan),
-            "max_runs": [e.runs for e in hi],
-            "min_runs": [e.runs for e in lo],
-            "max_longest": [e.longest for e in hi],
-            "min_longest": [e.longest for e in lo],
-            "at_extremes": [a.at_value + b.at_value for a, b in zip(hi, lo, strict=True)],
-        },
-        index=pd.Index(list(capture.channel_names), name="channel"),
-    )
+        acc.feed(chunk.owned)
+    return acc.frame()
 
 
 def quality_notes(capture: Capture, stats: pd.DataFrame | None = None) -> list[dict[str, Any]]:
