@@ -51,13 +51,16 @@ class _Extreme:
             self.at_value += length
         self.longest = max(self.longest, length)
 
-    def update(self, x: np.ndarray, sign: float) -> None:
-        finite = x[np.isfinite(x)]
-        if finite.size == 0:
+    def update(self, x: np.ndarray, sign: float, extreme: float | None = None) -> None:
+        """Add the next samples ``x`` of the channel; ``extreme`` is their max (sign +1) or min (-1), NaN if none is finite."""
+        if extreme is None:
+            finite = x[np.isfinite(x)]
+            extreme = float(np.max(finite * sign)) * sign if finite.size else np.nan
+        if np.isnan(extreme):
             self._close(self.open_run)
             self.open_run = 0
             return
-        cm = float(np.max(finite * sign)) * sign
+        cm = float(extreme)
         if np.isnan(self.value) or cm * sign > self.value * sign:
             self.value, self.runs, self.longest, self.at_value, self.open_run = cm, 0, 0, 0, 0
         elif cm != self.value:
@@ -108,19 +111,29 @@ class StatsAccumulator:
 
     def feed(self, x: np.ndarray) -> None:
         """Add the samples ``x`` (n_channels, n), the next ones after those fed before."""
+        if x.shape[1] == 0:
+            return
         fin = np.isfinite(x)
-        self.nans += (~fin).sum(axis=1)
-        self.count += fin.sum(axis=1)
-        need = np.isnan(self.shift) & fin.any(axis=1)
-        if need.any():
-            first = np.argmax(fin, axis=1)
-            self.shift[need] = x[need, first[need]]
-        d = np.where(fin, x - np.nan_to_num(self.shift)[:, None], 0.0)
+        all_fin = bool(fin.all())
+        if all_fin:  # the usual case: no masks needed (same sums as the masked ones)
+            self.count += x.shape[1]
+            if np.isnan(self.shift).any():
+                self.shift = np.where(np.isnan(self.shift), x[:, 0] if x.shape[1] else np.nan, self.shift)
+            d = x - np.nan_to_num(self.shift)[:, None]
+            hi, lo = x.max(axis=1), x.min(axis=1)
+        else:
+            self.nans += (~fin).sum(axis=1)
+            self.count += fin.sum(axis=1)
+            need = np.isnan(self.shift) & fin.any(axis=1)
+            if need.any():
+                first = np.argmax(fin, axis=1)
+                self.shift[need] = x[need, first[need]]
+            d = np.where(fin, x - np.nan_to_num(self.shift)[:, None], 0.0)
         self.s1 += d.sum(axis=1)
         self.s2 += (d * d).sum(axis=1)
         for i in range(x.shape[0]):  # per channel, not per sample
-            self.hi[i].update(x[i], 1.0)
-            self.lo[i].update(x[i], -1.0)
+            self.hi[i].update(x[i], 1.0, float(hi[i]) if all_fin else None)
+            self.lo[i].update(x[i], -1.0, float(lo[i]) if all_fin else None)
 
     def frame(self) -> pd.DataFrame:
         """The statistics table (see `channel_stats`)."""

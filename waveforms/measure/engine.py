@@ -581,9 +581,12 @@ def iter_pass(capture: Capture, chunk_samples: int, lay: Layout, st: Settings, *
         import collections
         import concurrent.futures
 
-        with concurrent.futures.ThreadPoolExecutor(threads, thread_name_prefix="measure") as pool:
+        # ``feed`` keeps state from block to block: one thread of its own runs it, in submission (time) order
+        with concurrent.futures.ThreadPoolExecutor(threads, thread_name_prefix="measure") as pool, \
+                concurrent.futures.ThreadPoolExecutor(1, thread_name_prefix="feed") as feeder:
             q1: collections.deque = collections.deque()
             q2: collections.deque = collections.deque()
+            fed: collections.deque = collections.deque()
 
             def advance(limit: int) -> Iterator[tuple[Columns, Columns, Columns, Any]]:
                 nonlocal offset
@@ -599,9 +602,13 @@ def iter_pass(capture: Capture, chunk_samples: int, lay: Layout, st: Settings, *
             for ch in chunks:
                 q1.append((ch, pool.submit(first, ch)))
                 if feed is not None:
-                    feed(ch.owned)
+                    fed.append(feeder.submit(feed, ch.owned))
+                    while len(fed) > threads + 1:  # bounded memory: wait for the survey to catch up
+                        fed.popleft().result()
                 yield from advance(threads)
             yield from advance(0)
+            while fed:
+                fed.popleft().result()
 
 
 def iter_blocks(capture: Capture, chunk_samples: int = DEFAULT_CHUNK_SAMPLES,
