@@ -106,6 +106,77 @@ BLOCK_ROWS = 1 << 13
 MEDIAN_STEPS = 1 << 20
 
 
+class DiskArray:
+    """A 1-D array kept in a file and reached by slices, for `analyse_stamps` on stamps that do not fit in memory.
+
+    Supports what `analyse_stamps` uses: ``size``, ``len``, integer and slice reads
+    (``a[i]``, ``a[i:j]``, steps of 1) and slice writes.  Each access is one
+    ``pread``/``pwrite``, so the process holds only the block it works on (the
+    streamed CSV reader keeps an hour of stamps in a temporary file this way).
+    """
+
+    def __init__(self, path: str, dtype: Any, size: int = 0) -> None:
+        import os
+
+        self.path, self.dtype, self.size = str(path), np.dtype(dtype), int(size)
+        self._fd = os.open(self.path, os.O_RDWR | os.O_CREAT, 0o600)
+
+    def __len__(self) -> int:
+        return self.size
+
+    @property
+    def shape(self) -> tuple[int]:
+        return (self.size,)
+
+    def like(self, path: str, dtype: Any) -> DiskArray:
+        """An uninitialised `DiskArray` of the same size in file ``path``."""
+        return DiskArray(path, dtype, self.size)
+
+    def append(self, values: np.ndarray) -> None:
+        import os
+
+        v = np.ascontiguousarray(values, dtype=self.dtype)
+        os.pwrite(self._fd, v.tobytes(), self.size * self.dtype.itemsize)
+        self.size += v.size
+
+    def _range(self, key: slice) -> tuple[int, int]:
+        a, b, step = key.indices(self.size)
+        if step != 1:
+            raise InvalidParameterError("DiskArray slices take a step of 1")
+        return a, max(a, b)
+
+    def __getitem__(self, key: int | slice) -> Any:
+        import os
+
+        if isinstance(key, slice):
+            a, b = self._range(key)
+        else:
+            a = int(key) + (self.size if key < 0 else 0)
+            if not 0 <= a < self.size:
+                raise IndexError(key)
+            b = a + 1
+        k = self.dtype.itemsize
+        out = np.frombuffer(os.pread(self._fd, (b - a) * k, a * k), dtype=self.dtype)
+        return out if isinstance(key, slice) else out[0]
+
+    def __setitem__(self, key: slice, values: np.ndarray) -> None:
+        import os
+
+        a, b = self._range(key)
+        v = np.ascontiguousarray(np.broadcast_to(values, (b - a,)), dtype=self.dtype)
+        os.pwrite(self._fd, v.tobytes(), a * self.dtype.itemsize)
+
+    def close(self) -> None:
+        import os
+
+        if self._fd >= 0:
+            os.close(self._fd)
+            self._fd = -1
+
+    def __del__(self) -> None:
+        self.close()
+
+
 def _blocks(n: int) -> range:
     return range(0, n, BLOCK_ROWS)
 
@@ -181,8 +252,9 @@ def analyse_stamps(t_s: np.ndarray) -> TimebaseReport:
 
     Parameters
     ----------
-    t_s : ndarray
-        Time stamps [s], one per row, in file order (any origin).  Pass stamps
+    t_s : ndarray or DiskArray
+        Time stamps [s], one per row, in file order (any origin); a `DiskArray`
+        for stamps kept on disk (the grid index is then a `DiskArray` too).  Pass stamps
         relative to a nearby origin (e.g. the first stamp), not epoch seconds or
         nanoseconds, or float64 rounding (0.24 us at 1.7e9 s) adds to the jitter.
 
@@ -199,7 +271,7 @@ def analyse_stamps(t_s: np.ndarray) -> TimebaseReport:
     no source.  The work is done in blocks of `BLOCK_ROWS` rows: besides the
     stamps and the returned grid index no full-length array is made.
     """
-    t = np.asarray(t_s, dtype=np.float64)
+    t = t_s if isinstance(t_s, DiskArray) else np.asarray(t_s, dtype=np.float64)
     n = t.size
     if n < 2:
         raise InvalidParameterError(f"need at least two time stamps to find a sample rate, got {n}")
@@ -219,7 +291,7 @@ def analyse_stamps(t_s: np.ndarray) -> TimebaseReport:
         dt, offset, _ = _refine(t, dt, offset, k)
         k = min(n, 8 * k)
     # then over all rows until the grid indices and the period agree (usually at once, at most a few rounds)
-    idx = np.empty(n, dtype=np.int64)
+    idx = t.like(t.path + ".idx", np.int64) if isinstance(t, DiskArray) else np.empty(n, dtype=np.int64)
     for round_ in range(6):
         dt, offset, changed = _refine(t, dt, offset, n, idx)
         if (round_ > 0 and not changed) or idx[-1] <= 0:
