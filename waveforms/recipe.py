@@ -602,13 +602,15 @@ class ImportSettings:
 
 
 def _stage_import(state: RunState, params: dict[str, Any]) -> None:
-    from .io import ReadOptions, read_capture
+    from .io import ReadOptions
 
     (s,) = get_stage("import").build(params)
     if state.capture is None:
         opts = ReadOptions(nominal_frequency_hz=s.nominal_frequency_hz, nominal_voltage_v=s.nominal_voltage_v,
                            wiring=s.wiring or None)
-        state.capture = read_capture(state.source, format=s.format or None, options=opts)
+        from .io.csv_stream import open_capture
+
+        state.capture = open_capture(state.source, s.format or None, opts)  # a large CSV is streamed
         if state.origin:  # read through a local copy: the provenance names the original
             prov = dataclasses.replace(state.capture.provenance, source_path=state.origin)
             state.capture = state.capture.replace(provenance=prov)

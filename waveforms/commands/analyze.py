@@ -20,7 +20,7 @@ import click
 
 from ..analysis import SAFETY_CAUTIONS
 from ..errors import InvalidParameterError
-from ..io.registry import ReadOptions, read_capture
+from ..io.registry import ReadOptions
 from ..motor.nameplate import load_nameplate
 from ..recipe import DEFAULT_RECIPE, Recipe, RecipeError, load_recipe, run_recipe
 from .readopts import default_threads, options_from, read_options, threads_option
@@ -95,7 +95,9 @@ def command(capture: str, motor: str | None, out_dir: str, recipe_name: str, no_
         if value is not None:
             rec = _set(rec, "thermal", {key: value}, opt)
     fmt, options = _reading(rec, fmt, options)
-    cap = read_capture(capture, fmt, options)
+    from ..io.csv_stream import open_capture
+
+    cap = open_capture(capture, fmt, options)  # a large CSV is streamed, not held in memory
     plate = load_nameplate(motor) if motor else None
     state = run_recipe(rec, cap, nameplate=plate, out_dir=out, nameplate_source=motor or "",
                        threads=threads or default_threads())

@@ -6,7 +6,6 @@ from typing import Any
 
 import click
 
-from ..io.registry import read_capture
 from ..measure.output import write_measurements
 from .readopts import default_threads, options_from, read_options, threads_option
 
@@ -31,7 +30,9 @@ def command(source: str, out_dir: str, stem: str | None, csv: bool, intervals: t
     person's judgement on site.
     """
     format_name, options = options_from(kw)
-    cap = read_capture(source, format_name, options)
+    from ..io.csv_stream import open_capture
+
+    cap = open_capture(source, format_name, options)  # a large CSV is streamed, not held in memory
     formats = ("parquet", "csv") if csv else ("parquet",)
     res = write_measurements(cap, out_dir, stem=stem, formats=formats, chunk_samples=chunk_samples,
                              intervals=tuple(intervals), threads=threads or default_threads())

@@ -323,3 +323,87 @@ def convert_csv_to_native(
                 if isinstance(arr, timebase.DiskArray):
                     arr.close()  # before the temporary folder goes
     return state["summary"]
+
+
+# -- analysing a large CSV without holding it ------------------------------------------
+#: Delimited-text files at least this large are streamed by `open_capture` (analyze, measure,
+#: batch); smaller ones are read in memory, which is faster for them.
+STREAM_MIN_BYTES = 64 << 20
+
+
+def _remove_spool(inner: Any, folder: str) -> None:
+    import shutil
+
+    inner.close()
+    shutil.rmtree(folder, ignore_errors=True)
+
+
+class SpooledSource:
+    """The samples of a streamed CSV, in an uncompressed native HDF5 file in a temporary folder.
+
+    The folder lives as long as this source: it is removed when the source is closed or
+    collected, and at interpreter exit at the latest.
+    """
+
+    def __init__(self, folder: str, h5_path: Path, names: list[str]) -> None:
+        import weakref
+
+        from .hdf5_native import HDF5Source
+
+        self.folder = folder
+        self._inner = HDF5Source(h5_path, [f"/channels/{n}" for n in names])
+        self._finalizer = weakref.finalize(self, _remove_spool, self._inner, folder)
+
+    @property
+    def n_samples(self) -> int:
+        return self._inner.n_samples
+
+    @property
+    def n_channels(self) -> int:
+        return self._inner.n_channels
+
+    def read(self, start: int, stop: int, channel_indices: Any) -> np.ndarray:
+        return self._inner.read(start, stop, channel_indices)
+
+    def close(self) -> None:
+        """Close the file and remove the temporary folder."""
+        self._finalizer()
+
+
+def spooled_capture(source: str | os.PathLike[str], options: ReadOptions | None = None) -> Capture:
+    """A delimited-text capture streamed block by block into a temporary native file, and opened there.
+
+    Peak memory does not grow with the file.  The `Capture` is the one the in-memory reader
+    (`waveforms.io.delimited.read_csv`) gives: the same samples, time base, gaps,
+    provenance (the CSV's path and SHA-256, importer ``csv``) and notes.
+    """
+    import shutil
+    import tempfile
+
+    folder = tempfile.mkdtemp(prefix="mwf-spool-")
+    try:
+        target = Path(folder) / "spool.h5"
+        summary = convert_csv_to_native(source, target, options, compression=None, streamed_note=False)
+        meta: Capture = summary["capture"]
+        src = SpooledSource(folder, target, [c.name for c in meta.channels])
+    except BaseException:
+        shutil.rmtree(folder, ignore_errors=True)
+        raise
+    return meta.replace(source=src)
+
+
+def open_capture(path: str | os.PathLike[str], format: str | None = None, options: ReadOptions | None = None,
+                 stream_min_bytes: int = STREAM_MIN_BYTES) -> Capture:
+    """`waveforms.io.read_capture`, but a delimited-text file of ``stream_min_bytes`` or more is streamed (`spooled_capture`).
+
+    ``--resample`` needs the whole file in memory, so it always takes the in-memory path.
+    """
+    from .registry import detect_format, read_capture
+
+    options = options or ReadOptions()
+    p = Path(path)
+    if not options.resample and p.is_file() and p.stat().st_size >= max(1, stream_min_bytes):
+        name = format if format is not None else detect_format(p).name
+        if name == "csv":
+            return spooled_capture(p, options)
+    return read_capture(p, format, options)
