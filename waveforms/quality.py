@@ -135,10 +135,8 @@ class StatsAccumulator:
             self.hi[i].update(x[i], 1.0, float(hi[i]) if all_fin else None)
             self.lo[i].update(x[i], -1.0, float(lo[i]) if all_fin else None)
 
-    def frame(self) -> pd.DataFrame:
-        """The statistics table (see `channel_stats`)."""
-        import pandas as pd
-
+    def records(self) -> dict[str, dict[str, Any]]:
+        """The statistics as plain data: channel name -> the columns of `channel_stats` (no pandas)."""
         capture, count, shift = self.capture, self.count, self.shift
         hi, lo = self.hi, self.lo
         for e in hi + lo:
@@ -148,26 +146,44 @@ class StatsAccumulator:
             var = np.maximum(self.s2 / count - mean_d**2, 0.0)
             mean = mean_d + np.nan_to_num(shift)
             rms = np.sqrt(var + mean**2)
-        return pd.DataFrame(
-            {
-                "kind": [c.kind for c in capture.channels],
-                "reference": [c.reference for c in capture.channels],
-                "unit": [c.unit for c in capture.channels],
-                "n": count.astype(np.int64),
-                "n_nan": self.nans,
-                "min": [e.value for e in lo],
-                "max": [e.value for e in hi],
-                "mean": np.where(count > 0, mean, np.nan),
-                "rms": np.where(count > 0, rms, np.nan),
-                "ac_rms": np.where(count > 0, np.sqrt(var), np.nan),
-                "max_runs": [e.runs for e in hi],
-                "min_runs": [e.runs for e in lo],
-                "max_longest": [e.longest for e in hi],
-                "min_longest": [e.longest for e in lo],
-                "at_extremes": [a.at_value + b.at_value for a, b in zip(hi, lo, strict=True)],
-            },
-            index=pd.Index(list(capture.channel_names), name="channel"),
-        )
+        cols = {
+            "kind": [c.kind for c in capture.channels],
+            "reference": [c.reference for c in capture.channels],
+            "unit": [c.unit for c in capture.channels],
+            "n": count.astype(np.int64),
+            "n_nan": self.nans,
+            "min": [e.value for e in lo],
+            "max": [e.value for e in hi],
+            "mean": np.where(count > 0, mean, np.nan),
+            "rms": np.where(count > 0, rms, np.nan),
+            "ac_rms": np.where(count > 0, np.sqrt(var), np.nan),
+            "max_runs": [e.runs for e in hi],
+            "min_runs": [e.runs for e in lo],
+            "max_longest": [e.longest for e in hi],
+            "min_longest": [e.longest for e in lo],
+            "at_extremes": [a.at_value + b.at_value for a, b in zip(hi, lo, strict=True)],
+        }
+        return {name: {k: _scalar(v[i]) for k, v in cols.items()} for i, name in enumerate(capture.channel_names)}
+
+    def frame(self) -> pd.DataFrame:
+        """The statistics table (see `channel_stats`)."""
+        import pandas as pd
+
+        recs = self.records()
+        return pd.DataFrame.from_dict(recs, orient="index").rename_axis("channel")
+
+
+def _scalar(v: Any) -> Any:
+    """A numpy scalar as the plain Python number (int or float), text as it is."""
+    return v.item() if isinstance(v, np.generic) else v
+
+
+def channel_stat_records(capture: Capture, chunk_samples: int = 1 << 18) -> dict[str, dict[str, Any]]:
+    """`channel_stats` as plain data (channel name -> figures), without importing pandas (for a fast ``inspect``)."""
+    acc = StatsAccumulator(capture)
+    for chunk in capture.iter_chunks(chunk_samples):
+        acc.feed(chunk.owned)
+    return acc.records()
 
 
 def channel_stats(capture: Capture, chunk_samples: int = 1 << 18) -> pd.DataFrame:
@@ -188,7 +204,7 @@ def channel_stats(capture: Capture, chunk_samples: int = 1 << 18) -> pd.DataFram
     return acc.frame()
 
 
-def quality_notes(capture: Capture, stats: pd.DataFrame | None = None) -> list[dict[str, Any]]:
+def quality_notes(capture: Capture, stats: pd.DataFrame | dict[str, dict[str, Any]] | None = None) -> list[dict[str, Any]]:
     """Data-quality notes: one dict per finding.
 
     Each dict has ``check`` (``"clipping"``, ``"flat"``, ``"dead"``, ``"nan"``,
@@ -197,7 +213,12 @@ def quality_notes(capture: Capture, stats: pd.DataFrame | None = None) -> list[d
     figures behind it.  Thresholds: `CLIP_MIN_RUN`, `CLIP_MIN_RUNS`,
     `DEAD_FRACTION`, `OFFSET_FRACTION` (common practice, no source).
     """
-    st = channel_stats(capture) if stats is None else stats
+    if stats is None:
+        st = channel_stat_records(capture)
+    elif isinstance(stats, dict):
+        st = stats
+    else:  # a `channel_stats` table
+        st = {name: dict(row) for name, row in stats.to_dict(orient="index").items()}
     notes: list[dict[str, Any]] = []
     rate = capture.sample_rate_hz
     for g in capture.gaps:
@@ -206,10 +227,14 @@ def quality_notes(capture: Capture, stats: pd.DataFrame | None = None) -> list[d
             "message": f"gap of {g.n_samples} samples ({g.n_samples / rate:.6g} s) at t = {g.start_index / rate:.6f} s: {g.reason}",
             "start_s": g.start_index / rate, "duration_s": g.n_samples / rate,
         })
-    phase = st[st["reference"] != "neutral"]  # a neutral is small by design: not compared
-    kind_max = phase.groupby("kind")["ac_rms"].max()
+    kind_max: dict[str, float] = {}
+    for r in st.values():
+        if r["reference"] != "neutral":  # a neutral is small by design: not compared
+            v = r["ac_rms"]
+            if not np.isnan(v):  # NaN skipped, as a pandas max does
+                kind_max[r["kind"]] = max(kind_max.get(r["kind"], -np.inf), v)
     gap_samples = sum(g.n_samples for g in capture.gaps)
-    for name, r in st.iterrows():
+    for name, r in st.items():
         u = r["unit"]
         if r["n"] == 0:
             notes.append({"check": "empty", "channel": name, "severity": "warning", "message": f"{name}: no finite samples at all"})

@@ -385,6 +385,34 @@ def resample_uniform(t_s: np.ndarray, values: np.ndarray, rate_hz: float) -> tup
     return out, gaps
 
 
+def welch_hann(x: np.ndarray, sample_rate_hz: float, nperseg: int) -> tuple[np.ndarray, np.ndarray]:
+    """Welch power spectral density, as ``scipy.signal.welch(x, fs, nperseg=nperseg, window="hann")`` computes it.
+
+    Periodic Hann window, half-overlapping segments, each segment's mean removed,
+    density scaling, one-sided, mean over segments [unit^2/Hz].  Written with
+    numpy.fft so that reading a file (`infer_nominal_frequency`) does not import
+    scipy.signal, which costs about a second at start-up.
+
+    References
+    ----------
+    P. D. Welch, "The use of fast Fourier transform for the estimation of power
+    spectra", IEEE Trans. Audio Electroacoustics 15(2), 1967 (method, from memory);
+    the defaults are scipy.signal.welch's (tests/test_io_timebase.py compares the two).
+    """
+    x = np.asarray(x, dtype=np.float64)
+    n = int(nperseg)
+    step = n - n // 2
+    w = 0.5 - 0.5 * np.cos(2.0 * np.pi * np.arange(n) / n)  # periodic Hann
+    segs = np.lib.stride_tricks.sliding_window_view(x, n)[::step]
+    segs = (segs - segs.mean(axis=-1, keepdims=True)) * w
+    p = np.abs(np.fft.rfft(segs, axis=-1)) ** 2 / (sample_rate_hz * np.sum(w * w))
+    if n % 2:
+        p[:, 1:] *= 2.0
+    else:
+        p[:, 1:-1] *= 2.0
+    return np.fft.rfftfreq(n, 1.0 / sample_rate_hz), p.mean(axis=0)
+
+
 def infer_nominal_frequency(x: np.ndarray, sample_rate_hz: float, max_s: float = 2.0) -> tuple[float | None, float | None]:
     """Nominal system frequency (50 or 60 Hz) from the dominant component of a signal.
 
@@ -407,11 +435,9 @@ def infer_nominal_frequency(x: np.ndarray, sample_rate_hz: float, max_s: float =
 
     Notes
     -----
-    Welch periodogram (`scipy.signal.welch`), peak refined by parabolic
+    Welch periodogram (`welch_hann`), peak refined by parabolic
     interpolation of the log spectrum; common practice, no source.
     """
-    import scipy.signal  # here, not at module level: importing it costs ~1 s at CLI start-up
-
     x = np.asarray(x, dtype=np.float64)[: int(max_s * sample_rate_hz)]
     x = x[np.isfinite(x)]
     if x.size < 5 * sample_rate_hz / 40.0 or sample_rate_hz < 200:
@@ -420,7 +446,7 @@ def infer_nominal_frequency(x: np.ndarray, sample_rate_hz: float, max_s: float =
     if not np.any(x):
         return None, None
     nper = min(x.size, int(sample_rate_hz))  # 1 Hz bins, or coarser on short captures
-    f, p = scipy.signal.welch(x, fs=sample_rate_hz, nperseg=nper, window="hann")
+    f, p = welch_hann(x, sample_rate_hz, nper)
     band = (f >= 40.0) & (f <= 70.0)
     if not np.any(band) or not np.any(p[band] > 0):
         return None, None
