@@ -156,3 +156,15 @@ def test_window_detail_from_the_kept_current_equals_a_fresh_read():
         b = window_detail(cap, float(t), nameplate=plate, **opts)
         assert a.status == b.status
         np.testing.assert_array_equal(a.spectrum.power, b.spectrum.power)
+
+
+@pytest.mark.parametrize("workers", [1, 2, 3, 64])
+def test_batch_threads_do_not_oversubscribe(workers):
+    import os
+
+    from waveforms.batch.executors import capture_threads
+
+    cores = len(os.sched_getaffinity(0))
+    t = capture_threads(workers)
+    assert t >= 1
+    assert t * workers <= max(cores, workers)  # never more threads than cores, unless the workers alone are
