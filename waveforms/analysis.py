@@ -478,7 +478,7 @@ def analyze(
     detectors : tuple of str, optional
         Report only these detectors (see `waveforms.detect.detector_names`).
     quality : bool
-        Gather data-quality notes (one more pass over the samples).
+        Gather data-quality notes (from the measurement pass; no extra read).
     measure_options : dict, optional
         Keys of the measure stage (``chunk_samples``, ``overlap_cycles``).
 

@@ -594,7 +594,7 @@ class ImportSettings:
     nominal_voltage_v: float | None = setting(None, "declared line-to-line voltage [V]; absent = from the file",
                                               minimum=0.0, forward=False)
     wiring: str = setting("", "'3-wire' or '4-wire'; empty = from the file", choices=("", "3-wire", "4-wire"), forward=False)
-    quality: bool = setting(True, "gather data-quality notes (clipping, flat or dead channels, gaps; one more pass)",
+    quality: bool = setting(True, "gather data-quality notes (clipping, flat or dead channels, gaps; from the measure stage's pass when one follows)",
                             forward=False)
 
     def __post_init__(self) -> None:
