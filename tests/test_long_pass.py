@@ -168,3 +168,12 @@ def test_batch_threads_do_not_oversubscribe(workers):
     t = capture_threads(workers)
     assert t >= 1
     assert t * workers <= max(cores, workers)  # never more threads than cores, unless the workers alone are
+
+
+def test_without_the_harmonic_table_the_other_tables_are_the_same():
+    cap = read_capture(SAMPLES / "open_phase_stall.h5")
+    a = measure(cap, chunk_samples=8192)
+    b = measure(cap, chunk_samples=8192, harmonics=False, threads=2)
+    pd.testing.assert_frame_equal(a.cycles, b.cycles, check_exact=True)
+    pd.testing.assert_frame_equal(a.half_cycles, b.half_cycles, check_exact=True)
+    assert len(a.harmonics) > 0 and len(b.harmonics) == 0

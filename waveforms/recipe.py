@@ -656,6 +656,8 @@ class MeasureSettings:
     chunk_samples: int | None = setting(None, "samples per processing block (bounds memory; results do not depend on it) [samples]",
                                         minimum=4096)
     overlap_cycles: int | None = setting(None, "nominal cycles of overlap between blocks (at least 20) [cycles]", minimum=20)
+    harmonics: bool | None = setting(None, "keep the 10/12-cycle harmonic table (no finding uses it; false saves time and memory); "
+                                           "absent = kept")
 
     def __post_init__(self) -> None:
         check_fields(self)
@@ -665,7 +667,8 @@ def _stage_measure(state: RunState, params: dict[str, Any]) -> None:
     from .analysis import measure_capture
 
     kw = library_kwargs(params, get_stage("measure"))
-    state.settings["measure"] = kw
+    # the record (result.json parameters) leaves out `harmonics`: it changes what is kept, never a finding
+    state.settings["measure"] = {k: v for k, v in kw.items() if k != "harmonics"}
     run_kw: dict[str, Any] = {**kw, "threads": state.threads}
     acc = state.pending_quality
     if acc is not None:

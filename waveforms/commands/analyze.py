@@ -86,6 +86,9 @@ def command(capture: str, motor: str | None, out_dir: str, recipe_name: str, no_
         raise InvalidParameterError(f"--recipe {recipe_name}: recipe {rec.name!r} has no {' and no '.join(missing)} stage; "
                                     f"analyze needs both (stages: {list(rec.stage_names)})")
     rec = _set(rec, "report", {"cycles": cycles, **({"html": False} if no_html else {})}, "--no-html" if no_html else "--cycles")
+    if "measure" in rec.stage_names and rec.params("measure").get("harmonics") is None:
+        # nothing analyze writes uses the harmonic table: not computed unless the recipe asks for it
+        rec = _set(rec, "measure", {"harmonics": False}, "--recipe")
     if no_speed and "speed" in rec.stage_names:
         rec = _set(rec, "speed", {"enabled": False}, "--no-speed")
     if speed_window_s is not None:

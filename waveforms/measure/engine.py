@@ -544,7 +544,7 @@ def _blas_one_thread():
 
 def iter_pass(capture: Capture, chunk_samples: int, lay: Layout, st: Settings, *, threads: int = 1,
               feed: Feed | None = None, extra: Extra | None = None, overlap_samples: int | None = None,
-              ) -> Iterator[tuple[Columns, Columns, Columns, Any]]:
+              harmonics: bool = True) -> Iterator[tuple[Columns, Columns, Columns, Any]]:
     """One pass over the samples: every block measured, fed to ``feed`` and given to ``extra``, in time order.
 
     Yields ``(cycles, half_cycles, harmonics, extra_value)`` for every block (empty column
@@ -565,7 +565,7 @@ def iter_pass(capture: Capture, chunk_samples: int, lay: Layout, st: Settings, *
         if part is None:
             return _empty_block()
         cyc, half = numbered(part, offset)
-        return cyc, half, block_harmonics(ch.data, ch.start_index, part, offset, lay, st)
+        return cyc, half, block_harmonics(ch.data, ch.start_index, part, offset, lay, st) if harmonics else {}
 
     offset = 0
     with _blas_one_thread():
@@ -648,16 +648,24 @@ def iter_measure(capture: Capture, chunk_samples: int = DEFAULT_CHUNK_SAMPLES,
 
 
 def _concat(parts: list[Columns]) -> pd.DataFrame:
+    """One table from the blocks' column dicts, emptying them as it goes (the table and the blocks are never held twice)."""
     parts = [p for p in parts if p]
     if not parts:
         return pd.DataFrame()
-    return to_frame({k: np.concatenate([p[k] for p in parts]) for k in parts[0]})
+    cols: Columns = {}
+    for k in list(parts[0]):
+        cols[k] = np.concatenate([p.pop(k) for p in parts])
+    df = pd.DataFrame(cols, copy=False)  # the arrays as they are, no second copy into one block
+    del cols
+    if "phase_sequence" in df:
+        df["phase_sequence"] = df["phase_sequence"].astype("string")
+    return df
 
 
 def measure(capture: Capture, chunk_samples: int = DEFAULT_CHUNK_SAMPLES,
             nominal_frequency_hz: float | None = None,
             overlap_cycles: int = DEFAULT_OVERLAP_CYCLES, *, threads: int = 1,
-            feed: Feed | None = None, decimator: Any = None) -> Measurements:
+            feed: Feed | None = None, decimator: Any = None, harmonics: bool = True) -> Measurements:
     """Measure every cycle of a capture.
 
     Parameters
@@ -678,6 +686,9 @@ def measure(capture: Capture, chunk_samples: int = DEFAULT_CHUNK_SAMPLES,
     decimator : waveforms.speed.estimator.Decimator, optional
         Makes the speed track's decimated current from the same blocks
         (`Measurements.decimated`), so the speed stage reads nothing.
+    harmonics : bool
+        Compute the harmonic table; False leaves `Measurements.harmonics` empty
+        (the chain's findings do not use it) and saves its time and memory.
 
     Returns
     -------
@@ -691,10 +702,12 @@ def measure(capture: Capture, chunk_samples: int = DEFAULT_CHUNK_SAMPLES,
     if decimator is not None and decimator.overlap_needed > overlap:
         overlap = decimator.overlap_needed  # wider than the engine needs: its rows do not change
     parts = list(iter_pass(capture, chunk_samples, lay, st, threads=threads, feed=feed, overlap_samples=overlap,
+                           harmonics=harmonics,
                            extra=None if decimator is None else
                            (lambda ch: decimator.block(ch.start_index, ch.data, ch.lead, ch.trail))))
-    m = Measurements(_concat([p[0] for p in parts]), _concat([p[1] for p in parts]),
-                     _concat([p[2] for p in parts]), info)
-    if decimator is not None:
-        m.decimated = decimator.assemble([p[3] for p in parts])
+    decimated = None if decimator is None else decimator.assemble([p[3] for p in parts])
+    tables = [[p[i] for p in parts] for i in range(3)]
+    del parts  # the column dicts are emptied into the tables one column at a time
+    m = Measurements(_concat(tables[0]), _concat(tables[1]), _concat(tables[2]), info)
+    m.decimated = decimated
     return m
