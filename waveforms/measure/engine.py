@@ -647,19 +647,48 @@ def iter_measure(capture: Capture, chunk_samples: int = DEFAULT_CHUNK_SAMPLES,
         yield to_frame(cyc), to_frame(half), to_frame(harm)
 
 
-def _concat(parts: list[Columns]) -> pd.DataFrame:
-    """One table from the blocks' column dicts, emptying them as it goes (the table and the blocks are never held twice)."""
-    parts = [p for p in parts if p]
-    if not parts:
-        return pd.DataFrame()
-    cols: Columns = {}
-    for k in list(parts[0]):
-        cols[k] = np.concatenate([p.pop(k) for p in parts])
-    df = pd.DataFrame(cols, copy=False)  # the arrays as they are, no second copy into one block
-    del cols
-    if "phase_sequence" in df:
-        df["phase_sequence"] = df["phase_sequence"].astype("string")
-    return df
+class _Table:
+    """Rows of one table gathered block by block into arrays allocated once for the expected row count.
+
+    Holding the blocks and then concatenating them would need the table's memory twice;
+    here each block is copied in as it comes and dropped.  The arrays grow by half when the
+    estimate is passed; rows past the estimate that are never written stay untouched
+    (not resident).
+    """
+
+    def __init__(self, expected_rows: int) -> None:
+        self.cap = max(16, int(expected_rows))
+        self.n = 0
+        self.cols: dict[str, np.ndarray] = {}
+
+    def add(self, block: Columns) -> None:
+        if not block:
+            return
+        m = len(next(iter(block.values())))
+        if not self.cols:
+            self.cols = {k: np.empty(self.cap, dtype=np.asarray(v).dtype) for k, v in block.items()}
+        if self.n + m > self.cap:
+            self.cap = max(self.n + m, int(self.cap * 1.5))
+            for k, v in self.cols.items():
+                grown = np.empty(self.cap, dtype=v.dtype)
+                grown[: self.n] = v[: self.n]
+                self.cols[k] = grown
+        for k, v in block.items():
+            col = self.cols[k]
+            if col.dtype != np.asarray(v).dtype and col.dtype.kind == "U":  # text columns: widest seen
+                col = self.cols[k] = col.astype(np.result_type(col.dtype, np.asarray(v).dtype))
+            col[self.n : self.n + m] = v
+        self.n += m
+
+    def frame(self) -> pd.DataFrame:
+        if not self.cols:
+            return pd.DataFrame()
+        cols = {k: v[: self.n] for k, v in self.cols.items()}
+        self.cols = {}
+        df = pd.DataFrame(cols, copy=False)  # the arrays as they are, no copy into one block
+        if "phase_sequence" in df:
+            df["phase_sequence"] = df["phase_sequence"].astype("string")
+        return df
 
 
 def measure(capture: Capture, chunk_samples: int = DEFAULT_CHUNK_SAMPLES,
@@ -701,13 +730,16 @@ def measure(capture: Capture, chunk_samples: int = DEFAULT_CHUNK_SAMPLES,
     overlap = st.overlap_samples
     if decimator is not None and decimator.overlap_needed > overlap:
         overlap = decimator.overlap_needed  # wider than the engine needs: its rows do not change
-    parts = list(iter_pass(capture, chunk_samples, lay, st, threads=threads, feed=feed, overlap_samples=overlap,
-                           harmonics=harmonics,
-                           extra=None if decimator is None else
-                           (lambda ch: decimator.block(ch.start_index, ch.data, ch.lead, ch.trail))))
-    decimated = None if decimator is None else decimator.assemble([p[3] for p in parts])
-    tables = [[p[i] for p in parts] for i in range(3)]
-    del parts  # the column dicts are emptied into the tables one column at a time
-    m = Measurements(_concat(tables[0]), _concat(tables[1]), _concat(tables[2]), info)
-    m.decimated = decimated
+    n_cyc = int(capture.duration_s * st.f_nom_hz * 1.05) + 64  # the supply frequency stays within a few % of nominal
+    tables = (_Table(n_cyc), _Table(2 * n_cyc), _Table(n_cyc // st.harmonic_cycles + 16))
+    dec_parts = []
+    for *blocks, ex in iter_pass(capture, chunk_samples, lay, st, threads=threads, feed=feed, overlap_samples=overlap,
+                                 harmonics=harmonics,
+                                 extra=None if decimator is None else
+                                 (lambda ch: decimator.block(ch.start_index, ch.data, ch.lead, ch.trail))):
+        for t, b in zip(tables, blocks, strict=True):
+            t.add(b)
+        dec_parts.append(ex)
+    m = Measurements(tables[0].frame(), tables[1].frame(), tables[2].frame(), info)
+    m.decimated = None if decimator is None else decimator.assemble(dec_parts)
     return m
