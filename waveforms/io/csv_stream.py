@@ -6,11 +6,12 @@ at 20 kS/s.  `convert_csv_to_native` reads the same files block by block with
 pyarrow's streaming CSV reader and writes each block to the native layout
 as it comes, so memory stays at a few blocks whatever the file's length.
 
-The time column is read first, into a temporary file, and checked by
-`waveforms.timebase.analyse_stamps` over the whole file exactly as the in-memory
-reader checks it (a `timebase.DiskArray` keeps the stamps and the grid index out
-of memory); the channels are then read in a second pass and each row written at
-its grid point (NaN where rows are missing, listed as `Gap`).  The
+The time stamps are kept in a temporary file while the rows are written, and
+checked at the end by `waveforms.timebase.analyse_stamps` over the whole file
+exactly as the in-memory reader checks them (a `timebase.DiskArray` keeps the
+stamps and the grid index out of memory).  When rows are missing (gaps) the
+text is read a second time and each row written at its grid point (NaN where
+rows are missing, listed as `Gap`).  The
 fitted rate, gaps and provenance are written when the stream ends, before
 the output is renamed into place.  Irregular stamps are an error here: use
 the in-memory path with ``--resample``.
@@ -104,32 +105,36 @@ def _arrow_error(path: Path, plan: Plan, msg: str) -> CaptureReadError:
     return CaptureReadError(path, "", f"cannot be parsed ({msg})")
 
 
-def _stamp_pass(src_path: Path, plan: Plan, mapping: Any, stamps: timebase.DiskArray, state: dict[str, Any]) -> None:
-    """Read the time column only, block by block, into ``stamps`` as the in-memory reader computes them [s]."""
-    lay = plan.layout
-    for batch in _batches(src_path, plan, [plan.time_col]):
-        col = batch.column(plan.time_col)
-        row0 = state["rows"]
-        if plan.time_format == "iso8601":
-            sr = pd.Series(col.to_numpy(zero_copy_only=False), dtype=object)
-            ns, tz = iso_to_ns(sr, mapping, src_path, plan.time_col, lambda r, r0=row0: line_of_row(src_path, lay, r0 + r))
-            if state["ns0"] is None:
-                state["ns0"], state["tz"] = int(ns[0]), tz
-            t = (ns - state["ns0"]).astype(np.float64) * 1e-9  # seconds from the first stamp, as delimited._iso_stamps
-        else:
-            raw = col.to_numpy(zero_copy_only=False).astype(np.float64)
-            if np.isnan(raw).any():
-                r = row0 + int(np.flatnonzero(np.isnan(raw))[0])
-                raise CaptureReadError(src_path, f"line {line_of_row(src_path, lay, r)}, column {plan.time_col!r}", "time stamp missing")
-            from .mapping import time_header_unit, time_unit_factor
+class _Regrid(Exception):
+    """The rows are not the grid (gaps): write again, each row at its grid point."""
 
-            unit = mapping.time.get("unit", time_header_unit(plan.time_col))
-            state["unit"] = unit
-            t = raw * time_unit_factor(unit, src_path, f"line {lay.header_index + 1}, column {plan.time_col!r}")
-            if row0 == 0:
-                state["t_first_s"] = float(t[0])
-        stamps.append(t)
-        state["rows"] += batch.num_rows
+
+def _add_stamps(batch: pa.RecordBatch, src_path: Path, plan: Plan, mapping: Any, stamps: timebase.DiskArray,
+                state: dict[str, Any]) -> None:
+    """Append a block's time stamps to ``stamps`` as the in-memory reader computes them [s]."""
+    lay = plan.layout
+    col = batch.column(plan.time_col)
+    row0 = state["rows"]
+    if plan.time_format == "iso8601":
+        sr = pd.Series(col.to_numpy(zero_copy_only=False), dtype=object)
+        ns, tz = iso_to_ns(sr, mapping, src_path, plan.time_col, lambda r, r0=row0: line_of_row(src_path, lay, r0 + r))
+        if state["ns0"] is None:
+            state["ns0"], state["tz"] = int(ns[0]), tz
+        t = (ns - state["ns0"]).astype(np.float64) * 1e-9  # seconds from the first stamp, as delimited._iso_stamps
+    else:
+        raw = col.to_numpy(zero_copy_only=False).astype(np.float64)
+        if np.isnan(raw).any():
+            r = row0 + int(np.flatnonzero(np.isnan(raw))[0])
+            raise CaptureReadError(src_path, f"line {line_of_row(src_path, lay, r)}, column {plan.time_col!r}", "time stamp missing")
+        from .mapping import time_header_unit, time_unit_factor
+
+        unit = mapping.time.get("unit", time_header_unit(plan.time_col))
+        state["unit"] = unit
+        t = raw * time_unit_factor(unit, src_path, f"line {lay.header_index + 1}, column {plan.time_col!r}")
+        if row0 == 0:
+            state["t_first_s"] = float(t[0])
+    stamps.append(t)
+    state["rows"] += batch.num_rows
 
 
 def _check_stamps(src_path: Path, plan: Plan, rep: timebase.TimebaseReport, stamps: Any) -> None:
@@ -166,10 +171,10 @@ def convert_csv_to_native(
 ) -> dict[str, Any]:
     """Convert a delimited-text capture to native HDF5 block by block (bounded memory).
 
-    Two passes over the text: the time column first, kept in a temporary file and
-    checked by `waveforms.timebase.analyse_stamps` over the whole file exactly as the
-    in-memory reader checks it (the same period, grid, gaps and refusals), then the
-    channels, each row written at its grid point.
+    One pass over the text writes the rows and keeps the stamps in a temporary
+    file; `waveforms.timebase.analyse_stamps` then checks them over the whole file
+    exactly as the in-memory reader does (the same period, grid, gaps and
+    refusals).  With gaps a second pass writes each row at its grid point.
 
     Parameters
     ----------
@@ -219,11 +224,19 @@ def convert_csv_to_native(
             raise CaptureReadError(src_path, f"line {lay.header_index + 1}", "no time column and no sample rate; give --rate HZ (or [capture] sample_rate_hz)")
         state["rate"] = rate
 
-    def blocks(grid_index: Any) -> Iterator[np.ndarray]:
+    def blocks(grid_index: Any, stamps: timebase.DiskArray | None = None) -> Iterator[np.ndarray]:
+        """The samples block by block: rows in file order (``grid_index`` None) or each at its grid point.
+
+        With ``stamps``, the block's time stamps are gathered in the same pass.
+        """
         pos = 0
         row0 = 0
-        for batch in _batches(src_path, plan, value_cols):
+        state["first_values"] = None
+        cols = value_cols + ([plan.time_col] if stamps is not None else [])
+        for batch in _batches(src_path, plan, cols):
             m = batch.num_rows
+            if stamps is not None:
+                _add_stamps(batch, src_path, plan, mapping, stamps, state)
             values = np.vstack([batch.column(s.source_label).to_numpy(zero_copy_only=False).astype(np.float64) for s in specs])
             if np.any(scales != 1.0):
                 values *= scales[:, None]
@@ -302,21 +315,35 @@ def convert_csv_to_native(
         digest = pool.submit(sha256_file, src_path)
         stamps: timebase.DiskArray | None = None
         rep: timebase.TimebaseReport | None = None
+        channels = [s.channel() for s in specs]
+
+        def analysed(n_written: int) -> dict[str, Any]:
+            nonlocal rep
+            if state["rows"] == 0:
+                raise CaptureReadError(src_path, f"line {lay.header_index + 1}", "header row but no data rows")
+            if state["rows"] < 2:
+                raise CaptureReadError(src_path, f"line {lay.header_index + 2}", "only one data row; cannot find a sample rate")
+            try:
+                rep = timebase.analyse_stamps(stamps)
+            except InvalidParameterError as e:
+                raise CaptureReadError(src_path, f"column {plan.time_col!r}", str(e)) from None
+            _check_stamps(src_path, plan, rep, stamps)
+            if rep.gaps or rep.n_grid != state["rows"]:
+                raise _Regrid  # nothing is left behind: the output is written atomically
+            return finalize(n_written, rep)  # the rows are the grid (the usual case): one pass over the text
+
         try:
-            if plan.time_col is not None:
+            if plan.time_col is None:
+                write_native_blocks(out, channels, provisional, blocks(None), None, dtype, compression,
+                                    finalize=lambda n: finalize(n, None))
+            else:
                 stamps = timebase.DiskArray(os.path.join(tmp, "stamps.f8"), np.float64)
-                _stamp_pass(src_path, plan, mapping, stamps, state)
-                if state["rows"] == 0:
-                    raise CaptureReadError(src_path, f"line {lay.header_index + 1}", "header row but no data rows")
-                if state["rows"] < 2:
-                    raise CaptureReadError(src_path, f"line {lay.header_index + 2}", "only one data row; cannot find a sample rate")
                 try:
-                    rep = timebase.analyse_stamps(stamps)
-                except InvalidParameterError as e:
-                    raise CaptureReadError(src_path, f"column {plan.time_col!r}", str(e)) from None
-                _check_stamps(src_path, plan, rep, stamps)
-            write_native_blocks(out, [s.channel() for s in specs], provisional, blocks(None if rep is None else rep.grid_index),
-                                None, dtype, compression, finalize=lambda n: finalize(n, rep))
+                    write_native_blocks(out, channels, provisional, blocks(None, stamps), None, dtype, compression,
+                                        finalize=analysed)
+                except _Regrid:  # gaps: a second pass over the text places each row on its grid point
+                    write_native_blocks(out, channels, provisional, blocks(rep.grid_index), None, dtype, compression,
+                                        finalize=lambda n: finalize(n, rep))
         finally:
             digest.cancel()
             for arr in (stamps, None if rep is None else rep.grid_index):
