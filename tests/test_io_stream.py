@@ -74,7 +74,7 @@ def test_cli_convert_streams_csv(tmp_path):
     assert any("converted to c.h5" in h for h in b.provenance.history)
 
 
-from hypothesis import HealthCheck, given, settings, strategies as st  # noqa: E402
+from hypothesis import HealthCheck, example, given, settings, strategies as st  # noqa: E402
 
 from waveforms.errors import WaveformsError  # noqa: E402
 
@@ -88,6 +88,9 @@ from waveforms.errors import WaveformsError  # noqa: E402
     jitter=st.floats(0, 0.15),  # clearly regular; the irregular case has its own tests
     seed=st.integers(0, 2**16),
 )
+# found by hypothesis: the stream fitted the grid on its first block and accepted this file, the
+# in-memory reader (whole-file fit) refused it (2000.025 vs 2000.073 Hz); both now fit the whole file
+@example(n=5422, drop=[], decimal=".", block=64, jitter=0.0703125, seed=65535)
 def test_streamed_equals_in_memory_property(tmp_path_factory, n, drop, decimal, block, jitter, seed):
     rng = np.random.default_rng(seed)
     rows = np.setdiff1d(np.arange(n), drop)
@@ -116,6 +119,7 @@ def test_streamed_equals_in_memory_property(tmp_path_factory, n, drop, decimal, 
         csv_stream.BLOCK_BYTES = csv_stream_block
     got = read_capture(d / "p.h5")
     np.testing.assert_array_equal(mem.read(), got.read())
-    assert got.sample_rate_hz == pytest.approx(mem.sample_rate_hz, rel=1e-12)  # sums taken in another order
+    assert got.sample_rate_hz == mem.sample_rate_hz  # the same stamp analysis, on the same stamps
+    assert got.provenance.mapping == mem.provenance.mapping
     for f in ("start_time", "channels", "gaps", "n_samples"):
         assert getattr(mem, f) == getattr(got, f), f

@@ -71,3 +71,18 @@ def test_infer_nominal_frequency(f_hz, nominal):
 def test_infer_nominal_too_short_or_flat():
     assert timebase.infer_nominal_frequency(np.zeros(10000), 5000.0) == (None, None)
     assert timebase.infer_nominal_frequency(np.sin(np.arange(50)), 5000.0) == (None, None)
+
+
+@pytest.mark.parametrize(("n", "nper"), [(20_000, 10_000), (15_001, 4_999), (1_000, 1_000)])
+def test_welch_hann_matches_scipy(n, nper):
+    # reference library: scipy.signal.welch (window "hann", its default overlap, detrend and density scaling)
+    import scipy.signal
+
+    from waveforms.timebase import welch_hann
+
+    rng = np.random.default_rng(n)
+    x = np.sin(2 * np.pi * 50.3 * np.arange(n) / 10_000.0) + 0.1 * rng.normal(size=n) + 0.2
+    f_ref, p_ref = scipy.signal.welch(x, fs=10_000.0, nperseg=nper, window="hann")
+    f, p = welch_hann(x, 10_000.0, nper)
+    np.testing.assert_allclose(f, f_ref, rtol=1e-12)
+    np.testing.assert_allclose(p, p_ref, rtol=1e-9, atol=1e-12 * p_ref.max())

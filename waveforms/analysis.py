@@ -115,16 +115,19 @@ def locked_rotor_a(plate: Nameplate | None) -> float | None:
 
 
 def versions() -> dict[str, str]:
-    import h5py
-    import matplotlib
-    import scipy
+    from importlib.metadata import PackageNotFoundError, version
 
     from . import __version__
 
+    def of(dist: str) -> str:  # the installed distribution's version, without importing it (matplotlib: ~0.5 s)
+        try:
+            return version(dist)
+        except PackageNotFoundError:
+            return ""
+
     return {
         "motor-waveforms": __version__, "python": platform.python_version(), "numpy": np.__version__,
-        "scipy": scipy.__version__, "pandas": pd.__version__, "h5py": h5py.__version__,
-        "matplotlib": matplotlib.__version__,
+        "scipy": of("scipy"), "pandas": pd.__version__, "h5py": of("h5py"), "matplotlib": of("matplotlib"),
     }
 
 
@@ -478,7 +481,7 @@ def analyze(
     detectors : tuple of str, optional
         Report only these detectors (see `waveforms.detect.detector_names`).
     quality : bool
-        Gather data-quality notes (one more pass over the samples).
+        Gather data-quality notes (from the measurement pass; no extra read).
     measure_options : dict, optional
         Keys of the measure stage (``chunk_samples``, ``overlap_cycles``).
 

@@ -16,10 +16,14 @@ from __future__ import annotations
 import dataclasses
 from typing import Any
 
+from typing import TYPE_CHECKING
+
 import numpy as np
-import pandas as pd
 
 from .capture import Capture
+
+if TYPE_CHECKING:  # pandas is imported where a table is made, not at start-up (issue 10 item 5)
+    import pandas as pd
 
 #: A run of at least this many equal samples at the max/min counts as flat-topping.
 CLIP_MIN_RUN = 3
@@ -47,13 +51,16 @@ class _Extreme:
             self.at_value += length
         self.longest = max(self.longest, length)
 
-    def update(self, x: np.ndarray, sign: float) -> None:
-        finite = x[np.isfinite(x)]
-        if finite.size == 0:
+    def update(self, x: np.ndarray, sign: float, extreme: float | None = None) -> None:
+        """Add the next samples ``x`` of the channel; ``extreme`` is their max (sign +1) or min (-1), NaN if none is finite."""
+        if extreme is None:
+            finite = x[np.isfinite(x)]
+            extreme = float(np.max(finite * sign)) * sign if finite.size else np.nan
+        if np.isnan(extreme):
             self._close(self.open_run)
             self.open_run = 0
             return
-        cm = float(np.max(finite * sign)) * sign
+        cm = float(extreme)
         if np.isnan(self.value) or cm * sign > self.value * sign:
             self.value, self.runs, self.longest, self.at_value, self.open_run = cm, 0, 0, 0, 0
         elif cm != self.value:
@@ -84,6 +91,101 @@ class _Extreme:
         self.open_run = 0
 
 
+class StatsAccumulator:
+    """The per-channel figures of `channel_stats`, gathered from owned blocks fed in time order.
+
+    The shared pass of the measurement engine (`waveforms.measure.engine.measure`) feeds it the
+    same blocks it measures, so the survey needs no read of its own.
+    """
+
+    def __init__(self, capture: Capture) -> None:
+        self.capture = capture
+        n_ch = len(capture.channels)
+        self.count = np.zeros(n_ch)
+        self.nans = np.zeros(n_ch, dtype=np.int64)
+        self.s1 = np.zeros(n_ch)
+        self.s2 = np.zeros(n_ch)
+        self.hi = [_Extreme() for _ in range(n_ch)]
+        self.lo = [_Extreme() for _ in range(n_ch)]
+        self.shift = np.full(n_ch, np.nan)  # first finite value: sums taken about it (numerically stable)
+
+    def feed(self, x: np.ndarray) -> None:
+        """Add the samples ``x`` (n_channels, n), the next ones after those fed before."""
+        if x.shape[1] == 0:
+            return
+        fin = np.isfinite(x)
+        all_fin = bool(fin.all())
+        if all_fin:  # the usual case: no masks needed (same sums as the masked ones)
+            self.count += x.shape[1]
+            if np.isnan(self.shift).any():
+                self.shift = np.where(np.isnan(self.shift), x[:, 0] if x.shape[1] else np.nan, self.shift)
+            d = x - np.nan_to_num(self.shift)[:, None]
+            hi, lo = x.max(axis=1), x.min(axis=1)
+        else:
+            self.nans += (~fin).sum(axis=1)
+            self.count += fin.sum(axis=1)
+            need = np.isnan(self.shift) & fin.any(axis=1)
+            if need.any():
+                first = np.argmax(fin, axis=1)
+                self.shift[need] = x[need, first[need]]
+            d = np.where(fin, x - np.nan_to_num(self.shift)[:, None], 0.0)
+        self.s1 += d.sum(axis=1)
+        self.s2 += (d * d).sum(axis=1)
+        for i in range(x.shape[0]):  # per channel, not per sample
+            self.hi[i].update(x[i], 1.0, float(hi[i]) if all_fin else None)
+            self.lo[i].update(x[i], -1.0, float(lo[i]) if all_fin else None)
+
+    def records(self) -> dict[str, dict[str, Any]]:
+        """The statistics as plain data: channel name -> the columns of `channel_stats` (no pandas)."""
+        capture, count, shift = self.capture, self.count, self.shift
+        hi, lo = self.hi, self.lo
+        for e in hi + lo:
+            e.finish()
+        with np.errstate(invalid="ignore", divide="ignore"):
+            mean_d = self.s1 / count
+            var = np.maximum(self.s2 / count - mean_d**2, 0.0)
+            mean = mean_d + np.nan_to_num(shift)
+            rms = np.sqrt(var + mean**2)
+        cols = {
+            "kind": [c.kind for c in capture.channels],
+            "reference": [c.reference for c in capture.channels],
+            "unit": [c.unit for c in capture.channels],
+            "n": count.astype(np.int64),
+            "n_nan": self.nans,
+            "min": [e.value for e in lo],
+            "max": [e.value for e in hi],
+            "mean": np.where(count > 0, mean, np.nan),
+            "rms": np.where(count > 0, rms, np.nan),
+            "ac_rms": np.where(count > 0, np.sqrt(var), np.nan),
+            "max_runs": [e.runs for e in hi],
+            "min_runs": [e.runs for e in lo],
+            "max_longest": [e.longest for e in hi],
+            "min_longest": [e.longest for e in lo],
+            "at_extremes": [a.at_value + b.at_value for a, b in zip(hi, lo, strict=True)],
+        }
+        return {name: {k: _scalar(v[i]) for k, v in cols.items()} for i, name in enumerate(capture.channel_names)}
+
+    def frame(self) -> pd.DataFrame:
+        """The statistics table (see `channel_stats`)."""
+        import pandas as pd
+
+        recs = self.records()
+        return pd.DataFrame.from_dict(recs, orient="index").rename_axis("channel")
+
+
+def _scalar(v: Any) -> Any:
+    """A numpy scalar as the plain Python number (int or float), text as it is."""
+    return v.item() if isinstance(v, np.generic) else v
+
+
+def channel_stat_records(capture: Capture, chunk_samples: int = 1 << 18) -> dict[str, dict[str, Any]]:
+    """`channel_stats` as plain data (channel name -> figures), without importing pandas (for a fast ``inspect``)."""
+    acc = StatsAccumulator(capture)
+    for chunk in capture.iter_chunks(chunk_samples):
+        acc.feed(chunk.owned)
+    return acc.records()
+
+
 def channel_stats(capture: Capture, chunk_samples: int = 1 << 18) -> pd.DataFrame:
     """Per-channel statistics in one chunked pass (memory bounded by ``chunk_samples``).
 
@@ -96,59 +198,13 @@ def channel_stats(capture: Capture, chunk_samples: int = 1 << 18) -> pd.DataFram
         maximum/minimum), ``max_longest``/``min_longest``, ``at_extremes``
         (samples in such runs).  Values in V or A.
     """
-    n_ch = len(capture.channels)
-    count = np.zeros(n_ch)
-    nans = np.zeros(n_ch, dtype=np.int64)
-    s1 = np.zeros(n_ch)
-    s2 = np.zeros(n_ch)
-    hi = [_Extreme() for _ in range(n_ch)]
-    lo = [_Extreme() for _ in range(n_ch)]
-    shift = np.full(n_ch, np.nan)  # first finite value: sums taken about it (numerically stable)
+    acc = StatsAccumulator(capture)
     for chunk in capture.iter_chunks(chunk_samples):
-        x = chunk.owned
-        fin = np.isfinite(x)
-        nans += (~fin).sum(axis=1)
-        count += fin.sum(axis=1)
-        need = np.isnan(shift) & fin.any(axis=1)
-        if need.any():
-            first = np.argmax(fin, axis=1)
-            shift[need] = x[need, first[need]]
-        d = np.where(fin, x - np.nan_to_num(shift)[:, None], 0.0)
-        s1 += d.sum(axis=1)
-        s2 += (d * d).sum(axis=1)
-        for i in range(n_ch):  # per channel, not per sample
-            hi[i].update(x[i], 1.0)
-            lo[i].update(x[i], -1.0)
-    for e in hi + lo:
-        e.finish()
-    with np.errstate(invalid="ignore", divide="ignore"):
-        mean_d = s1 / count
-        var = np.maximum(s2 / count - mean_d**2, 0.0)
-        mean = mean_d + np.nan_to_num(shift)
-        rms = np.sqrt(var + mean**2)
-    return pd.DataFrame(
-        {
-            "kind": [c.kind for c in capture.channels],
-            "reference": [c.reference for c in capture.channels],
-            "unit": [c.unit for c in capture.channels],
-            "n": count.astype(np.int64),
-            "n_nan": nans,
-            "min": [e.value for e in lo],
-            "max": [e.value for e in hi],
-            "mean": np.where(count > 0, mean, np.nan),
-            "rms": np.where(count > 0, rms, np.nan),
-            "ac_rms": np.where(count > 0, np.sqrt(var), np.nan),
-            "max_runs": [e.runs for e in hi],
-            "min_runs": [e.runs for e in lo],
-            "max_longest": [e.longest for e in hi],
-            "min_longest": [e.longest for e in lo],
-            "at_extremes": [a.at_value + b.at_value for a, b in zip(hi, lo, strict=True)],
-        },
-        index=pd.Index(list(capture.channel_names), name="channel"),
-    )
+        acc.feed(chunk.owned)
+    return acc.frame()
 
 
-def quality_notes(capture: Capture, stats: pd.DataFrame | None = None) -> list[dict[str, Any]]:
+def quality_notes(capture: Capture, stats: pd.DataFrame | dict[str, dict[str, Any]] | None = None) -> list[dict[str, Any]]:
     """Data-quality notes: one dict per finding.
 
     Each dict has ``check`` (``"clipping"``, ``"flat"``, ``"dead"``, ``"nan"``,
@@ -157,7 +213,12 @@ def quality_notes(capture: Capture, stats: pd.DataFrame | None = None) -> list[d
     figures behind it.  Thresholds: `CLIP_MIN_RUN`, `CLIP_MIN_RUNS`,
     `DEAD_FRACTION`, `OFFSET_FRACTION` (common practice, no source).
     """
-    st = channel_stats(capture) if stats is None else stats
+    if stats is None:
+        st = channel_stat_records(capture)
+    elif isinstance(stats, dict):
+        st = stats
+    else:  # a `channel_stats` table
+        st = {name: dict(row) for name, row in stats.to_dict(orient="index").items()}
     notes: list[dict[str, Any]] = []
     rate = capture.sample_rate_hz
     for g in capture.gaps:
@@ -166,10 +227,14 @@ def quality_notes(capture: Capture, stats: pd.DataFrame | None = None) -> list[d
             "message": f"gap of {g.n_samples} samples ({g.n_samples / rate:.6g} s) at t = {g.start_index / rate:.6f} s: {g.reason}",
             "start_s": g.start_index / rate, "duration_s": g.n_samples / rate,
         })
-    phase = st[st["reference"] != "neutral"]  # a neutral is small by design: not compared
-    kind_max = phase.groupby("kind")["ac_rms"].max()
+    kind_max: dict[str, float] = {}
+    for r in st.values():
+        if r["reference"] != "neutral":  # a neutral is small by design: not compared
+            v = r["ac_rms"]
+            if not np.isnan(v):  # NaN skipped, as a pandas max does
+                kind_max[r["kind"]] = max(kind_max.get(r["kind"], -np.inf), v)
     gap_samples = sum(g.n_samples for g in capture.gaps)
-    for name, r in st.iterrows():
+    for name, r in st.items():
         u = r["unit"]
         if r["n"] == 0:
             notes.append({"check": "empty", "channel": name, "severity": "warning", "message": f"{name}: no finite samples at all"})

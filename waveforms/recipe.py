@@ -120,6 +120,12 @@ class RunState:
     outputs: dict[str, str] = dataclasses.field(default_factory=dict)
     notes: list[str] = dataclasses.field(default_factory=list)
     timings_s: dict[str, float] = dataclasses.field(default_factory=dict)
+    #: threads a stage may use for independent work (blocks, windows); results do not depend on it
+    threads: int = 1
+    #: the recipe's steps, so that the measure stage's pass can serve the stages after it
+    steps: tuple[tuple[str, dict[str, Any]], ...] = ()
+    #: the data-quality survey the import stage left to the measure stage's pass (see `_stage_import`)
+    pending_quality: Any = None
 
     @property
     def verdict(self) -> str:
@@ -482,6 +488,7 @@ def run_recipe(
     out_dir: str | os.PathLike[str] | None = None,
     nameplate_source: str = "",
     origin: str = "",
+    threads: int = 1,
 ) -> RunState:
     """Run a recipe's chain on one capture.
 
@@ -501,6 +508,9 @@ def run_recipe(
     origin : str
         The capture's name as the user gave it (an fsspec URL read through a
         local copy); recorded as the capture's source path.
+    threads : int
+        Threads for independent work inside the stages (measurement blocks,
+        speed windows); the results are the same for any value.
 
     Returns
     -------
@@ -532,6 +542,8 @@ def run_recipe(
         state.nameplate_source = nameplate_source or "given"
     state.out_dir = None if out_dir is None else Path(out_dir)
     state.origin = origin
+    state.threads = max(1, int(threads))
+    state.steps = rec.steps
     for name, params in rec.steps:
         stage = get_stage(name)
         if name == "report" and state.states is not None:
@@ -582,7 +594,7 @@ class ImportSettings:
     nominal_voltage_v: float | None = setting(None, "declared line-to-line voltage [V]; absent = from the file",
                                               minimum=0.0, forward=False)
     wiring: str = setting("", "'3-wire' or '4-wire'; empty = from the file", choices=("", "3-wire", "4-wire"), forward=False)
-    quality: bool = setting(True, "gather data-quality notes (clipping, flat or dead channels, gaps; one more pass)",
+    quality: bool = setting(True, "gather data-quality notes (clipping, flat or dead channels, gaps; from the measure stage's pass when one follows)",
                             forward=False)
 
     def __post_init__(self) -> None:
@@ -590,13 +602,15 @@ class ImportSettings:
 
 
 def _stage_import(state: RunState, params: dict[str, Any]) -> None:
-    from .io import ReadOptions, read_capture
+    from .io import ReadOptions
 
     (s,) = get_stage("import").build(params)
     if state.capture is None:
         opts = ReadOptions(nominal_frequency_hz=s.nominal_frequency_hz, nominal_voltage_v=s.nominal_voltage_v,
                            wiring=s.wiring or None)
-        state.capture = read_capture(state.source, format=s.format or None, options=opts)
+        from .io.csv_stream import open_capture
+
+        state.capture = open_capture(state.source, s.format or None, opts)  # a large CSV is streamed
         if state.origin:  # read through a local copy: the provenance names the original
             prov = dataclasses.replace(state.capture.provenance, source_path=state.origin)
             state.capture = state.capture.replace(provenance=prov)
@@ -609,11 +623,30 @@ def _stage_import(state: RunState, params: dict[str, Any]) -> None:
 
     state.notes.extend(nameplate_notes(state.nameplate))
     if s.quality:
-        from .quality import quality_notes
+        from .quality import StatsAccumulator, quality_notes
 
+        if "measure" in _later_stages(state, "import"):
+            # one pass over the samples: the measure stage feeds the survey the blocks it measures
+            state.pending_quality = StatsAccumulator(state.capture)
+            return
         t0 = time.perf_counter()
         state.quality = quality_notes(state.capture)
         state.timings_s["quality"] = time.perf_counter() - t0  # part of the import stage's time
+
+
+def _later_stages(state: RunState, name: str) -> dict[str, dict[str, Any]]:
+    """The steps after stage ``name`` in the running recipe (stage name -> its parameters)."""
+    names = [n for n, _ in state.steps]
+    if name not in names:
+        return {}
+    return {n: p for n, p in state.steps[names.index(name) + 1:]}
+
+
+def _speed_options(params: dict[str, Any]) -> tuple[Any, dict[str, Any]]:
+    """The speed stage's own settings and the speed-track keyword arguments its recipe table gives."""
+    own, _ = get_stage("speed").build(params)
+    # absent window_s: `analysis.default_speed_window_s`
+    return own, {k: (tuple(v) if isinstance(v, list) else v) for k, v in library_kwargs(params, get_stage("speed")).items()}
 
 
 @dataclasses.dataclass(frozen=True)
@@ -623,6 +656,8 @@ class MeasureSettings:
     chunk_samples: int | None = setting(None, "samples per processing block (bounds memory; results do not depend on it) [samples]",
                                         minimum=4096)
     overlap_cycles: int | None = setting(None, "nominal cycles of overlap between blocks (at least 20) [cycles]", minimum=20)
+    harmonics: bool | None = setting(None, "keep the 10/12-cycle harmonic table (no finding uses it; false saves time and memory); "
+                                           "absent = kept")
 
     def __post_init__(self) -> None:
         check_fields(self)
@@ -632,8 +667,45 @@ def _stage_measure(state: RunState, params: dict[str, Any]) -> None:
     from .analysis import measure_capture
 
     kw = library_kwargs(params, get_stage("measure"))
-    state.settings["measure"] = kw
-    state.measurements = measure_capture(state.capture, kw)
+    # the record (result.json parameters) leaves out `harmonics`: it changes what is kept, never a finding
+    state.settings["measure"] = {k: v for k, v in kw.items() if k != "harmonics"}
+    run_kw: dict[str, Any] = {**kw, "threads": state.threads}
+    acc = state.pending_quality
+    if acc is not None:
+        run_kw["feed"] = acc.feed
+    dec = _speed_decimator(state)
+    if dec is not None:
+        run_kw["decimator"] = dec
+    state.measurements = measure_capture(state.capture, run_kw)
+    if dec is not None and state.measurements.decimated is not None:
+        from .speed.estimator import DecimatedCurrent
+
+        names = tuple(state.capture.channels[r].name for r in dec.rows)
+        state.measurements.decimated = DecimatedCurrent(state.measurements.decimated, dec.q, dec.use_sv, names)
+    if acc is not None:
+        from .quality import quality_notes
+
+        t0 = time.perf_counter()
+        state.quality = quality_notes(state.capture, acc.records())
+        state.pending_quality = None
+        state.timings_s["quality"] = time.perf_counter() - t0  # the notes only: the survey rode on the measure pass
+
+
+def _speed_decimator(state: RunState) -> Any:
+    """The decimator of the speed stage that follows, for the measure stage's pass (None when none runs)."""
+    later = _later_stages(state, "measure")
+    if "speed" not in later:
+        return None
+    own, opts = _speed_options(dict(later["speed"]))
+    if not own.enabled:
+        return None
+    from .analysis import resolve_speed_options
+    from .speed.estimator import speed_decimator
+
+    opts = resolve_speed_options(state.capture, opts)
+    if state.nameplate is None and opts.get("pole_pairs") is None:
+        return None
+    return speed_decimator(state.capture, state.nameplate, **opts)
 
 
 @dataclasses.dataclass(frozen=True)
@@ -651,14 +723,16 @@ class SpeedStageSettings:
 def _stage_speed(state: RunState, params: dict[str, Any]) -> None:
     from .analysis import estimate_speed
 
-    own, _ = get_stage("speed").build(params)
-    # the speed-track keyword arguments the recipe gives (absent window_s: `analysis.default_speed_window_s`)
-    opts = {k: (tuple(v) if isinstance(v, list) else v) for k, v in library_kwargs(params, get_stage("speed")).items()}
+    own, opts = _speed_options(params)
     state.settings["speed"] = opts
     state.settings["speed_enabled"] = bool(own.enabled)
     if not own.enabled:
         return
-    state.speed, notes = estimate_speed(state.capture, state.cycles, state.nameplate, opts)
+    run = dict(opts, threads=state.threads)
+    dec = getattr(state.measurements, "decimated", None)
+    if dec is not None:  # made by the measure stage's pass: the capture is not read again
+        run["decimated"] = dec
+    state.speed, notes = estimate_speed(state.capture, state.cycles, state.nameplate, run)
     state.notes.extend(notes)
 
 

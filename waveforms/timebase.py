@@ -106,6 +106,77 @@ BLOCK_ROWS = 1 << 13
 MEDIAN_STEPS = 1 << 20
 
 
+class DiskArray:
+    """A 1-D array kept in a file and reached by slices, for `analyse_stamps` on stamps that do not fit in memory.
+
+    Supports what `analyse_stamps` uses: ``size``, ``len``, integer and slice reads
+    (``a[i]``, ``a[i:j]``, steps of 1) and slice writes.  Each access is one
+    ``pread``/``pwrite``, so the process holds only the block it works on (the
+    streamed CSV reader keeps an hour of stamps in a temporary file this way).
+    """
+
+    def __init__(self, path: str, dtype: Any, size: int = 0) -> None:
+        import os
+
+        self.path, self.dtype, self.size = str(path), np.dtype(dtype), int(size)
+        self._fd = os.open(self.path, os.O_RDWR | os.O_CREAT, 0o600)
+
+    def __len__(self) -> int:
+        return self.size
+
+    @property
+    def shape(self) -> tuple[int]:
+        return (self.size,)
+
+    def like(self, path: str, dtype: Any) -> DiskArray:
+        """An uninitialised `DiskArray` of the same size in file ``path``."""
+        return DiskArray(path, dtype, self.size)
+
+    def append(self, values: np.ndarray) -> None:
+        import os
+
+        v = np.ascontiguousarray(values, dtype=self.dtype)
+        os.pwrite(self._fd, v.tobytes(), self.size * self.dtype.itemsize)
+        self.size += v.size
+
+    def _range(self, key: slice) -> tuple[int, int]:
+        a, b, step = key.indices(self.size)
+        if step != 1:
+            raise InvalidParameterError("DiskArray slices take a step of 1")
+        return a, max(a, b)
+
+    def __getitem__(self, key: int | slice) -> Any:
+        import os
+
+        if isinstance(key, slice):
+            a, b = self._range(key)
+        else:
+            a = int(key) + (self.size if key < 0 else 0)
+            if not 0 <= a < self.size:
+                raise IndexError(key)
+            b = a + 1
+        k = self.dtype.itemsize
+        out = np.frombuffer(os.pread(self._fd, (b - a) * k, a * k), dtype=self.dtype)
+        return out if isinstance(key, slice) else out[0]
+
+    def __setitem__(self, key: slice, values: np.ndarray) -> None:
+        import os
+
+        a, b = self._range(key)
+        v = np.ascontiguousarray(np.broadcast_to(values, (b - a,)), dtype=self.dtype)
+        os.pwrite(self._fd, v.tobytes(), a * self.dtype.itemsize)
+
+    def close(self) -> None:
+        import os
+
+        if self._fd >= 0:
+            os.close(self._fd)
+            self._fd = -1
+
+    def __del__(self) -> None:
+        self.close()
+
+
 def _blocks(n: int) -> range:
     return range(0, n, BLOCK_ROWS)
 
@@ -181,8 +252,9 @@ def analyse_stamps(t_s: np.ndarray) -> TimebaseReport:
 
     Parameters
     ----------
-    t_s : ndarray
-        Time stamps [s], one per row, in file order (any origin).  Pass stamps
+    t_s : ndarray or DiskArray
+        Time stamps [s], one per row, in file order (any origin); a `DiskArray`
+        for stamps kept on disk (the grid index is then a `DiskArray` too).  Pass stamps
         relative to a nearby origin (e.g. the first stamp), not epoch seconds or
         nanoseconds, or float64 rounding (0.24 us at 1.7e9 s) adds to the jitter.
 
@@ -199,7 +271,7 @@ def analyse_stamps(t_s: np.ndarray) -> TimebaseReport:
     no source.  The work is done in blocks of `BLOCK_ROWS` rows: besides the
     stamps and the returned grid index no full-length array is made.
     """
-    t = np.asarray(t_s, dtype=np.float64)
+    t = t_s if isinstance(t_s, DiskArray) else np.asarray(t_s, dtype=np.float64)
     n = t.size
     if n < 2:
         raise InvalidParameterError(f"need at least two time stamps to find a sample rate, got {n}")
@@ -219,7 +291,7 @@ def analyse_stamps(t_s: np.ndarray) -> TimebaseReport:
         dt, offset, _ = _refine(t, dt, offset, k)
         k = min(n, 8 * k)
     # then over all rows until the grid indices and the period agree (usually at once, at most a few rounds)
-    idx = np.empty(n, dtype=np.int64)
+    idx = t.like(t.path + ".idx", np.int64) if isinstance(t, DiskArray) else np.empty(n, dtype=np.int64)
     for round_ in range(6):
         dt, offset, changed = _refine(t, dt, offset, n, idx)
         if (round_ > 0 and not changed) or idx[-1] <= 0:
@@ -313,6 +385,34 @@ def resample_uniform(t_s: np.ndarray, values: np.ndarray, rate_hz: float) -> tup
     return out, gaps
 
 
+def welch_hann(x: np.ndarray, sample_rate_hz: float, nperseg: int) -> tuple[np.ndarray, np.ndarray]:
+    """Welch power spectral density, as ``scipy.signal.welch(x, fs, nperseg=nperseg, window="hann")`` computes it.
+
+    Periodic Hann window, half-overlapping segments, each segment's mean removed,
+    density scaling, one-sided, mean over segments [unit^2/Hz].  Written with
+    numpy.fft so that reading a file (`infer_nominal_frequency`) does not import
+    scipy.signal, which costs about a second at start-up.
+
+    References
+    ----------
+    P. D. Welch, "The use of fast Fourier transform for the estimation of power
+    spectra", IEEE Trans. Audio Electroacoustics 15(2), 1967 (method, from memory);
+    the defaults are scipy.signal.welch's (tests/test_io_timebase.py compares the two).
+    """
+    x = np.asarray(x, dtype=np.float64)
+    n = int(nperseg)
+    step = n - n // 2
+    w = 0.5 - 0.5 * np.cos(2.0 * np.pi * np.arange(n) / n)  # periodic Hann
+    segs = np.lib.stride_tricks.sliding_window_view(x, n)[::step]
+    segs = (segs - segs.mean(axis=-1, keepdims=True)) * w
+    p = np.abs(np.fft.rfft(segs, axis=-1)) ** 2 / (sample_rate_hz * np.sum(w * w))
+    if n % 2:
+        p[:, 1:] *= 2.0
+    else:
+        p[:, 1:-1] *= 2.0
+    return np.fft.rfftfreq(n, 1.0 / sample_rate_hz), p.mean(axis=0)
+
+
 def infer_nominal_frequency(x: np.ndarray, sample_rate_hz: float, max_s: float = 2.0) -> tuple[float | None, float | None]:
     """Nominal system frequency (50 or 60 Hz) from the dominant component of a signal.
 
@@ -335,11 +435,9 @@ def infer_nominal_frequency(x: np.ndarray, sample_rate_hz: float, max_s: float =
 
     Notes
     -----
-    Welch periodogram (`scipy.signal.welch`), peak refined by parabolic
+    Welch periodogram (`welch_hann`), peak refined by parabolic
     interpolation of the log spectrum; common practice, no source.
     """
-    import scipy.signal  # here, not at module level: importing it costs ~1 s at CLI start-up
-
     x = np.asarray(x, dtype=np.float64)[: int(max_s * sample_rate_hz)]
     x = x[np.isfinite(x)]
     if x.size < 5 * sample_rate_hz / 40.0 or sample_rate_hz < 200:
@@ -348,7 +446,7 @@ def infer_nominal_frequency(x: np.ndarray, sample_rate_hz: float, max_s: float =
     if not np.any(x):
         return None, None
     nper = min(x.size, int(sample_rate_hz))  # 1 Hz bins, or coarser on short captures
-    f, p = scipy.signal.welch(x, fs=sample_rate_hz, nperseg=nper, window="hann")
+    f, p = welch_hann(x, sample_rate_hz, nper)
     band = (f >= 40.0) & (f <= 70.0)
     if not np.any(band) or not np.any(p[band] > 0):
         return None, None

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import concurrent.futures as cf
 import contextlib
+import dataclasses
 import importlib
 import multiprocessing
 import os
@@ -71,6 +72,15 @@ def worker_threads() -> int | None:
     return None if any(os.environ.get(k) for k in THREAD_VARIABLES) else 1
 
 
+def capture_threads(workers: int) -> int:
+    """Threads each capture may use when ``workers`` captures run at once: the cores shared out, at least 1."""
+    try:
+        cores = len(os.sched_getaffinity(0))
+    except (AttributeError, OSError):  # not on every platform
+        cores = os.cpu_count() or 1
+    return max(1, cores // max(1, workers))
+
+
 def _init_worker(threads: int | None) -> None:
     """Pool initializer: cap BLAS / OpenMP threads inside this worker (threadpoolctl), nothing else."""
     if threads is not None:
@@ -99,13 +109,15 @@ class _Pool:
         """Stop now: cancel what is queued and end the running workers."""
         # the pool's workers are children of this process started after the pool (multiprocessing.active_children)
         procs = [p for p in multiprocessing.active_children() if p not in self._before]
-        self.executor.shutdown(wait=False, cancel_futures=True)
         for p in procs:
             with contextlib.suppress(Exception):
                 p.terminate()
         for p in procs:
             with contextlib.suppress(Exception):
                 p.join(timeout=5)
+        # only then shut the executor down, waiting for its manager thread: shutting down first (without
+        # waiting) raced with max_tasks_per_child=1, whose manager may start a replacement worker meanwhile
+        self.executor.shutdown(wait=True, cancel_futures=True)
 
 
 def run_local(todo: Sequence[CaptureTask], jobs: int, collect: Callable[[dict[str, Any]], None], recipe: Recipe,
@@ -118,7 +130,9 @@ def run_local(todo: Sequence[CaptureTask], jobs: int, collect: Callable[[dict[st
     """
     if not todo:
         return
-    queue: deque[CaptureTask] = deque(todo)
+    # threads inside each capture (measurement blocks, speed windows) x workers never exceed the cores
+    per_task = capture_threads(min(jobs, len(todo)))
+    queue: deque[CaptureTask] = deque(dataclasses.replace(t, threads=per_task) for t in todo)
     suspects: deque[CaptureTask] = deque()
     pool: _Pool | None = None
     inflight: dict[cf.Future[dict[str, Any]], tuple[CaptureTask, bool]] = {}

@@ -35,6 +35,8 @@ class CaptureTask:
     nameplate_source: str
     out_dir: str | None
     out_root: str | None
+    #: threads inside the capture's analysis (`waveforms.recipe.run_recipe`); results do not depend on it
+    threads: int = 1
 
 
 def _safe_name(name: str) -> str:
@@ -84,7 +86,8 @@ def process_capture(task: CaptureTask) -> dict[str, Any]:
         with _local_copy(f.path) as local:
             try:
                 state = run_recipe(task.recipe, local, nameplate=plate, out_dir=task.out_dir,
-                                   nameplate_source=task.nameplate_source, origin=f.path if f.is_url else "")
+                                   nameplate_source=task.nameplate_source, origin=f.path if f.is_url else "",
+                                   threads=task.threads)
             except WaveformsError as e:
                 if f.is_url:  # name the URL, not the temporary copy
                     raise _renamed(e, local, f.path) from None

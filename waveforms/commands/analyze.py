@@ -20,10 +20,10 @@ import click
 
 from ..analysis import SAFETY_CAUTIONS
 from ..errors import InvalidParameterError
-from ..io.registry import ReadOptions, read_capture
+from ..io.registry import ReadOptions
 from ..motor.nameplate import load_nameplate
 from ..recipe import DEFAULT_RECIPE, Recipe, RecipeError, load_recipe, run_recipe
-from .readopts import options_from, read_options
+from .readopts import default_threads, options_from, read_options, threads_option
 
 
 def _set(rec: Recipe, stage: str, values: dict[str, Any], option: str) -> Recipe:
@@ -66,10 +66,11 @@ def _reading(rec: Recipe, fmt: str | None, options: ReadOptions) -> tuple[str | 
 @click.option("--k-neg", "k_neg", type=float, help="Negative-sequence heating weight K (default 175 / I_LR^2, IEEE C37.96).")
 @click.option("--relay-setting", "relay_setting_a", type=float, help="Overload relay current setting [A] (default: nameplate FLA).")
 @click.option("--hot-start", is_flag=True, help="Start the thermal models from rated-current steady state instead of cold.")
+@threads_option
 @read_options
 def command(capture: str, motor: str | None, out_dir: str, recipe_name: str, no_html: bool, cycles: str, no_speed: bool,
             speed_window_s: float | None, motor_tau_s: float | None, k_neg: float | None, relay_setting_a: float | None,
-            hot_start: bool, **kw: Any) -> None:
+            hot_start: bool, threads: int | None, **kw: Any) -> None:
     """Find open phase, stall, starts, dips and unbalance in CAPTURE; judge thermal stress; write a report.
 
     The report informs; it does not replace protective devices. Work on
@@ -85,6 +86,9 @@ def command(capture: str, motor: str | None, out_dir: str, recipe_name: str, no_
         raise InvalidParameterError(f"--recipe {recipe_name}: recipe {rec.name!r} has no {' and no '.join(missing)} stage; "
                                     f"analyze needs both (stages: {list(rec.stage_names)})")
     rec = _set(rec, "report", {"cycles": cycles, **({"html": False} if no_html else {})}, "--no-html" if no_html else "--cycles")
+    if "measure" in rec.stage_names and rec.params("measure").get("harmonics") is None:
+        # nothing analyze writes uses the harmonic table: not computed unless the recipe asks for it
+        rec = _set(rec, "measure", {"harmonics": False}, "--recipe")
     if no_speed and "speed" in rec.stage_names:
         rec = _set(rec, "speed", {"enabled": False}, "--no-speed")
     if speed_window_s is not None:
@@ -94,9 +98,12 @@ def command(capture: str, motor: str | None, out_dir: str, recipe_name: str, no_
         if value is not None:
             rec = _set(rec, "thermal", {key: value}, opt)
     fmt, options = _reading(rec, fmt, options)
-    cap = read_capture(capture, fmt, options)
+    from ..io.csv_stream import open_capture
+
+    cap = open_capture(capture, fmt, options)  # a large CSV is streamed, not held in memory
     plate = load_nameplate(motor) if motor else None
-    state = run_recipe(rec, cap, nameplate=plate, out_dir=out, nameplate_source=motor or "")
+    state = run_recipe(rec, cap, nameplate=plate, out_dir=out, nameplate_source=motor or "",
+                       threads=threads or default_threads())
     click.echo(state.verdict)
     click.echo("")
     for p in state.outputs.values():

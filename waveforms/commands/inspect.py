@@ -15,20 +15,20 @@ import click
 
 from ..errors import WaveformsError
 from ..io.registry import read_capture
-from ..quality import channel_stats, quality_notes
+from ..quality import channel_stat_records, quality_notes
 from .readopts import options_from, read_options
 
 
 def inspect_one(path: str, format_name: str | None, options: Any) -> dict[str, Any]:
     """Plain-data inspection of one file (used by the command and its tests)."""
     cap = read_capture(path, format_name, options)
-    stats = channel_stats(cap)
+    stats = channel_stat_records(cap)  # plain data: inspect needs no pandas
     notes = quality_notes(cap, stats)
     summary = cap.summary()
     return {
         "file": path,
         "capture": summary,
-        "stats": {name: {k: _plain(v) for k, v in row.items()} for name, row in stats.to_dict(orient="index").items()},
+        "stats": {name: {k: _plain(v) for k, v in row.items()} for name, row in stats.items()},
         "quality": notes,
     }
 

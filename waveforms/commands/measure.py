@@ -6,9 +6,8 @@ from typing import Any
 
 import click
 
-from ..io.registry import read_capture
 from ..measure.output import write_measurements
-from .readopts import options_from, read_options
+from .readopts import default_threads, options_from, read_options, threads_option
 
 
 @click.command("measure")
@@ -20,9 +19,10 @@ from .readopts import options_from, read_options
               help="Also write aggregated intervals (10/12-cycle, 3 s, 10 min) with dip/interruption flags. Repeatable.")
 @click.option("--chunk", "chunk_samples", type=click.IntRange(min=1000), default=1 << 18, show_default=True,
               help="Samples per processing block (memory bound; results do not depend on it).")
+@threads_option
 @read_options
 def command(source: str, out_dir: str, stem: str | None, csv: bool, intervals: tuple[str, ...],
-            chunk_samples: int, **kw: Any) -> None:
+            chunk_samples: int, threads: int | None, **kw: Any) -> None:
     """Measure every fundamental cycle of capture SOURCE: frequency, RMS, Urms(1/2), phasors,
     sequence components, unbalance, harmonics, power.  Columns: docs/columns.md.
 
@@ -30,10 +30,12 @@ def command(source: str, out_dir: str, stem: str | None, csv: bool, intervals: t
     person's judgement on site.
     """
     format_name, options = options_from(kw)
-    cap = read_capture(source, format_name, options)
+    from ..io.csv_stream import open_capture
+
+    cap = open_capture(source, format_name, options)  # a large CSV is streamed, not held in memory
     formats = ("parquet", "csv") if csv else ("parquet",)
     res = write_measurements(cap, out_dir, stem=stem, formats=formats, chunk_samples=chunk_samples,
-                             intervals=tuple(intervals))
+                             intervals=tuple(intervals), threads=threads or default_threads())
     rows = ", ".join(f"{k} {v}" for k, v in res["rows"].items())
     click.echo(f"measured {source}: {rows} rows; reference {res['info']['reference']}")
     for f in res["files"]:

@@ -51,6 +51,23 @@ def read_options(func: Callable[..., Any]) -> Callable[..., Any]:
     return func
 
 
+def default_threads() -> int:
+    """Threads a command uses when ``--threads`` is not given: every core this process may run on."""
+    import os
+
+    try:
+        return max(1, len(os.sched_getaffinity(0)))
+    except (AttributeError, OSError):  # not on every platform
+        return max(1, os.cpu_count() or 1)
+
+
+def threads_option(func: Callable[..., Any]) -> Callable[..., Any]:
+    """Add ``--threads N`` (default: all cores) to a click command."""
+    return click.option("--threads", "threads", type=click.IntRange(min=1), default=None,
+                        help="Threads for independent work (measurement blocks, speed windows) [all cores]. "
+                             "Results are the same for any value.")(func)
+
+
 def options_from(kw: dict[str, Any]) -> tuple[str | None, ReadOptions]:
     """(format name, ReadOptions) from the values of `read_options`; pops them from ``kw``."""
     mapping_file = kw.pop("mapping_file", None)

@@ -6,10 +6,12 @@ at 20 kS/s.  `convert_csv_to_native` reads the same files block by block with
 pyarrow's streaming CSV reader and writes each block to the native layout
 as it comes, so memory stays at a few blocks whatever the file's length.
 
-The time base is checked as in `waveforms.timebase.analyse_stamps` on the first
-block; later blocks are placed on the same grid with the period refined by a
-running least-squares fit, and every block is checked for duplicated, backward
-and irregular stamps and for gaps (NaN on the grid, listed as `Gap`).  The
+The time stamps are kept in a temporary file while the rows are written, and
+checked at the end by `waveforms.timebase.analyse_stamps` over the whole file
+exactly as the in-memory reader checks them (a `timebase.DiskArray` keeps the
+stamps and the grid index out of memory).  When rows are missing (gaps) the
+text is read a second time and each row written at its grid point (NaN where
+rows are missing, listed as `Gap`).  The
 fitted rate, gaps and provenance are written when the stream ends, before
 the output is renamed into place.  Irregular stamps are an error here: use
 the in-memory path with ``--resample``.
@@ -32,18 +34,18 @@ import pyarrow.csv as pacsv
 from .. import timebase
 from ..atomic import same_file
 from ..capture import Capture, Gap, Provenance
-from ..errors import CaptureReadError, WriteError
+from ..errors import CaptureReadError, InvalidParameterError, WriteError
 from ..hashing import sha256_file
 from .common import EPOCH, system_values
-from .delimited import Plan, iso_to_ns, ns_to_datetime, plan_read
+from .delimited import Plan, iso_to_ns, line_of_row, ns_to_datetime, plan_read
 from .hdf5_native import native_header, write_native_blocks
 from .mapping import mapping_record, parse_mapping
 from .registry import ReadOptions
 
 BLOCK_BYTES = 1 << 22
 NAN_BLOCK = 1 << 20
-#: The first blocks are combined until they hold this many rows before the grid is fitted,
-#: so that the period comes from enough stamps whatever the block size.
+#: The first blocks are combined until they hold this many rows (a few stamps per block make
+#: the per-block overhead dominate).
 FIRST_ROWS = 4096
 
 
@@ -57,74 +59,17 @@ class _LengthOnly:
         raise NotImplementedError
 
 
-class _Grid:
-    """Places successive blocks of stamps [s from the first stamp] on one uniform grid."""
-
-    def __init__(self, path: Path, where: str, line0: int) -> None:
-        self.path, self.where, self.line0 = path, where, line0
-        self.dt = np.nan
-        self.offset = 0.0  # grid point 0 minus the first stamp [s]
-        self.sums = np.zeros(5)  # n, sum(i), sum(t), sum(i*i), sum(i*t) in float64
-        self.last_t = np.nan
-        self.last_idx = -1
-        self.jitter_max = 0.0
-        self.gaps: list[tuple[int, int]] = []
-
-    def _line(self, row: int) -> int:
-        return self.line0 + row
-
-    def place(self, t: np.ndarray, row0: int) -> np.ndarray:
-        """Grid index of each stamp of a block whose first row is data row ``row0``."""
-        if np.isnan(self.dt):
-            if t.size < 2:
-                raise CaptureReadError(self.path, f"line {self._line(0)}", "only one data row; cannot find a sample rate")
-            rep = timebase.analyse_stamps(t)
-            self.dt, self.offset = 1.0 / rep.sample_rate_hz, rep.start_offset_s
-        prev = np.concatenate(([self.last_t], t)) if np.isfinite(self.last_t) else t
-        d = np.diff(prev)
-        off = 1 if np.isfinite(self.last_t) else 0  # d[k] is the step into row (k + 1 - off)
-        back = np.flatnonzero(d < 0)
-        if back.size:
-            r = row0 + int(back[0]) + 1 - off
-            raise CaptureReadError(self.path, f"line {self._line(r)}, {self.where}", f"time goes backwards (to {t[r - row0]:.9g} s after the first stamp)")
-        dup = np.flatnonzero(d == 0)
-        if dup.size:
-            r = row0 + int(dup[0]) + 1 - off
-            raise CaptureReadError(self.path, f"line {self._line(r)}, {self.where}", f"time stamp repeats the one on line {self._line(r - 1)}")
-        idx = np.rint((t - self.offset) / self.dt).astype(np.int64)
-        steps = np.diff(np.concatenate(([self.last_idx], idx)))
-        resid = np.abs(t - self.offset - idx * self.dt)
-        jit = float(resid.max())
-        if np.any(steps <= 0) or jit > timebase.IRREGULAR_FRACTION * self.dt:
-            raise CaptureReadError(
-                self.path, self.where,
-                f"irregular time stamps near line {self._line(row0)} (jitter up to {jit * 1e6:.3g} us, sample period "
-                f"{self.dt * 1e6:.4g} us); convert with --resample (reads the file into memory)",
-            )
-        self.jitter_max = max(self.jitter_max, jit)
-        for k in np.flatnonzero(steps > 1):
-            a = int(idx[k - 1] + 1) if k > 0 else self.last_idx + 1
-            self.gaps.append((a, int(idx[k])))
-        fi = idx.astype(np.float64)
-        self.sums += (fi.size, fi.sum(), t.sum(), np.dot(fi, fi), np.dot(fi, t))
-        n, si, st, sii, sit = self.sums
-        var = sii - si * si / n  # float64 sums: integer sum(i*i) overflows beyond ~3 M rows
-        if var > 0:  # least-squares line over (grid index, stamp), as timebase.analyse_stamps (common practice, no source)
-            self.dt = (sit - si * st / n) / var
-            self.offset = (st - self.dt * si) / n
-        self.last_t, self.last_idx = float(t[-1]), int(idx[-1])
-        return idx
-
-
-def _batches(path: Path, plan: Plan) -> Iterator[pa.RecordBatch]:
+def _batches(path: Path, plan: Plan, columns: list[str] | None = None) -> Iterator[pa.RecordBatch]:
     lay = plan.layout
+    columns = plan.columns if columns is None else columns
     try:
         reader = pacsv.open_csv(
             path,
             read_options=pacsv.ReadOptions(skip_rows=lay.header_index + 1, column_names=list(lay.headers),
                                            encoding=lay.encoding, use_threads=False, block_size=BLOCK_BYTES),
             parse_options=pacsv.ParseOptions(delimiter=lay.delimiter, ignore_empty_lines=True),
-            convert_options=pacsv.ConvertOptions(include_columns=plan.columns, column_types=plan.types, decimal_point=lay.decimal,
+            convert_options=pacsv.ConvertOptions(include_columns=columns, column_types={k: v for k, v in plan.types.items() if k in columns},
+                                                 decimal_point=lay.decimal,
                                                  strings_can_be_null=True, quoted_strings_can_be_null=True),
         )
         pending: list[pa.RecordBatch] | None = []
@@ -160,6 +105,61 @@ def _arrow_error(path: Path, plan: Plan, msg: str) -> CaptureReadError:
     return CaptureReadError(path, "", f"cannot be parsed ({msg})")
 
 
+class _Regrid(Exception):
+    """The rows are not the grid (gaps): write again, each row at its grid point."""
+
+
+def _add_stamps(batch: pa.RecordBatch, src_path: Path, plan: Plan, mapping: Any, stamps: timebase.DiskArray,
+                state: dict[str, Any]) -> None:
+    """Append a block's time stamps to ``stamps`` as the in-memory reader computes them [s]."""
+    lay = plan.layout
+    col = batch.column(plan.time_col)
+    row0 = state["rows"]
+    if plan.time_format == "iso8601":
+        sr = pd.Series(col.to_numpy(zero_copy_only=False), dtype=object)
+        ns, tz = iso_to_ns(sr, mapping, src_path, plan.time_col, lambda r, r0=row0: line_of_row(src_path, lay, r0 + r))
+        if state["ns0"] is None:
+            state["ns0"], state["tz"] = int(ns[0]), tz
+        t = (ns - state["ns0"]).astype(np.float64) * 1e-9  # seconds from the first stamp, as delimited._iso_stamps
+    else:
+        raw = col.to_numpy(zero_copy_only=False).astype(np.float64)
+        if np.isnan(raw).any():
+            r = row0 + int(np.flatnonzero(np.isnan(raw))[0])
+            raise CaptureReadError(src_path, f"line {line_of_row(src_path, lay, r)}, column {plan.time_col!r}", "time stamp missing")
+        from .mapping import time_header_unit, time_unit_factor
+
+        unit = mapping.time.get("unit", time_header_unit(plan.time_col))
+        state["unit"] = unit
+        t = raw * time_unit_factor(unit, src_path, f"line {lay.header_index + 1}, column {plan.time_col!r}")
+        if row0 == 0:
+            state["t_first_s"] = float(t[0])
+    stamps.append(t)
+    state["rows"] += batch.num_rows
+
+
+def _check_stamps(src_path: Path, plan: Plan, rep: timebase.TimebaseReport, stamps: Any) -> None:
+    """Refuse what the in-memory reader refuses (`waveforms.io.delimited`), with the same words."""
+    lay, where_t = plan.layout, f"column {plan.time_col!r}"
+    if rep.first_backwards is not None:
+        r = rep.first_backwards
+        raise CaptureReadError(src_path, f"line {line_of_row(src_path, lay, r)}, {where_t}",
+                               f"time goes backwards (from {stamps[r - 1]:.9g} s to {stamps[r]:.9g} s after the first stamp)")
+    if rep.first_duplicate is not None:
+        r = rep.first_duplicate
+        raise CaptureReadError(src_path, f"line {line_of_row(src_path, lay, r)}, {where_t}",
+                               f"time stamp repeats the one on line {line_of_row(src_path, lay, r - 1)}")
+    given = plan.given_rate
+    if given is not None and abs(given - rep.sample_rate_hz) > 1e-3 * given:
+        raise CaptureReadError(src_path, where_t, f"time stamps give {rep.sample_rate_hz:.6g} Hz but {given:g} Hz was given; drop --rate or add --resample")
+    if rep.irregular:
+        raise CaptureReadError(
+            src_path, where_t,
+            f"irregular time stamps: jitter up to {rep.jitter_max_s * 1e6:.3g} us ({100 * rep.jitter_fraction:.3g} % of the "
+            f"{rep.period_s * 1e6:.4g} us sample period); re-run with --resample to interpolate onto a uniform grid "
+            "(reads the file into memory)",
+        )
+
+
 def convert_csv_to_native(
     source: str | os.PathLike[str],
     target: str | os.PathLike[str],
@@ -167,8 +167,14 @@ def convert_csv_to_native(
     dtype: str = "float64",
     compression: str | None = "gzip",
     history: tuple[str, ...] = (),
+    streamed_note: bool = True,
 ) -> dict[str, Any]:
     """Convert a delimited-text capture to native HDF5 block by block (bounded memory).
+
+    One pass over the text writes the rows and keeps the stamps in a temporary
+    file; `waveforms.timebase.analyse_stamps` then checks them over the whole file
+    exactly as the in-memory reader does (the same period, grid, gaps and
+    refusals).  With gaps a second pass writes each row at its grid point.
 
     Parameters
     ----------
@@ -180,17 +186,22 @@ def convert_csv_to_native(
         As for `waveforms.io.hdf5_native.write_native`.
     history : tuple of str
         Steps to record in the output's provenance history.
+    streamed_note : bool
+        Add the note "converted block by block" to the provenance.
 
     Returns
     -------
     dict
-        ``n_samples``, ``sample_rate_hz``, ``n_channels``, ``gaps`` of what was written.
+        ``n_samples``, ``sample_rate_hz``, ``n_channels``, ``gaps`` of what was written,
+        and ``capture``: the written capture's metadata (a `Capture` whose source only knows its size).
 
     Raises
     ------
     CaptureReadError
         As `read_csv` does, with the line of the first bad row.
     """
+    import tempfile
+
     options = options or ReadOptions()
     src_path, out = Path(source), Path(target)
     if options.resample:
@@ -202,8 +213,8 @@ def convert_csv_to_native(
     lay, specs = plan.layout, plan.specs
     scales = plan.scales
     n_ch = len(specs)
+    value_cols = [s.source_label for s in specs]
     state: dict[str, Any] = {"rows": 0, "first_values": None, "t_first_s": 0.0, "start": plan.start, "tz": None, "ns0": None}
-    grid = _Grid(src_path, f"column {plan.time_col!r}", lay.header_index + 2) if plan.time_col else None
     notes = list(plan.notes)
     if plan.time_col is None:
         rate = plan.given_rate
@@ -213,10 +224,19 @@ def convert_csv_to_native(
             raise CaptureReadError(src_path, f"line {lay.header_index + 1}", "no time column and no sample rate; give --rate HZ (or [capture] sample_rate_hz)")
         state["rate"] = rate
 
-    def blocks() -> Iterator[np.ndarray]:
+    def blocks(grid_index: Any, stamps: timebase.DiskArray | None = None) -> Iterator[np.ndarray]:
+        """The samples block by block: rows in file order (``grid_index`` None) or each at its grid point.
+
+        With ``stamps``, the block's time stamps are gathered in the same pass.
+        """
         pos = 0
-        for batch in _batches(src_path, plan):
+        row0 = 0
+        state["first_values"] = None
+        cols = value_cols + ([plan.time_col] if stamps is not None else [])
+        for batch in _batches(src_path, plan, cols):
             m = batch.num_rows
+            if stamps is not None:
+                _add_stamps(batch, src_path, plan, mapping, stamps, state)
             values = np.vstack([batch.column(s.source_label).to_numpy(zero_copy_only=False).astype(np.float64) for s in specs])
             if np.any(scales != 1.0):
                 values *= scales[:, None]
@@ -224,31 +244,8 @@ def convert_csv_to_native(
             if have < 1 << 16:  # the first 65536 samples, for inferring the nominal frequency
                 head = values[:, : (1 << 16) - have].copy()
                 state["first_values"] = head if state["first_values"] is None else np.hstack([state["first_values"], head])
-            if grid is None:
-                idx = np.arange(pos, pos + m)
-            else:
-                col = batch.column(plan.time_col)
-                row0 = state["rows"]
-                if plan.time_format == "iso8601":
-                    s = pd.Series(col.to_numpy(zero_copy_only=False), dtype=object)
-                    ns, tz = iso_to_ns(s, mapping, src_path, plan.time_col, lambda r, r0=row0: lay.header_index + 2 + r0 + r)
-                    if state["ns0"] is None:
-                        state["ns0"], state["tz"] = int(ns[0]), tz
-                    t = (ns - state["ns0"]).astype(np.float64) * 1e-9
-                else:
-                    raw = col.to_numpy(zero_copy_only=False).astype(np.float64)
-                    if np.isnan(raw).any():
-                        r = row0 + int(np.flatnonzero(np.isnan(raw))[0])
-                        raise CaptureReadError(src_path, f"line {lay.header_index + 2 + r}, column {plan.time_col!r}", "time stamp missing")
-                    from .mapping import time_header_unit, time_unit_factor
-
-                    unit = mapping.time.get("unit", time_header_unit(plan.time_col))
-                    tabs = raw * time_unit_factor(unit, src_path, f"column {plan.time_col!r}")
-                    if row0 == 0:
-                        state["t_first_s"] = float(tabs[0])
-                    t = tabs - state["t_first_s"]
-                idx = grid.place(t, row0)
-            state["rows"] += m
+            idx = np.arange(row0, row0 + m) if grid_index is None else np.asarray(grid_index[row0 : row0 + m])
+            row0 += m
             while pos < idx[0]:  # a gap before this block: NaN, in bounded pieces
                 k = int(min(idx[0] - pos, NAN_BLOCK))
                 yield np.full((n_ch, k), np.nan)
@@ -261,43 +258,46 @@ def convert_csv_to_native(
                 block[:, idx - pos] = values
                 yield block
             pos = int(idx[-1]) + 1
+        state["value_rows"] = row0
 
-    def finalize(n_written: int) -> dict[str, Any]:
-        if state["rows"] == 0:
+    def finalize(n_written: int, rep: timebase.TimebaseReport | None) -> dict[str, Any]:
+        if state.get("value_rows", 0) == 0:
             raise CaptureReadError(src_path, f"line {lay.header_index + 1}", "header row but no data rows")
         timebase_record: dict[str, Any] = {}
-        if grid is not None:
-            rate = timebase._nice_rate(1.0 / grid.dt)
-            given = plan.given_rate
-            if given is not None:
-                if abs(given - rate) > 1e-3 * given:
-                    raise CaptureReadError(src_path, f"column {plan.time_col!r}", f"time stamps give {rate:.6g} Hz but {given:g} Hz was given; drop --rate or add --resample")
-                rate = given
-            period = 1.0 / rate
-            if grid.jitter_max > 0.01 * period:
-                notes.append(f"time stamps jitter by up to {grid.jitter_max * 1e6:.3g} us ({100 * grid.jitter_max * rate:.2g} % of a sample period); samples placed on the nearest point of a uniform {rate:g} Hz grid")
-            notes.append(f"sample rate {rate:g} Hz from the time stamps")
-            timebase_record["time"] = {"column": plan.time_col, "format": plan.time_format}
+        gaps: tuple[Gap, ...] = ()
+        if rep is not None:
+            rate = rep.sample_rate_hz
+            if plan.given_rate is not None:
+                rate = plan.given_rate
             if plan.time_format == "iso8601":
+                timebase_record["time"] = {"column": plan.time_col, "format": "iso8601"}
                 start = plan.start or ns_to_datetime(state["ns0"], state["tz"])
             else:
-                base = plan.start or EPOCH
+                unit = state.get("unit")
+                timebase_record["time"] = {"column": plan.time_col, "format": "seconds", "unit": unit or "s"}
                 if plan.start is None:
+                    start = EPOCH + _dt.timedelta(seconds=state["t_first_s"])
                     notes.append("absolute start time not given; start set to 1970-01-01T00:00:00+00:00 plus the first time stamp (times are relative)")
-                start = base + _dt.timedelta(seconds=state["t_first_s"])
+                else:
+                    start = plan.start + _dt.timedelta(seconds=state["t_first_s"])
+            timebase_record["timebase"] = rep.to_dict()
+            if rep.jitter_fraction > 0.01:
+                notes.append(f"time stamps jitter by up to {rep.jitter_max_s * 1e6:.3g} us ({100 * rep.jitter_fraction:.2g} % of a sample period); samples placed on the nearest point of a uniform {rate:g} Hz grid")
+            period = rep.period_s  # as timebase.place_on_grid words the gaps
+            gaps = tuple(Gap(a, b, f"no rows in the file for {b - a} samples ({(b - a) * period:.6g} s) from t = {a * period:.6f} s")
+                         for a, b in rep.gaps)
+            notes.append(f"sample rate {rate:g} Hz from the time stamps")
+            if gaps:
+                notes.append(f"{len(gaps)} gap(s) in the time stamps, {sum(g.n_samples for g in gaps)} missing samples kept as NaN (first at t = {gaps[0].start_index / rate:.6f} s)")
         else:
             rate = state["rate"]
             notes.append(f"no time column; samples taken as uniform at {rate:g} Hz")
             start = plan.start or EPOCH
             if plan.start is None:
                 notes.append("absolute start time not given; start set to 1970-01-01T00:00:00+00:00 (times are relative)")
-        period = 1.0 / rate
-        gaps = tuple(Gap(a, b, f"no rows in the file for {b - a} samples ({(b - a) * period:.6g} s) from t = {a * period:.6f} s")
-                     for a, b in (grid.gaps if grid else ()))
-        if gaps:
-            notes.append(f"{len(gaps)} gap(s) in the time stamps, {sum(g.n_samples for g in gaps)} missing samples kept as NaN (first at t = {gaps[0].start_index * period:.6f} s)")
         system = system_values(options, mapping, plan.meta, plan.src, src_path, specs, state["first_values"], rate, notes)
-        notes.append("converted block by block (streamed; the capture was never held in memory whole)")
+        if streamed_note:
+            notes.append("converted block by block (streamed; the capture was never held in memory whole)")
         record = mapping_record(specs, {
             "csv": {"delimiter": lay.delimiter, "decimal": lay.decimal, "header_line": lay.header_index + 1, "encoding": lay.encoding},
             **timebase_record, "source": mapping.source if options.mapping else "recognised from the header",
@@ -306,14 +306,131 @@ def convert_csv_to_native(
                           notes=tuple(notes), history=tuple(history))
         cap = Capture(channels=tuple(s.channel() for s in specs), source=_LengthOnly(n_written, n_ch), sample_rate_hz=float(rate),
                       start_time=start, provenance=prov, gaps=gaps, **system)
-        state["summary"] = {"n_samples": n_written, "sample_rate_hz": float(rate), "n_channels": n_ch, "gaps": len(gaps)}
+        state["summary"] = {"n_samples": n_written, "sample_rate_hz": float(rate), "n_channels": n_ch, "gaps": len(gaps),
+                            "capture": cap}
         return {k: v for k, v in native_header(cap).items() if k != "n_samples"}
 
     provisional = {"sample_rate_hz": float("nan"), "start_time": "", "provenance": "{}", "gaps": "[]", "nameplate": ""}
-    with concurrent.futures.ThreadPoolExecutor(max_workers=1) as pool:
+    with concurrent.futures.ThreadPoolExecutor(max_workers=1) as pool, tempfile.TemporaryDirectory(prefix="mwf-stamps-") as tmp:
         digest = pool.submit(sha256_file, src_path)
+        stamps: timebase.DiskArray | None = None
+        rep: timebase.TimebaseReport | None = None
+        channels = [s.channel() for s in specs]
+
+        def analysed(n_written: int) -> dict[str, Any]:
+            nonlocal rep
+            if state["rows"] == 0:
+                raise CaptureReadError(src_path, f"line {lay.header_index + 1}", "header row but no data rows")
+            if state["rows"] < 2:
+                raise CaptureReadError(src_path, f"line {lay.header_index + 2}", "only one data row; cannot find a sample rate")
+            try:
+                rep = timebase.analyse_stamps(stamps)
+            except InvalidParameterError as e:
+                raise CaptureReadError(src_path, f"column {plan.time_col!r}", str(e)) from None
+            _check_stamps(src_path, plan, rep, stamps)
+            if rep.gaps or rep.n_grid != state["rows"]:
+                raise _Regrid  # nothing is left behind: the output is written atomically
+            return finalize(n_written, rep)  # the rows are the grid (the usual case): one pass over the text
+
         try:
-            write_native_blocks(out, [s.channel() for s in specs], provisional, blocks(), None, dtype, compression, finalize=finalize)
+            if plan.time_col is None:
+                write_native_blocks(out, channels, provisional, blocks(None), None, dtype, compression,
+                                    finalize=lambda n: finalize(n, None))
+            else:
+                stamps = timebase.DiskArray(os.path.join(tmp, "stamps.f8"), np.float64)
+                try:
+                    write_native_blocks(out, channels, provisional, blocks(None, stamps), None, dtype, compression,
+                                        finalize=analysed)
+                except _Regrid:  # gaps: a second pass over the text places each row on its grid point
+                    write_native_blocks(out, channels, provisional, blocks(rep.grid_index), None, dtype, compression,
+                                        finalize=lambda n: finalize(n, rep))
         finally:
             digest.cancel()
+            for arr in (stamps, None if rep is None else rep.grid_index):
+                if isinstance(arr, timebase.DiskArray):
+                    arr.close()  # before the temporary folder goes
     return state["summary"]
+
+
+# -- analysing a large CSV without holding it ------------------------------------------
+#: Delimited-text files at least this large are streamed by `open_capture` (analyze, measure,
+#: batch); smaller ones are read in memory, which is faster for them.
+STREAM_MIN_BYTES = 64 << 20
+
+
+def _remove_spool(inner: Any, folder: str) -> None:
+    import shutil
+
+    inner.close()
+    shutil.rmtree(folder, ignore_errors=True)
+
+
+class SpooledSource:
+    """The samples of a streamed CSV, in an uncompressed native HDF5 file in a temporary folder.
+
+    The folder lives as long as this source: it is removed when the source is closed or
+    collected, and at interpreter exit at the latest.
+    """
+
+    def __init__(self, folder: str, h5_path: Path, names: list[str]) -> None:
+        import weakref
+
+        from .hdf5_native import HDF5Source
+
+        self.folder = folder
+        self._inner = HDF5Source(h5_path, [f"/channels/{n}" for n in names])
+        self._finalizer = weakref.finalize(self, _remove_spool, self._inner, folder)
+
+    @property
+    def n_samples(self) -> int:
+        return self._inner.n_samples
+
+    @property
+    def n_channels(self) -> int:
+        return self._inner.n_channels
+
+    def read(self, start: int, stop: int, channel_indices: Any) -> np.ndarray:
+        return self._inner.read(start, stop, channel_indices)
+
+    def close(self) -> None:
+        """Close the file and remove the temporary folder."""
+        self._finalizer()
+
+
+def spooled_capture(source: str | os.PathLike[str], options: ReadOptions | None = None) -> Capture:
+    """A delimited-text capture streamed block by block into a temporary native file, and opened there.
+
+    Peak memory does not grow with the file.  The `Capture` is the one the in-memory reader
+    (`waveforms.io.delimited.read_csv`) gives: the same samples, time base, gaps,
+    provenance (the CSV's path and SHA-256, importer ``csv``) and notes.
+    """
+    import shutil
+    import tempfile
+
+    folder = tempfile.mkdtemp(prefix="mwf-spool-")
+    try:
+        target = Path(folder) / "spool.h5"
+        summary = convert_csv_to_native(source, target, options, compression=None, streamed_note=False)
+        meta: Capture = summary["capture"]
+        src = SpooledSource(folder, target, [c.name for c in meta.channels])
+    except BaseException:
+        shutil.rmtree(folder, ignore_errors=True)
+        raise
+    return meta.replace(source=src)
+
+
+def open_capture(path: str | os.PathLike[str], format: str | None = None, options: ReadOptions | None = None,
+                 stream_min_bytes: int = STREAM_MIN_BYTES) -> Capture:
+    """`waveforms.io.read_capture`, but a delimited-text file of ``stream_min_bytes`` or more is streamed (`spooled_capture`).
+
+    ``--resample`` needs the whole file in memory, so it always takes the in-memory path.
+    """
+    from .registry import detect_format, read_capture
+
+    options = options or ReadOptions()
+    p = Path(path)
+    if not options.resample and p.is_file() and p.stat().st_size >= max(1, stream_min_bytes):
+        name = format if format is not None else detect_format(p).name
+        if name == "csv":
+            return spooled_capture(p, options)
+    return read_capture(p, format, options)

@@ -259,6 +259,10 @@ def _line_of_row(path: Path, layout: Layout, row: int) -> int:
         return layout.header_index + 2 + physical  # the last line, without a final newline
 
 
+#: Public name for the streamed reader (waveforms/io/csv_stream.py), which words its errors the same way.
+line_of_row = _line_of_row
+
+
 def _parse(path: Path, layout: Layout, columns: list[str], types: dict[str, pa.DataType], time_col: str | None) -> pa.Table:
     try:
         return _read_table(path, layout, columns, types)

@@ -15,13 +15,13 @@ from __future__ import annotations
 
 import dataclasses
 import math
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from typing import Any
 
 import numpy as np
 import pandas as pd
 
-from ..capture import Capture, Channel
+from ..capture import Capture, Channel, Chunk
 from ..errors import InvalidParameterError
 from . import frequency as fq
 from . import harmonics as hm
@@ -98,6 +98,8 @@ class Measurements:
     half_cycles: pd.DataFrame
     harmonics: pd.DataFrame
     info: dict[str, Any]
+    #: The speed track's decimated current, when `measure` was given a decimator (else None).
+    decimated: Any = None
 
     def intervals(self, kind: str = "basic") -> pd.DataFrame:
         """Aggregated intervals: ``"basic"`` (10/12 cycles), ``"3s"`` or ``"10min"``; see `waveforms.measure.aggregate`."""
@@ -248,18 +250,55 @@ def process_block(data: np.ndarray, start_index: int, lead: int, trail: int, cyc
     n_cycles : int
         Cycles owned (to advance ``cycle_offset``).
     """
+    part = block_cycles(data, start_index, lead, trail, lay, st)
+    if part is None:
+        return (*_empty_block(), 0)
+    cycles, half = numbered(part, cycle_offset)
+    return cycles, half, block_harmonics(data, start_index, part, cycle_offset, lay, st), part.n_cycles
+
+
+@dataclasses.dataclass(frozen=True)
+class BlockCycles:
+    """The cycles one block owns, before they are numbered (`block_cycles`)."""
+
+    cycles: Columns          # every per-cycle column but ``cycle``
+    half: Columns
+    bnd: np.ndarray          # cycle boundaries [samples into the block]
+    k0: int                  # owned cycles k0 .. k1-1 of ``bnd``
+    k1: int
+
+    @property
+    def n_cycles(self) -> int:
+        return self.k1 - self.k0
+
+
+def numbered(part: BlockCycles, cycle_offset: int) -> tuple[Columns, Columns]:
+    """The block's cycle table with its ``cycle`` column (global index from ``cycle_offset``), and its half-cycle table."""
+    cyc = {"cycle": np.arange(cycle_offset, cycle_offset + part.n_cycles, dtype=np.int64), **part.cycles}
+    return cyc, part.half
+
+
+def block_harmonics(data: np.ndarray, start_index: int, part: BlockCycles, cycle_offset: int,
+                    lay: Layout, st: Settings) -> Columns:
+    """The harmonic windows of a block (they start every `Settings.harmonic_cycles` cycles of the whole capture)."""
+    return _harmonic_windows(data, part.bnd, part.k0, part.k1, cycle_offset, start_index, lay, st)
+
+
+def block_cycles(data: np.ndarray, start_index: int, lead: int, trail: int,
+                 lay: Layout, st: Settings) -> BlockCycles | None:
+    """The per-cycle and half-cycle rows a block owns (not depending on the cycles before it); None when it owns none."""
     fs, n = st.fs_hz, data.shape[1]
     ref = np.asarray(lay.ref_coef) @ data[list(lay.ref_rows)]
     rf = fq.filtered_reference(ref, st.sos, int(2 * fs / st.f_nom_hz))
     cross = fq.rising_crossings(rf, fs, st.min_slope_per_s)
     bnd, tracked = fq.cycle_boundaries(cross, n, start_index, fs, st.f_nom_hz)
     if bnd.size < 2:
-        return (*_empty_block(), 0)
+        return None
     f_cyc = fq.cycle_frequency(bnd, tracked, fs, st.f_nom_hz)
     a_all = bnd[:-1]
     own = np.flatnonzero((a_all >= lead) & (a_all < n - trail))
     if own.size == 0:
-        return (*_empty_block(), 0)
+        return None
     k0, k1 = int(own[0]), int(own[-1]) + 1          # owned cycles k0 .. k1-1
     a = a_all[k0:k1]
     f_use = np.where(np.isfinite(f_cyc[k0:k1]), f_cyc[k0:k1], st.f_nom_hz)
@@ -272,7 +311,7 @@ def process_block(data: np.ndarray, start_index: int, lead: int, trail: int, cyc
         k1 = k0 + keep
         a, f_use, period = a[:keep], f_use[:keep], period[:keep]
         if keep == 0:
-            return (*_empty_block(), 0)
+            return None
     b = a + period
     mid = a + 0.5 * period
     mid_ok = mid + period <= n - 1
@@ -284,7 +323,6 @@ def process_block(data: np.ndarray, start_index: int, lead: int, trail: int, cyc
     first_m, width_m = wn.window_grid(mid, mid_end)
     w_mid = wn.weights_on_grid(first_m, width_m, mid, mid_end)
     x_mid = wn.gather(data, first_m, width_m, has_nan, w_mid)
-    m_own = k1 - k0
 
     # Urms(1/2): one-cycle windows from each cycle start and from each mid-cycle (IEC 61000-4-30 5.4.1)
     sq_mid, sw_mid = rm.mean_square(x_mid, w_mid)
@@ -302,7 +340,6 @@ def process_block(data: np.ndarray, start_index: int, lead: int, trail: int, cyc
     full_rms = rms
 
     cols: dict[str, Any] = {
-        "cycle": np.arange(cycle_offset, cycle_offset + m_own, dtype=np.int64),
         "t_s": t_c,
         "t_start_s": (a + start_index) / fs,
         "t_end_s": (b + start_index) / fs,
@@ -320,9 +357,7 @@ def process_block(data: np.ndarray, start_index: int, lead: int, trail: int, cyc
     order = np.argsort(t_all, kind="stable")
     vals = np.concatenate([full_rms, mid_rms[mid_ok]])[order]
     half = {"t_s": t_all[order], **{f"{lab}_rms_half": vals[:, i] for i, lab in enumerate(lay.labels)}}
-
-    harm = _harmonic_windows(data, bnd, k0, k1, cycle_offset, start_index, lay, st)
-    return cycles, half, harm, m_own
+    return BlockCycles(cycles, half, bnd, k0, k1)
 
 
 def _channel_columns(cols: dict[str, Any], lay: Layout, phas: np.ndarray, rms: np.ndarray) -> None:
@@ -489,20 +524,105 @@ def _harmonic_windows(data: np.ndarray, bnd: np.ndarray, k0: int, k1: int, cycle
 
 
 # -- the whole capture ------------------------------------------------------------
+#: What a shared pass hands each block to besides the measurement: ``feed(owned samples)``
+#: in time order in the calling thread (the data-quality survey), and ``extra(chunk)`` for a
+#: pure function of the block run in a worker thread (the speed track's decimated current).
+Feed = Callable[[np.ndarray], None]
+Extra = Callable[[Chunk], Any]
+
+
+def _blas_one_thread():
+    """BLAS limited to one thread during a pass: our own threads share the cores, and results never depend on it."""
+    try:
+        from threadpoolctl import threadpool_limits
+    except ImportError:  # pragma: no cover - threadpoolctl is a dependency
+        import contextlib
+
+        return contextlib.nullcontext()
+    return threadpool_limits(limits=1, user_api="blas")
+
+
+def iter_pass(capture: Capture, chunk_samples: int, lay: Layout, st: Settings, *, threads: int = 1,
+              feed: Feed | None = None, extra: Extra | None = None, overlap_samples: int | None = None,
+              harmonics: bool = True) -> Iterator[tuple[Columns, Columns, Columns, Any]]:
+    """One pass over the samples: every block measured, fed to ``feed`` and given to ``extra``, in time order.
+
+    Yields ``(cycles, half_cycles, harmonics, extra_value)`` for every block (empty column
+    dicts where a block owns no cycle).  With ``threads > 1`` blocks are measured in a thread
+    pool while the next one is read (numpy releases the GIL in its kernels); the per-cycle
+    rows of a block do not depend on the blocks before it, only the cycle numbers and the
+    harmonic window grid do, which are assigned in order, so the output is the same for any
+    ``threads``.
+    """
+    overlap = st.overlap_samples if overlap_samples is None else overlap_samples
+    chunks = capture.iter_chunks(chunk_samples, overlap)
+
+    def first(ch: Chunk) -> tuple[BlockCycles | None, Any]:
+        part = block_cycles(ch.data, ch.start_index, ch.lead, ch.trail, lay, st)
+        return part, (extra(ch) if extra is not None else None)
+
+    def second(ch: Chunk, part: BlockCycles | None, offset: int) -> tuple[Columns, Columns, Columns]:
+        if part is None:
+            return _empty_block()
+        cyc, half = numbered(part, offset)
+        return cyc, half, block_harmonics(ch.data, ch.start_index, part, offset, lay, st) if harmonics else {}
+
+    offset = 0
+    with _blas_one_thread():
+        if threads <= 1:
+            for ch in chunks:
+                if feed is not None:
+                    feed(ch.owned)
+                part, ex = first(ch)
+                out = second(ch, part, offset)
+                offset += 0 if part is None else part.n_cycles
+                yield (*out, ex)
+            return
+        import collections
+        import concurrent.futures
+
+        # ``feed`` keeps state from block to block: one thread of its own runs it, in submission (time) order
+        with concurrent.futures.ThreadPoolExecutor(threads, thread_name_prefix="measure") as pool, \
+                concurrent.futures.ThreadPoolExecutor(1, thread_name_prefix="feed") as feeder:
+            q1: collections.deque = collections.deque()
+            q2: collections.deque = collections.deque()
+            fed: collections.deque = collections.deque()
+
+            def advance(limit: int) -> Iterator[tuple[Columns, Columns, Columns, Any]]:
+                nonlocal offset
+                while len(q1) > limit:
+                    ch, f1 = q1.popleft()
+                    part, ex = f1.result()
+                    q2.append((pool.submit(second, ch, part, offset), ex))
+                    offset += 0 if part is None else part.n_cycles
+                while len(q2) > limit:
+                    f2, ex = q2.popleft()
+                    yield (*f2.result(), ex)
+
+            for ch in chunks:
+                q1.append((ch, pool.submit(first, ch)))
+                if feed is not None:
+                    fed.append(feeder.submit(feed, ch.owned))
+                    while len(fed) > threads + 1:  # bounded memory: wait for the survey to catch up
+                        fed.popleft().result()
+                yield from advance(threads)
+            yield from advance(0)
+            while fed:
+                fed.popleft().result()
+
+
 def iter_blocks(capture: Capture, chunk_samples: int = DEFAULT_CHUNK_SAMPLES,
                 nominal_frequency_hz: float | None = None,
                 overlap_cycles: int = DEFAULT_OVERLAP_CYCLES,
                 prepared: tuple[Layout, Settings, dict[str, Any]] | None = None,
+                threads: int = 1,
                 ) -> Iterator[tuple[Columns, Columns, Columns]]:
     """Like `iter_measure`, but each table block is a dict of column arrays (no pandas overhead)."""
     if chunk_samples < 1:
         raise InvalidParameterError(f"{chunk_samples=} must be positive")
     lay, st, _ = prepared or prepare(capture, nominal_frequency_hz, overlap_cycles)
-    offset = 0
-    for chunk in capture.iter_chunks(chunk_samples, st.overlap_samples):
-        cyc, half, harm, m = process_block(chunk.data, chunk.start_index, chunk.lead, chunk.trail, offset, lay, st)
-        offset += m
-        if m:
+    for cyc, half, harm, _ in iter_pass(capture, chunk_samples, lay, st, threads=threads):
+        if cyc:
             yield cyc, half, harm
 
 
@@ -527,16 +647,54 @@ def iter_measure(capture: Capture, chunk_samples: int = DEFAULT_CHUNK_SAMPLES,
         yield to_frame(cyc), to_frame(half), to_frame(harm)
 
 
-def _concat(parts: list[Columns]) -> pd.DataFrame:
-    parts = [p for p in parts if p]
-    if not parts:
-        return pd.DataFrame()
-    return to_frame({k: np.concatenate([p[k] for p in parts]) for k in parts[0]})
+class _Table:
+    """Rows of one table gathered block by block into arrays allocated once for the expected row count.
+
+    Holding the blocks and then concatenating them would need the table's memory twice;
+    here each block is copied in as it comes and dropped.  The arrays grow by half when the
+    estimate is passed; rows past the estimate that are never written stay untouched
+    (not resident).
+    """
+
+    def __init__(self, expected_rows: int) -> None:
+        self.cap = max(16, int(expected_rows))
+        self.n = 0
+        self.cols: dict[str, np.ndarray] = {}
+
+    def add(self, block: Columns) -> None:
+        if not block:
+            return
+        m = len(next(iter(block.values())))
+        if not self.cols:
+            self.cols = {k: np.empty(self.cap, dtype=np.asarray(v).dtype) for k, v in block.items()}
+        if self.n + m > self.cap:
+            self.cap = max(self.n + m, int(self.cap * 1.5))
+            for k, v in self.cols.items():
+                grown = np.empty(self.cap, dtype=v.dtype)
+                grown[: self.n] = v[: self.n]
+                self.cols[k] = grown
+        for k, v in block.items():
+            col = self.cols[k]
+            if col.dtype != np.asarray(v).dtype and col.dtype.kind == "U":  # text columns: widest seen
+                col = self.cols[k] = col.astype(np.result_type(col.dtype, np.asarray(v).dtype))
+            col[self.n : self.n + m] = v
+        self.n += m
+
+    def frame(self) -> pd.DataFrame:
+        if not self.cols:
+            return pd.DataFrame()
+        cols = {k: v[: self.n] for k, v in self.cols.items()}
+        self.cols = {}
+        df = pd.DataFrame(cols, copy=False)  # the arrays as they are, no copy into one block
+        if "phase_sequence" in df:
+            df["phase_sequence"] = df["phase_sequence"].astype("string")
+        return df
 
 
 def measure(capture: Capture, chunk_samples: int = DEFAULT_CHUNK_SAMPLES,
             nominal_frequency_hz: float | None = None,
-            overlap_cycles: int = DEFAULT_OVERLAP_CYCLES) -> Measurements:
+            overlap_cycles: int = DEFAULT_OVERLAP_CYCLES, *, threads: int = 1,
+            feed: Feed | None = None, decimator: Any = None, harmonics: bool = True) -> Measurements:
     """Measure every cycle of a capture.
 
     Parameters
@@ -549,12 +707,39 @@ def measure(capture: Capture, chunk_samples: int = DEFAULT_CHUNK_SAMPLES,
     overlap_cycles : int
         Nominal cycles of overlap between blocks (at least 20 is needed for the
         filter, the frequency median and the 10/12-cycle harmonic windows).
+    threads : int
+        Blocks measured in parallel (threads); the result does not depend on it.
+    feed : callable, optional
+        Called with the owned samples of every block in time order (e.g.
+        `waveforms.quality.StatsAccumulator.feed`), so that survey needs no pass of its own.
+    decimator : waveforms.speed.estimator.Decimator, optional
+        Makes the speed track's decimated current from the same blocks
+        (`Measurements.decimated`), so the speed stage reads nothing.
+    harmonics : bool
+        Compute the harmonic table; False leaves `Measurements.harmonics` empty
+        (the chain's findings do not use it) and saves its time and memory.
 
     Returns
     -------
     Measurements
     """
+    if chunk_samples < 1:
+        raise InvalidParameterError(f"{chunk_samples=} must be positive")
     prepared = prepare(capture, nominal_frequency_hz, overlap_cycles)
-    parts = list(iter_blocks(capture, chunk_samples, nominal_frequency_hz, overlap_cycles, prepared))
-    return Measurements(_concat([p[0] for p in parts]), _concat([p[1] for p in parts]),
-                        _concat([p[2] for p in parts]), prepared[2])
+    lay, st, info = prepared
+    overlap = st.overlap_samples
+    if decimator is not None and decimator.overlap_needed > overlap:
+        overlap = decimator.overlap_needed  # wider than the engine needs: its rows do not change
+    n_cyc = int(capture.duration_s * st.f_nom_hz * 1.05) + 64  # the supply frequency stays within a few % of nominal
+    tables = (_Table(n_cyc), _Table(2 * n_cyc), _Table(n_cyc // st.harmonic_cycles + 16))
+    dec_parts = []
+    for *blocks, ex in iter_pass(capture, chunk_samples, lay, st, threads=threads, feed=feed, overlap_samples=overlap,
+                                 harmonics=harmonics,
+                                 extra=None if decimator is None else
+                                 (lambda ch: decimator.block(ch.start_index, ch.data, ch.lead, ch.trail))):
+        for t, b in zip(tables, blocks, strict=True):
+            t.add(b)
+        dec_parts.append(ex)
+    m = Measurements(tables[0].frame(), tables[1].frame(), tables[2].frame(), info)
+    m.decimated = None if decimator is None else decimator.assemble(dec_parts)
+    return m

@@ -84,6 +84,7 @@ def write_measurements(
     chunk_samples: int = DEFAULT_CHUNK_SAMPLES,
     nominal_frequency_hz: float | None = None,
     intervals: tuple[str, ...] = (),
+    threads: int = 1,
 ) -> dict[str, Any]:
     """Measure a capture and write ``<stem>.<table>.parquet`` / ``.csv`` plus ``<stem>.measure.json``.
 
@@ -97,6 +98,8 @@ def write_measurements(
     formats : tuple of {"parquet", "csv"}
     chunk_samples : int
         Block size [samples] (memory bound).
+    threads : int
+        Blocks measured in parallel (`waveforms.measure.engine.iter_pass`); the tables do not depend on it.
     nominal_frequency_hz : float, optional
     intervals : tuple of {"basic", "3s", "10min"}
         Aggregations to write as ``<stem>.intervals_<kind>.<ext>`` (needs the
@@ -153,7 +156,7 @@ def write_measurements(
                    for ext in ("parquet", "csv")}
             sinks[name] = _TableSink(tmp["parquet"], tmp["csv"])
             stack.callback(sinks[name].close)  # closed before the renames (LIFO)
-        for blocks in iter_blocks(capture, chunk_samples, nominal_frequency_hz, prepared=prepared):
+        for blocks in iter_blocks(capture, chunk_samples, nominal_frequency_hz, prepared=prepared, threads=threads):
             for name, df in zip(TABLES, blocks, strict=True):
                 sinks[name].add(df)
         for name in TABLES:

@@ -24,9 +24,6 @@ def write_report(res: AnalysisResult, out_dir: str | os.PathLike[str], html: boo
     Each file is written atomically; an input capture is never overwritten.
     Returns name -> path of what was written.
     """
-    from .html import render
-    from .plots import all_figures
-
     out = Path(out_dir)
     src = res.capture.provenance.source_path
     doc = result_dict(res)
@@ -38,7 +35,10 @@ def write_report(res: AnalysisResult, out_dir: str | os.PathLike[str], html: boo
             raise WriteError(f"{p}: refusing to overwrite the input capture")
         write_text(p, text)
         written[name] = p
-    if html:
+    if html:  # matplotlib and jinja2 only when a page is drawn
+        from .html import render
+        from .plots import all_figures
+
         p = out / "report.html"
         if src and same_file(src, p):
             raise WriteError(f"{p}: refusing to overwrite the input capture")

@@ -309,7 +309,8 @@ def spectrum_figure(res: AnalysisResult) -> tuple[Figure | None, str]:
     cyc = res.cycles
     supply = cyc[["t_s", "frequency_hz"]] if "frequency_hz" in cyc else None
     try:
-        wr = window_detail(res.capture, float(pick["t_start_s"]), nameplate=res.nameplate, supply_hz=supply, **opts)
+        wr = window_detail(res.capture, float(pick["t_start_s"]), nameplate=res.nameplate, supply_hz=supply,
+                           decimated=getattr(res.measurements, "decimated", None), **opts)  # kept by the measure pass
     except WaveformsError as e:
         return None, f"the spectrum could not be drawn ({e})"
     fig = plot_spectrum(wr, width_in=WIDTH_IN)

@@ -388,24 +388,102 @@ def _as_capture(currents: Any, sample_rate_hz: float | None) -> Capture:
     return from_arrays(arr, chans, sample_rate_hz)
 
 
+@dataclasses.dataclass(frozen=True)
+class Decimator:
+    """How the speed track's current is decimated: channels, factor, filter (see `decimated_current`).
+
+    `block` is a pure function of one `Chunk` of the whole capture (all channels, any chunk
+    size, an overlap of at least `margin` + q samples), so the measurement engine's shared
+    pass can compute the decimated current from the blocks it reads, in any thread, and
+    `assemble` joins the blocks: the result equals `decimated_current` of the capture.
+    """
+
+    rows: tuple[int, ...]
+    q: int
+    use_sv: bool
+    taps: np.ndarray | None
+    margin: int
+    n_samples: int
+
+    @property
+    def overlap_needed(self) -> int:
+        """Least chunk overlap [samples] for `block` to see all it needs."""
+        return self.margin + self.q
+
+    def block(self, start_index: int, data: np.ndarray, lead: int, trail: int) -> np.ndarray:
+        """Decimated outputs whose input sample (j q) lies in the chunk's owned range."""
+        q, n = self.q, self.n_samples
+        pos, own_stop = start_index + lead, start_index + data.shape[1] - trail
+        j0, j1 = -(-pos // q), -(-own_stop // q)
+        if j1 <= j0:
+            return np.empty((2 if self.use_sv else len(self.rows), 0))
+        lo = max(0, j0 * q - self.margin)
+        hi = min(n, j1 * q + self.margin)
+        if lo < start_index or hi > start_index + data.shape[1]:
+            raise InvalidParameterError(f"chunk overlap {lead}/{trail} samples is below the {self.overlap_needed} the decimation needs")
+        x = data[list(self.rows), lo - start_index : hi - start_index]
+        # the space vector as two real rows (alpha, beta): real filtering is much faster than complex
+        sig = alpha_beta(*x) if self.use_sv else x
+        y = decimate(sig, q, self.taps)
+        a = (j0 * q - lo) // q
+        return y[:, a : a + (j1 - j0)]
+
+    def assemble(self, blocks: list[np.ndarray]) -> np.ndarray:
+        """The decimated signal from the blocks in time order: (1, m) complex space vector or (n_lines, m) real."""
+        if not blocks:
+            return np.empty((1 if self.use_sv else len(self.rows), 0), dtype=complex if self.use_sv else float)
+        y = np.concatenate(blocks, axis=1)
+        return (y[0] + 1j * y[1])[None, :] if self.use_sv else y
+
+
+def make_decimator(capture: Capture, names: list[str], q: int, use_sv: bool, n_samples: int | None = None) -> Decimator:
+    """The `Decimator` for channels ``names`` of ``capture`` by ``q`` (samples 0 .. ``n_samples``)."""
+    taps = decimation_filter(q) if q > 1 else None
+    margin = 0 if q == 1 else int(math.ceil(len(taps) / q)) * q
+    return Decimator(tuple(capture.index_of(nm) for nm in names), q, use_sv, taps, margin,
+                     capture.n_samples if n_samples is None else n_samples)
+
+
 def _decimated(capture: Capture, names: list[str], q: int, use_sv: bool, i0: int, i1: int) -> np.ndarray:
     """Space vector (or the line currents) of samples [i0, i1), low-passed and down-sampled by q."""
-    taps = decimation_filter(q) if q > 1 else None
-    overlap = 0 if q == 1 else int(math.ceil(len(taps) / q)) * q
-    chunk = q * (1 << 16)
-    out = []
-    for ch in capture.iter_chunks(chunk, overlap, names, i0, i1):
-        # the space vector as two real rows (alpha, beta): real filtering is much faster than complex
-        sig = alpha_beta(*ch.data) if use_sv else ch.data
-        y = decimate(sig, q, taps)
-        a = ch.lead // q
-        b = int(math.ceil((ch.data.shape[1] - ch.trail) / q))
-        out.append(y[:, a:b])
-    if not out:
-        return np.empty((1 if use_sv else len(names), 0), dtype=complex if use_sv else float)
-    y = np.concatenate(out, axis=1)
-    return (y[0] + 1j * y[1])[None, :] if use_sv else y
+    dec = make_decimator(capture, names, q, use_sv, n_samples=i1 - i0)
+    dec = dataclasses.replace(dec, rows=tuple(range(len(names))))  # the chunks hold only these channels
+    out = [dec.block(ch.start_index - i0, ch.data, ch.lead, ch.trail)
+           for ch in capture.iter_chunks(q * (1 << 16), dec.overlap_needed, names, i0, i1)]
+    return dec.assemble(out)
 
+
+@dataclasses.dataclass(frozen=True)
+class DecimatedCurrent:
+    """The speed track's decimated current of a whole capture, made during the measurement pass.
+
+    ``y`` as `Decimator.assemble` returns it; ``q`` the factor; ``use_sv`` whether it is the
+    space vector of the three line currents; ``names`` the current channels.
+    """
+
+    y: np.ndarray
+    q: int
+    use_sv: bool
+    names: tuple[str, ...]
+
+
+def speed_decimator(capture: Capture, nameplate: Any = None, *, pole_pairs: int | None = None,
+                    rotor_bars: int | None = None, settings: SpeedSettings | None = None,
+                    start_s: float = 0.0, stop_s: float | None = None, **options: Any) -> Decimator | None:
+    """The `Decimator` `track_speed` would use on the whole of ``capture`` with these arguments, or None.
+
+    None when the track would not cover the whole capture or cannot be made (no pole count,
+    no current): the speed stage then reads what it needs itself.
+    """
+    options.pop("supply_hz", None)
+    if start_s != 0.0 or stop_s is not None:
+        return None
+    try:
+        settings, cap, motor, names, use_sv, fs = _prepare(capture, None, nameplate, pole_pairs, rotor_bars, settings, options)
+    except (InvalidParameterError, TypeError):
+        return None
+    q = decimation_factor(fs, highest_frequency_hz(settings, motor))
+    return make_decimator(cap, names, q, use_sv)
 
 
 def _prepare(
@@ -440,6 +518,8 @@ def track_speed(
     start_s: float = 0.0,
     stop_s: float | None = None,
     settings: SpeedSettings | None = None,
+    decimated: DecimatedCurrent | None = None,
+    threads: int = 1,
     **options: Any,
 ) -> pd.DataFrame:
     """Slip and speed per window, from the stator currents only.
@@ -462,6 +542,11 @@ def track_speed(
     start_s, stop_s : float
         Part of the capture to track [s].
     settings : SpeedSettings, optional
+    decimated : DecimatedCurrent, optional
+        The decimated current of the whole capture, made by the measurement pass
+        (`speed_decimator`); used instead of reading the capture again when it matches.
+    threads : int
+        Windows analysed in parallel (threads); the result does not depend on it.
     **options
         Fields of `SpeedSettings` (``window_s=2.0``, ``max_slip=0.3`` ...).
 
@@ -493,19 +578,30 @@ def track_speed(
         raise InvalidParameterError(f"start_s={start_s!r}, stop_s={stop_s!r} select no samples of a {cap.duration_s:.3f} s capture")
     q = decimation_factor(fs, highest_frequency_hz(settings, motor))
     fsd = fs / q
-    y = _decimated(cap, names, q, use_sv, i0, i1)
+    if (decimated is not None and i0 == 0 and i1 == cap.n_samples and decimated.q == q
+            and decimated.use_sv == use_sv and decimated.names == tuple(names)):
+        y = decimated.y
+    else:
+        y = _decimated(cap, names, q, use_sv, i0, i1)
     win = int(round(settings.window_s * fsd))
     hop = max(1, int(math.floor(settings.hop * fsd + 1e-9)))
     n_win = 0 if y.shape[1] < win else (y.shape[1] - win) // hop + 1
     f_supply = _supply_function(supply_hz)
-    rows = []
-    for w in range(n_win):  # per window (tens to hundreds), each vectorised
+
+    def one(w: int) -> dict[str, Any]:  # per window (tens to hundreds), each vectorised
         a = w * hop
         t0 = (i0 + a * q) / fs
         t1 = t0 + win / fsd
-        r = analyse_window(y[:, a : a + win], fsd, motor, settings, f1_hz=f_supply(t0, t1), t_start_s=t0,
-                           phase_rms=use_sv)
-        rows.append(_row(r))
+        return _row(analyse_window(y[:, a : a + win], fsd, motor, settings, f1_hz=f_supply(t0, t1), t_start_s=t0,
+                                   phase_rms=use_sv))
+
+    if threads > 1 and n_win > 1:  # the FFTs release the GIL; results in window order whatever the thread count
+        import concurrent.futures
+
+        with concurrent.futures.ThreadPoolExecutor(min(threads, n_win)) as pool:
+            rows = list(pool.map(one, range(n_win)))
+    else:
+        rows = [one(w) for w in range(n_win)]
     return pd.DataFrame(rows, columns=list(TRACK_COLUMNS)).astype(
         {"slip": float, "rpm": float, "f_rotor_hz": float, "confidence_db": float, "n_components": int}
     )
@@ -536,9 +632,15 @@ def window_detail(
     pole_pairs: int | None = None,
     rotor_bars: int | None = None,
     settings: SpeedSettings | None = None,
+    decimated: DecimatedCurrent | None = None,
     **options: Any,
 ) -> WindowResult:
-    """The full `WindowResult` (spectrum, bands, candidates) of the window starting at ``t_start_s``; for plots."""
+    """The full `WindowResult` (spectrum, bands, candidates) of the window starting at ``t_start_s``; for plots.
+
+    With ``decimated`` (the whole capture's decimated current kept by the measurement pass,
+    `waveforms.measure.Measurements.decimated`) the window is cut from it and nothing is
+    read; the result is the same.
+    """
     settings, cap, motor, names, use_sv, fs = _prepare(
         currents, sample_rate_hz, nameplate, pole_pairs, rotor_bars, settings, options
     )
@@ -550,10 +652,13 @@ def window_detail(
     n = n_dec * q
     if not (0 <= i0 and i0 + n <= cap.n_samples):
         raise InvalidParameterError(f"window {t_start_s} s + {settings.window_s} s is outside the {cap.duration_s:.3f} s capture")
-    margin = 0 if q == 1 else int(math.ceil(len(decimation_filter(q)) / q)) * q
-    lo, hi = max(0, i0 - margin), min(cap.n_samples, i0 + n + margin)
-    y = _decimated(cap, names, q, use_sv, lo, hi)
-    a = (i0 - lo) // q
+    if decimated is not None and decimated.q == q and decimated.use_sv == use_sv and decimated.names == tuple(names):
+        y, a = decimated.y, i0 // q
+    else:
+        margin = 0 if q == 1 else int(math.ceil(len(decimation_filter(q)) / q)) * q
+        lo, hi = max(0, i0 - margin), min(cap.n_samples, i0 + n + margin)
+        y = _decimated(cap, names, q, use_sv, lo, hi)
+        a = (i0 - lo) // q
     t0 = i0 / fs
     f1 = _supply_function(supply_hz)(t0, t0 + settings.window_s)
     return analyse_window(y[:, a : a + n // q], fs / q, motor, settings, f1_hz=f1, t_start_s=t0, phase_rms=use_sv)
