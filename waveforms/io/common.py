@@ -29,6 +29,16 @@ EPOCH = _dt.datetime(1970, 1, 1, tzinfo=_dt.timezone.utc)
 _UNSET = ("", "none", "None", "nan")
 
 
+def one_line(text: str, limit: int = 200) -> str:
+    """``text`` (often a library's message) on one line, at most ``limit`` characters.
+
+    Line breaks become `` | ``; every error of this package is one line naming
+    the file, the place and the problem (`waveforms.errors`).
+    """
+    flat = " | ".join(part.strip() for part in str(text).splitlines() if part.strip())
+    return flat if len(flat) <= limit else flat[: limit - 3] + "..."
+
+
 def parse_start_time(text: str, source: str, where: str) -> _dt.datetime:
     """An ISO 8601 start time with offset (``2024-03-01T10:00:00+01:00``).
 

@@ -34,7 +34,7 @@ from ..capture import ArraySource, Capture, Provenance
 from ..errors import CaptureReadError, MappingError, positive_number
 from ..hashing import sha256_file
 from .. import timebase
-from .common import EPOCH, parse_start_time, system_values
+from .common import EPOCH, one_line, parse_start_time, system_values
 from .mapping import (
     Mapping, is_time_header, mapping_record, parse_mapping, resolve_channels, suggest, time_header_unit, time_unit_factor,
 )
@@ -265,7 +265,7 @@ def _parse(path: Path, layout: Layout, columns: list[str], types: dict[str, pa.D
     except pa.ArrowInvalid as e:
         msg = str(e)
     except (OSError, UnicodeDecodeError, pa.ArrowException) as e:
-        raise CaptureReadError(path, "", f"cannot be read as delimited text ({e})") from None
+        raise CaptureReadError(path, "", f"cannot be read as delimited text ({one_line(str(e))})") from None
     if "Expected" in msg and "columns" in msg:
         try:
             _read_table(path, layout, columns, types, threads=False)
@@ -274,14 +274,19 @@ def _parse(path: Path, layout: Layout, columns: list[str], types: dict[str, pa.D
         m = re.search(r"Row #(\d+): Expected (\d+) columns, got (\d+)", msg)
         if m:
             raise CaptureReadError(path, f"line {m.group(1)}", f"{m.group(3)} fields, but the header row (line {layout.header_index + 1}) has {m.group(2)}") from None
-        raise CaptureReadError(path, "", f"rows of different lengths ({msg})") from None
-    m = re.search(r"column #(\d+): CSV conversion error to (\w+): invalid value '(.*)'", msg)
+        raise CaptureReadError(path, "", f"rows of different lengths ({one_line(msg)})") from None
+    # DOTALL: a quote left open makes the "value" run over many lines (pyarrow quotes it whole)
+    m = re.search(r"column #(\d+): CSV conversion error to (\w+): invalid value '(.*)'", msg, flags=re.DOTALL)
     if m:
         col = layout.headers[int(m.group(1))]
         line, text = _locate_bad_number(path, layout, col)
         what = "a time stamp in seconds" if col == time_col else "a number"
-        raise CaptureReadError(path, f"line {line}, column {col!r}", f"{(text or m.group(3))!r} is not {what}") from None
-    raise CaptureReadError(path, "", f"cannot be parsed ({msg})")
+        bad = text or m.group(3)
+        if "\n" in bad or '"' in bad:
+            raise CaptureReadError(path, f"line {line}, column {col!r}",
+                                   f"a quote opened here is not closed on its line ({one_line(bad, 40)!r} ...); remove the stray '\"'") from None
+        raise CaptureReadError(path, f"line {line}, column {col!r}", f"{bad!r} is not {what}") from None
+    raise CaptureReadError(path, "", f"cannot be parsed ({one_line(msg)})")
 
 
 def _column_into(out: np.ndarray, col: pa.ChunkedArray) -> None:
