@@ -45,7 +45,11 @@ _DERIVED_GLUED = re.compile(r"^(?:[VUI])(?:RMS|TRMS|AVG|THD|PEAK|MAX|MIN)|(?:RMS
 
 @dataclasses.dataclass(frozen=True)
 class Recognised:
-    """What a header spelling says about a channel (``rule`` names the spelling rule, for notes)."""
+    """What a header spelling says about a channel.
+
+    ``rule`` names the inference for the import notes when the kind was not
+    written as a letter or word (``L1-N``, ``L1 [A]``); empty otherwise.
+    """
 
     kind: str
     conductor: str
@@ -158,7 +162,7 @@ def _bare(m: re.Match[str], unit: str | None) -> Recognised | str:
     conductor = "N" if m.group(0) == "N" else _DIGIT[next(g for g in m.groups() if g)]
     u = UNIT_RE.match(unit.strip()) if unit else None
     if u is not None and u.group("base").upper().startswith("A"):
-        return Recognised("current", conductor, "neutral" if conductor == "N" else "line", unit, "conductor with a current unit")
+        return Recognised("current", conductor, "neutral" if conductor == "N" else "line", unit, "a conductor alone: a current by its unit")
     label = "Vn" if conductor == "N" else "V" + conductor.lower()
     what = "in V, but the reference (neutral, earth, another line) is not written" if u is not None else "with no unit"
     return (f"a conductor name only, {what}; say what it is in the mapping: [channels.{label}] "
@@ -168,28 +172,28 @@ def _bare(m: re.Match[str], unit: str | None) -> Recognised | str:
 
 #: Every recognised spelling (first match wins).  Examples: (as written, label it gives).
 SPELLINGS: tuple[Spelling, ...] = (
-    Spelling("Va Vb Vc", "line-to-neutral voltage, kind letter first", r"^[VU]L?([ABC123])(?:N|0)?$", _ln("voltage letter and line"),
+    Spelling("Va Vb Vc", "line-to-neutral voltage, kind letter first", r"^[VU]L?([ABC123])(?:N|0)?$", _ln(""),
              (("Va", "Va"), ("VA", "Va"), ("Van", "Va"), ("V1", "Va"), ("V1N", "Va"), ("VL1", "Va"), ("VL1N", "Va"),
               ("U1", "Va"), ("UL1", "Va"), ("UL1N", "Va"), ("U L2-N", "Vb"), ("Voltage L1", "Va"),
               ("Phase A Voltage", "Va"), ("Voltage B-N", "Vb"))),
     Spelling("Va Vb Vc", "conductor-to-neutral, no kind letter (a voltage by its reference)",
-             r"^(?:L([123])|([ABC]))N$", _ln("conductor-to-neutral"),
+             r"^(?:L([123])|([ABC]))N$", _ln("conductor-to-neutral: a voltage"),
              (("L1-N", "Va"), ("L2-N [V]", "Vb"), ("L3N", "Vc"), ("A-N", "Va"), ("AN", "Va"), ("C-N (kV)", "Vc"))),
-    Spelling("Vab Vbc Vca", "line-to-line voltage, kind letter first", r"^[VU]L?([ABC123])L?([ABC123])$", _ll("voltage letter and two lines"),
+    Spelling("Vab Vbc Vca", "line-to-line voltage, kind letter first", r"^[VU]L?([ABC123])L?([ABC123])$", _ll(""),
              (("Vab", "Vab"), ("U12", "Vab"), ("UL12", "Vab"), ("UL1-L2", "Vab"), ("VL23", "Vbc"), ("U31", "Vca"),
               ("Voltage L1-L2", "Vab"))),
     Spelling("Vab Vbc Vca", "conductor-to-conductor, no kind letter (a voltage by its reference)",
-             r"^(?:L([123])L?([123])|([ABC])([ABC]))$", lambda m, u: _ll("conductor-to-conductor")(_Pair(m), u),
+             r"^(?:L([123])L?([123])|([ABC])([ABC]))$", lambda m, u: _ll("conductor-to-conductor: a voltage")(_Pair(m), u),
              (("L1-L2", "Vab"), ("L2-L3 [V]", "Vbc"), ("L12", "Vab"), ("L31", "Vca"), ("A-B", "Vab"), ("BC", "Vbc"))),
     Spelling("Vn", "neutral-to-earth voltage", r"^(?:[VU](?:N|NE|NG|NPE|NPG)|N(?:E|G|PE))$",
-             lambda m, u: Recognised("voltage", "N", "neutral", u, "neutral-to-earth"),
+             lambda m, u: Recognised("voltage", "N", "neutral", u),
              (("VN", "Vn"), ("UN", "Vn"), ("VNE", "Vn"), ("UNE", "Vn"), ("VNG", "Vn"), ("N-PE", "Vn"), ("N-E [V]", "Vn"))),
     Spelling("Ia Ib Ic", "line current", r"^IL?([ABC123])$",
-             lambda m, u: Recognised("current", _DIGIT[m.group(1)], "line", u, "current letter and line"),
+             lambda m, u: Recognised("current", _DIGIT[m.group(1)], "line", u),
              (("Ia", "Ia"), ("I1", "Ia"), ("IL1", "Ia"), ("I L1", "Ia"), ("I_c", "Ic"), ("Current L1", "Ia"),
               ("Phase B Current", "Ib"))),
     Spelling("In", "neutral current", r"^I(?:N|LN)$",
-             lambda m, u: Recognised("current", "N", "neutral", u, "current letter and neutral"),
+             lambda m, u: Recognised("current", "N", "neutral", u),
              (("In", "In"), ("IN", "In"), ("ILN", "In"), ("Current N", "In"))),
     Spelling("Ia Ib Ic In", "a conductor alone, read as a current when its unit is A (kA, mA)",
              r"^(?:L([123])|([ABC])|N)$", _bare,
