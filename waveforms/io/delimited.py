@@ -38,7 +38,7 @@ from .common import EPOCH, one_line, parse_start_time, system_values
 from .mapping import (
     Mapping, is_time_header, mapping_record, parse_mapping, resolve_channels, suggest, time_header_unit, time_unit_factor,
 )
-from .registry import Importer, ReadOptions, register
+from .registry import ReadOptions
 
 HEAD_BYTES = 1 << 16
 DELIMITERS = ("\t", ";", ",")
@@ -589,15 +589,3 @@ def sniff_csv(path: Path) -> bool:
         return len(layout.headers) >= 1 and len(layout.first_data) >= 1
     except Exception:
         return False
-
-
-register(
-    Importer(
-        name="csv",
-        description="delimited text (, ; tab; decimal point or comma) with a header row",
-        extensions=(".csv", ".txt", ".tsv", ".dat"),
-        sniff=sniff_csv,
-        read=read_csv,
-        priority=10,
-    )
-)
