@@ -33,3 +33,8 @@ register(Importer(
     extensions=(".cfg", ".cff", ".dat"), sniff=_M + "comtrade:sniff_comtrade", read=_M + "comtrade:read_comtrade",
     priority=50, extensions_only=True,
 ))
+register(Importer(
+    name="parquet", description="Parquet: a time column (or none and --rate) and one column per channel, read by row group",
+    extensions=(".parquet", ".pq"), sniff=_M + "parquet:sniff_parquet", read=_M + "parquet:read_parquet",
+    priority=50, magic=((0, b"PAR1"),),
+))
