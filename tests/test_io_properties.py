@@ -120,7 +120,7 @@ def test_mutated_csv_imports_or_raises_our_error(tmp_path_factory, cuts, fmt):
     assert x.shape == (len(cap.channels), cap.n_samples)
 
 
-@pytest.mark.parametrize("fmt", ["csv", "hdf5-native", "hdf5-mapped"])
+@pytest.mark.parametrize("fmt", ["csv", "hdf5-native", "hdf5-mapped", "hdf5-matrix", "parquet"])
 @SETTINGS
 @given(data=st.binary(min_size=1, max_size=300))
 def test_forced_format_on_garbage(tmp_path_factory, fmt, data):

@@ -38,3 +38,9 @@ register(Importer(
     extensions=(".parquet", ".pq"), sniff=_M + "parquet:sniff_parquet", read=_M + "parquet:read_parquet",
     priority=50, magic=((0, b"PAR1"),),
 ))
+register(Importer(
+    name="hdf5-matrix",
+    description="HDF5 (and MATLAB v7.3 .mat) with one 2-D dataset of channels; names from an attribute or a string dataset",
+    extensions=(".h5", ".hdf5", ".hdf", ".mat"), sniff=_M + "hdf5_matrix:sniff_hdf5_matrix", read=_M + "hdf5_matrix:read_hdf5_matrix",
+    priority=60, magic=HDF5_MAGIC,
+))

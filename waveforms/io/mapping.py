@@ -32,6 +32,8 @@ Mapping file (every table and key optional)::
     rate_attribute = "/data:fs"      # "<object path>:<attribute>", rate in Hz
     interval_attribute = "/data:dt"  # or the sample interval in s
     start_attribute = "/:t0"         # ISO 8601 text with offset, or POSIX seconds (UTC)
+    matrix = "/data"                 # matrix-shaped files (importer "hdf5-matrix"): the 2-D dataset
+    channels_along = "columns"       # "columns" (samples x channels) or "rows"; default from the shape
 
     [channels.Va]                # the key is the channel name; a trade label (Va, Vab, Ia, In)
     column = "U1"                # CSV header as written (or dataset = "/data/u1" for HDF5)
@@ -67,7 +69,7 @@ SECTION_KEYS = {
     "capture": ("sample_rate_hz", "start_time", "nominal_frequency_hz", "nominal_voltage_v", "wiring"),
     "time": ("column", "none", "format", "unit", "utc_offset"),
     "csv": ("delimiter", "decimal", "header_line", "encoding"),
-    "hdf5": ("rate_attribute", "interval_attribute", "start_attribute"),
+    "hdf5": ("rate_attribute", "interval_attribute", "start_attribute", "matrix", "channels_along"),
 }
 CHANNEL_KEYS = ("column", "dataset", "unit", "ratio", "kind", "conductor", "reference")
 
