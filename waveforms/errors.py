@@ -31,10 +31,11 @@ class CaptureReadError(WaveformsError):
 
     def __init__(self, path: str | PathLike[str], where: str, problem: str) -> None:
         self.path = str(path)
-        self.where = where
-        self.problem = problem
-        place = f": {where}" if where else ""
-        super().__init__(f"{self.path}{place}: {problem}")
+        # one line always: a library's message quoted in ``problem`` may hold line breaks
+        self.where = " | ".join(s.strip() for s in str(where).splitlines() if s.strip())
+        self.problem = " | ".join(s.strip() for s in str(problem).splitlines() if s.strip())
+        place = f": {self.where}" if self.where else ""
+        super().__init__(f"{self.path}{place}: {self.problem}")
 
 
 class MappingError(CaptureReadError):

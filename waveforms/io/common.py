@@ -29,6 +29,36 @@ EPOCH = _dt.datetime(1970, 1, 1, tzinfo=_dt.timezone.utc)
 _UNSET = ("", "none", "None", "nan")
 
 
+def one_line(text: str, limit: int = 200) -> str:
+    """``text`` (often a library's message) on one line, at most ``limit`` characters.
+
+    Line breaks become `` | ``; every error of this package is one line naming
+    the file, the place and the problem (`waveforms.errors`).
+    """
+    flat = " | ".join(part.strip() for part in str(text).splitlines() if part.strip())
+    return flat if len(flat) <= limit else flat[: limit - 3] + "..."
+
+
+def parse_utc_offset(text: str, source: str | Path, where: str) -> _dt.timezone:
+    """``"+01:00"``, ``"-0530"``, ``"Z"`` or ``"UTC"`` as a fixed offset.
+
+    Raises
+    ------
+    MappingError
+        Not an offset (``source`` and ``where`` name the place).
+    """
+    from ..errors import MappingError
+    import re
+
+    if text in ("Z", "UTC", "utc"):
+        return _dt.timezone.utc
+    m = re.fullmatch(r"([+-])(\d{2}):?(\d{2})", text.strip())
+    if not m:
+        raise MappingError(source, where, f"{text!r} is not a UTC offset like '+01:00'")
+    sign = 1 if m.group(1) == "+" else -1
+    return _dt.timezone(sign * _dt.timedelta(hours=int(m.group(2)), minutes=int(m.group(3))))
+
+
 def parse_start_time(text: str, source: str, where: str) -> _dt.datetime:
     """An ISO 8601 start time with offset (``2024-03-01T10:00:00+01:00``).
 

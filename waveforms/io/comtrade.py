@@ -60,7 +60,7 @@ from .mapping import (
     resolve_channels,
     unit_factor,
 )
-from .registry import Importer, ReadOptions, register
+from .registry import ReadOptions
 
 FILE_TYPES = ("ASCII", "BINARY", "BINARY32", "FLOAT32")
 REVISIONS = ("1991", "1999", "2001", "2013")
@@ -793,15 +793,3 @@ def sniff_comtrade(path: Path) -> bool:
         return False
     except Exception:  # noqa: BLE001 - a sniffer never raises
         return False
-
-
-register(
-    Importer(
-        name="comtrade",
-        description="COMTRADE (IEEE C37.111-1999/-2013, IEC 60255-24): .cfg + .dat (ASCII, BINARY, BINARY32, FLOAT32) or .cff",
-        extensions=(".cfg", ".cff", ".dat"),
-        sniff=sniff_comtrade,
-        read=read_comtrade,
-        priority=50,
-    )
-)

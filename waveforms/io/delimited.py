@@ -10,10 +10,13 @@ Parsing is done by the pyarrow CSV reader (C++, multithreaded); there is no
 Python loop over rows.  Bad input ends in a `CaptureReadError` naming the
 file, the line and column, and the problem.
 
-Metadata lines of the form ``# key: value`` with keys ``start_time``,
-``sample_rate_hz``, ``nominal_frequency_hz``, ``nominal_voltage_v`` and
-``wiring`` (as written by `waveforms.io.csv_writer`) are read; other leading
-lines are kept as notes.
+Metadata lines above the header (``# key: value``, ``key = value``, or
+``key,value`` with the file's delimiter) naming the sample rate or interval,
+start time, nominal frequency or voltage, or wiring are read under the
+spellings of `waveforms.io.metadata` (``Sample rate: 10 kHz``,
+``Start time,2024-03-01T10:00:00+01:00``), with a note for each; other
+leading lines are kept as notes.  Two header lines, names then units
+(``Va,Vb,...`` / ``V,V,...``), are read as ``Va [V]``.
 """
 
 from __future__ import annotations
@@ -34,22 +37,21 @@ from ..capture import ArraySource, Capture, Provenance
 from ..errors import CaptureReadError, MappingError, positive_number
 from ..hashing import sha256_file
 from .. import timebase
-from .common import EPOCH, parse_start_time, system_values
+from . import metadata as md
+from .common import EPOCH, one_line, parse_start_time, system_values
 from .mapping import (
-    Mapping, is_time_header, mapping_record, parse_mapping, resolve_channels, suggest, time_header_unit, time_unit_factor,
+    TIME_UNITS, UNIT_RE, Mapping, is_time_header, split_unit, mapping_record, parse_mapping, resolve_channels, suggest, time_header_unit, time_unit_factor,
 )
-from .registry import Importer, ReadOptions, register
+from .registry import ReadOptions
 
 HEAD_BYTES = 1 << 16
 DELIMITERS = ("\t", ";", ",")
-META_KEYS = ("start_time", "sample_rate_hz", "nominal_frequency_hz", "nominal_voltage_v", "wiring")
 _NUM_RE = {
     ".": re.compile(r"^\s*[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?\s*$|^\s*$|^\s*[+-]?(nan|NaN|inf|Inf)\s*$"),
     ",": re.compile(r"^\s*[+-]?(\d+,?\d*|,\d+)([eE][+-]?\d+)?\s*$|^\s*$|^\s*[+-]?(nan|NaN|inf|Inf)\s*$"),
 }
 _ISO_RE = re.compile(r"^\s*\d{4}-\d{2}-\d{2}[T ]\d{2}:\d{2}(:\d{2}(\.\d+)?)?\s*(Z|[+-]\d{2}:?\d{2})?\s*$")
 _OFFSET_RE = re.compile(r"(Z|[+-]\d{2}:?\d{2})\s*$")
-_META_RE = re.compile(r"^\s*#?\s*(?P<key>[A-Za-z_][A-Za-z0-9_ ]*?)\s*[:=]\s*(?P<value>.*?)\s*$")
 #: Name given to the empty columns after a trailing delimiter (never read).
 TRAILING = "(after trailing delimiter) "
 
@@ -61,10 +63,12 @@ class Layout:
     encoding: str
     delimiter: str
     decimal: str
-    header_index: int  # 0-based physical line of the header row
+    header_index: int  # 0-based physical line of the last header line (the units line when there are two); data follow it
     headers: tuple[str, ...]
     metadata_lines: tuple[str, ...]
     first_data: tuple[tuple[str, ...], ...]  # a few parsed data rows (for type guesses)
+    names_index: int | None = None  # 0-based line of the names when a units line follows them (headers are then 'name [unit]')
+    metadata_numbers: tuple[int, ...] = ()  # 1-based file line of each of metadata_lines
 
 
 # -- layout -----------------------------------------------------------------------------
@@ -166,7 +170,16 @@ def detect_layout(path: Path, mapping: Mapping) -> Layout:
         if not before:
             raise CaptureReadError(path, f"line {first_numeric + 1}", "no header row above the data (the first line must name the columns)")
         header_index = before[-1]
-    headers = list(_cells(lines[header_index], delim))
+    names_index = None
+    if hl is None and len(before) >= 2 and _units_row(_cells(lines[header_index], delim), _cells(lines[before[-2]], delim)):
+        names_index, header_index = before[-2], header_index
+    elif hl is not None and header_index + 1 < len(lines) and _units_row(_cells(lines[header_index + 1], delim), _cells(lines[header_index], delim)):
+        names_index, header_index = header_index, header_index + 1
+    name_line = header_index if names_index is None else names_index
+    headers = list(_cells(lines[name_line], delim))
+    if names_index is not None:
+        units = _cells(lines[header_index], delim) + [""] * len(headers)
+        headers = [_with_unit(h, u) for h, u in zip(headers, units)]
     # a delimiter at the end of every line (common in exports) gives empty trailing columns
     k = len(headers)
     while k > 1 and headers[k - 1] == "":
@@ -175,26 +188,61 @@ def detect_layout(path: Path, mapping: Mapping) -> Layout:
     headers = tuple(headers)
     if any(h == "" for h in headers):
         col = headers.index("") + 1
-        raise CaptureReadError(path, f"line {header_index + 1}, field {col}", "empty column name in the header row")
+        raise CaptureReadError(path, f"line {name_line + 1}, field {col}", "empty column name in the header row")
     dup = sorted({h for h in headers if headers.count(h) > 1})
     if dup:
-        raise CaptureReadError(path, f"line {header_index + 1}", f"column names repeated in the header: {dup}")
+        raise CaptureReadError(path, f"line {name_line + 1}", f"column names repeated in the header: {dup}")
     data = tuple(tuple(_cells(lines[i], delim)) for i in nonblank if i > header_index)[:50]
-    meta = tuple(ln for ln in lines[:header_index] if ln.strip())
-    return Layout(encoding, delim, decimal, header_index, headers, meta, data)
+    meta_idx = [i for i in range(name_line) if lines[i].strip()]
+    meta = tuple(lines[i] for i in meta_idx)
+    return Layout(encoding, delim, decimal, header_index, headers, meta, data, names_index, tuple(i + 1 for i in meta_idx))
 
 
-def _metadata(layout: Layout, path: Path) -> tuple[dict[str, str], list[str]]:
-    found: dict[str, str] = {}
+def _unit_cell(c: str) -> bool:
+    u = c.strip().strip("[]()").strip()
+    return u == "" or u == "-" or UNIT_RE.match(u) is not None or u in TIME_UNITS
+
+
+def _units_row(cells: list[str], names: list[str]) -> bool:
+    """True when ``cells`` (the line under ``names``) is a units line: ``V,V,V,A`` / ``s;[V];[A]``."""
+    k = len(cells)
+    while k > 0 and cells[k - 1] == "":
+        k -= 1
+    return 0 < k <= len(names) and any(c.strip("[]() -") for c in cells[:k]) and all(_unit_cell(c) for c in cells[:k])
+
+
+def _with_unit(name: str, unit: str) -> str:
+    """``"Va"`` and ``"V"`` -> ``"Va [V]"`` (a name that already carries a unit, or an empty unit, is kept)."""
+    u = unit.strip().strip("[]()").strip()
+    if not u or u == "-" or not name or split_unit(name)[1] is not None:
+        return name
+    return f"{name} [{u}]"
+
+
+_KV_RE = re.compile(r"^\s*#?\s*(?P<key>[A-Za-z_][^:=;,\t]*?)\s*(?P<sep>[:=;,\t])\s*(?P<value>.*?)\s*$")
+
+
+def _metadata(layout: Layout, path: Path) -> tuple[dict[str, str], list[str], list[str]]:
+    """Metadata lines above the header: ``key: value``, ``key = value`` or ``key,value`` (``;``, tab).
+
+    Keys are read with `waveforms.io.metadata` (``Sample rate: 10 kHz``, ``fs,10000``,
+    ``Start time: 2024-...``, ``Nominal voltage;400 V``); returns (values, notes on
+    what was read under another spelling, other lines kept as text).
+    """
+    items: list[tuple[str, str, str]] = []
     other: list[str] = []
-    for ln in layout.metadata_lines:
-        m = _META_RE.match(ln)
-        key = m.group("key").strip().lower().replace(" ", "_") if m else ""
-        if m and key in META_KEYS:
-            found[key] = m.group("value").strip().strip('"')
+    numbers = layout.metadata_numbers or tuple(range(1, len(layout.metadata_lines) + 1))
+    for ln, no in zip(layout.metadata_lines, numbers):
+        m = _KV_RE.match(ln)
+        if m and md.canonical(m.group("key")) is not None:
+            value = m.group("value")
+            if m.group("sep") in ",;\t":  # 'key,value,unit' -> 'value unit'
+                value = " ".join(c.strip().strip('"') for c in value.split(m.group("sep")) if c.strip())
+            items.append((m.group("key"), value, f"metadata line {no}"))
         else:
             other.append(ln.strip())
-    return found, other
+    found, notes, _ = md.interpret(items, path)
+    return found, notes, other
 
 
 # -- parsing ----------------------------------------------------------------------------
@@ -269,7 +317,7 @@ def _parse(path: Path, layout: Layout, columns: list[str], types: dict[str, pa.D
     except pa.ArrowInvalid as e:
         msg = str(e)
     except (OSError, UnicodeDecodeError, pa.ArrowException) as e:
-        raise CaptureReadError(path, "", f"cannot be read as delimited text ({e})") from None
+        raise CaptureReadError(path, "", f"cannot be read as delimited text ({one_line(str(e))})") from None
     if "Expected" in msg and "columns" in msg:
         try:
             _read_table(path, layout, columns, types, threads=False)
@@ -278,14 +326,19 @@ def _parse(path: Path, layout: Layout, columns: list[str], types: dict[str, pa.D
         m = re.search(r"Row #(\d+): Expected (\d+) columns, got (\d+)", msg)
         if m:
             raise CaptureReadError(path, f"line {m.group(1)}", f"{m.group(3)} fields, but the header row (line {layout.header_index + 1}) has {m.group(2)}") from None
-        raise CaptureReadError(path, "", f"rows of different lengths ({msg})") from None
-    m = re.search(r"column #(\d+): CSV conversion error to (\w+): invalid value '(.*)'", msg)
+        raise CaptureReadError(path, "", f"rows of different lengths ({one_line(msg)})") from None
+    # DOTALL: a quote left open makes the "value" run over many lines (pyarrow quotes it whole)
+    m = re.search(r"column #(\d+): CSV conversion error to (\w+): invalid value '(.*)'", msg, flags=re.DOTALL)
     if m:
         col = layout.headers[int(m.group(1))]
         line, text = _locate_bad_number(path, layout, col)
         what = "a time stamp in seconds" if col == time_col else "a number"
-        raise CaptureReadError(path, f"line {line}, column {col!r}", f"{(text or m.group(3))!r} is not {what}") from None
-    raise CaptureReadError(path, "", f"cannot be parsed ({msg})")
+        bad = text or m.group(3)
+        if "\n" in bad or '"' in bad:
+            raise CaptureReadError(path, f"line {line}, column {col!r}",
+                                   f"a quote opened here is not closed on its line ({one_line(bad, 40)!r} ...); remove the stray '\"'") from None
+        raise CaptureReadError(path, f"line {line}, column {col!r}", f"{bad!r} is not {what}") from None
+    raise CaptureReadError(path, "", f"cannot be parsed ({one_line(msg)})")
 
 
 def _column_into(out: np.ndarray, col: pa.ChunkedArray) -> None:
@@ -434,8 +487,11 @@ class Plan:
 def plan_read(path: Path, options: ReadOptions, mapping: Mapping) -> Plan:
     """Layout, channels, time column and declared values of a delimited file (reads its first 64 KiB)."""
     layout = detect_layout(path, mapping)
-    meta, other_meta = _metadata(layout, path)
-    notes: list[str] = []
+    meta, meta_notes, other_meta = _metadata(layout, path)
+    notes: list[str] = list(meta_notes)
+    if layout.names_index is not None:
+        notes.append(f"two header lines: names on line {layout.names_index + 1}, units on line {layout.header_index + 1}; "
+                     "columns read as " + ", ".join(repr(h) for h in layout.headers[:8]) + (" ..." if len(layout.headers) > 8 else ""))
     if other_meta:
         notes.append(f"{len(other_meta)} metadata line(s) above the header kept as text: " + " | ".join(other_meta[:5])[:300])
     time_col = _choose_time_column(layout, mapping, path)
@@ -588,15 +644,3 @@ def sniff_csv(path: Path) -> bool:
         return len(layout.headers) >= 1 and len(layout.first_data) >= 1
     except Exception:
         return False
-
-
-register(
-    Importer(
-        name="csv",
-        description="delimited text (, ; tab; decimal point or comma) with a header row",
-        extensions=(".csv", ".txt", ".tsv", ".dat"),
-        sniff=sniff_csv,
-        read=read_csv,
-        priority=10,
-    )
-)

@@ -38,15 +38,13 @@ from ..hashing import sha256_file
 from .common import EPOCH, parse_start_time, system_values
 from .hdf5_native import HDF5Source, sniff_native
 from .mapping import mapping_record, parse_mapping, recognise, resolve_channels
-from .registry import Importer, ReadOptions, register
+from .registry import ReadOptions
 
 
 def sniff_hdf5_generic(path: Path) -> bool:
     """True for any HDF5 file not in the native layout (never raises)."""
     try:
-        with open(path, "rb") as fh:
-            sig = fh.read(8)
-        return sig == b"\x89HDF\r\n\x1a\n" and not sniff_native(path)
+        return bool(h5py.is_hdf5(path)) and not sniff_native(path)
     except Exception:
         return False
 
@@ -166,15 +164,3 @@ def read_hdf5_mapped(path: Path, options: ReadOptions | None = None) -> Capture:
         channels=tuple(s.channel() for s in specs), source=source, sample_rate_hz=float(rate), start_time=start,
         provenance=prov, **system,
     )
-
-
-register(
-    Importer(
-        name="hdf5-mapped",
-        description="any other HDF5 file; a mapping file names the datasets, rate and start attributes",
-        extensions=(".h5", ".hdf5", ".hdf"),
-        sniff=sniff_hdf5_generic,
-        read=read_hdf5_mapped,
-        priority=50,
-    )
-)

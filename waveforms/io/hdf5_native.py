@@ -42,7 +42,7 @@ from ..capture import Capture, Channel, Gap, Provenance
 from ..errors import CaptureReadError, WriteError
 from ..hashing import sha256_file
 from ..motor.nameplate import Nameplate  # a plain record (imports only errors, tomlfile): io may use it
-from .registry import Importer, ReadOptions, register
+from .registry import ReadOptions
 
 FORMAT_NAME = "motor-waveforms capture"
 FORMAT_VERSION = 1
@@ -297,15 +297,3 @@ def write_native_blocks(
                 for k, v in finalize(pos).items():
                     fh.attrs[k] = v
     return target
-
-
-register(
-    Importer(
-        name="hdf5-native",
-        description="this project's own HDF5 layout (see waveforms/io/hdf5_native.py)",
-        extensions=(".h5", ".hdf5"),
-        sniff=sniff_native,
-        read=read_native,
-        priority=100,
-    )
-)

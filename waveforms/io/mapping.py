@@ -32,6 +32,8 @@ Mapping file (every table and key optional)::
     rate_attribute = "/data:fs"      # "<object path>:<attribute>", rate in Hz
     interval_attribute = "/data:dt"  # or the sample interval in s
     start_attribute = "/:t0"         # ISO 8601 text with offset, or POSIX seconds (UTC)
+    matrix = "/data"                 # matrix-shaped files (importer "hdf5-matrix"): the 2-D dataset
+    channels_along = "columns"       # "columns" (samples x channels) or "rows"; default from the shape
 
     [channels.Va]                # the key is the channel name; a trade label (Va, Vab, Ia, In)
     column = "U1"                # CSV header as written (or dataset = "/data/u1" for HDF5)
@@ -41,10 +43,8 @@ Mapping file (every table and key optional)::
     conductor = "A"
     reference = "LN"             # LN, LL, line, neutral
 
-Recognised header spellings (case, spaces, ``_`` ``-`` ``.`` ignored; a unit in
-``( )`` or ``[ ]`` or after ``/``): voltages ``Va VA Van V1 V1N VL1 UL1 U1 UL1N
-Voltage L1``; line-to-line ``Vab U12 UL1L2 VL12``; neutral-to-earth ``VN UN VNE``;
-currents ``Ia I1 IL1 Current L1``; neutral ``In IN``.
+Recognised header spellings: `waveforms.io.spellings.SPELLINGS` (the table in
+docs/importing.md is rendered from it).
 """
 
 from __future__ import annotations
@@ -57,103 +57,31 @@ from collections.abc import Iterable, Sequence
 from pathlib import Path
 from typing import Any
 
-from ..capture import BASE_UNIT, LL_PAIR, Channel
+from ..capture import BASE_UNIT, Channel
 from ..errors import CaptureReadError, MappingError
 from ..tomlfile import read_toml
+from .spellings import (  # noqa: F401  (TIME_UNITS, UNIT_RE, Recognised, split_unit are used from here too)
+    TIME_UNITS, UNIT_RE, Recognised, channel_label, recognise, refusal, split_unit,
+)
 
 TOP_KEYS = ("unknown", "ignore", "capture", "time", "csv", "hdf5", "channels")
 SECTION_KEYS = {
     "capture": ("sample_rate_hz", "start_time", "nominal_frequency_hz", "nominal_voltage_v", "wiring"),
     "time": ("column", "none", "format", "unit", "utc_offset"),
     "csv": ("delimiter", "decimal", "header_line", "encoding"),
-    "hdf5": ("rate_attribute", "interval_attribute", "start_attribute"),
+    "hdf5": ("rate_attribute", "interval_attribute", "start_attribute", "matrix", "channels_along"),
 }
 CHANNEL_KEYS = ("column", "dataset", "unit", "ratio", "kind", "conductor", "reference")
 
 #: Unit prefixes accepted in headers and mapping files.
 PREFIX = {"": 1.0, "k": 1e3, "K": 1e3, "M": 1e6, "m": 1e-3, "u": 1e-6, "µ": 1e-6, "μ": 1e-6}
-#: Spelling of a voltage or current unit, with an optional prefix (``kV``, ``mA``, ``Volts``, ``ARMS``).
-UNIT_RE = re.compile(r"^(?P<prefix>[kKMmuµμ]?)(?P<base>V|A|VOLTS?|AMPS?)(?:RMS)?$", re.IGNORECASE)
-#: Time units of a numeric time column, in seconds.
-TIME_UNITS = {"s": 1.0, "sec": 1.0, "ms": 1e-3, "us": 1e-6, "µs": 1e-6, "μs": 1e-6, "ns": 1e-9}
-
-_DIGIT = {"1": "A", "2": "B", "3": "C", "A": "A", "B": "B", "C": "C"}
-_LN_RE = re.compile(r"^[VU]L?([ABC123])(?:N|0)?$")
-_LL_RE = re.compile(r"^[VU]L?([ABC123])L?([ABC123])$")
-_VN_RE = re.compile(r"^[VU](?:N|NE|NG|NPE|NPG)$")
-_IL_RE = re.compile(r"^IL?([ABC123])$")
-_IN_RE = re.compile(r"^I(?:N|LN)$")
-_WORDS = (("VOLTAGE", "V"), ("VOLTS", "V"), ("VOLT", "V"), ("CURRENT", "I"), ("CURR", "I"), ("AMPS", "I"), ("PHASE", ""))
 _TIME_RE = re.compile(
     r"^(?P<name>t|time|times|timestamp|time ?stamp|date ?time|datetime|zeit|temps|tiempo|seconds|sec|elapsed)"
     r"(?:[_ ](?P<unit>s|ms|us|ns))?$", re.IGNORECASE)
 
 #: Canonical spellings offered as suggestions for unrecognised headers.
 CANONICAL = ("Va", "Vb", "Vc", "Vab", "Vbc", "Vca", "Vn", "Ia", "Ib", "Ic", "In")
-
-
-@dataclasses.dataclass(frozen=True)
-class Recognised:
-    """What a header spelling says about a channel."""
-
-    kind: str
-    conductor: str
-    reference: str
-    unit: str | None
-
-    @property
-    def label(self) -> str:
-        return _label(self.kind, self.conductor, self.reference)
-
-
-def _label(kind: str, conductor: str, reference: str) -> str:
-    letter = "V" if kind == "voltage" else "I"
-    if reference == "LL":
-        return letter + LL_PAIR[conductor].lower()
-    return letter + conductor.lower()
-
-
-def split_unit(header: str) -> tuple[str, str | None]:
-    """Split ``"V1 (kV)"`` / ``"IL2 [mA]"`` / ``"Va/V"`` into name and unit text (None when absent)."""
-    h = header.strip()
-    m = re.match(r"^(?P<name>.*?)\s*[\(\[](?P<unit>[^\)\]]*)[\)\]]\s*$", h)
-    if m and m.group("name"):
-        return m.group("name").strip(), m.group("unit").strip()
-    m = re.match(r"^(?P<name>[^/]+?)\s*/\s*(?P<unit>[^/]+)$", h)
-    if m and (UNIT_RE.match(m.group("unit").strip()) or m.group("unit").strip() in TIME_UNITS):
-        return m.group("name").strip(), m.group("unit").strip()
-    return h, None
-
-
-def _normalise(name: str) -> str:
-    n = re.sub(r"[\s_\-\.]", "", name).upper()
-    for word, rep in _WORDS:
-        if n.startswith(word) or (rep == "" and word in n):
-            n = n.replace(word, rep, 1)
-    return n
-
-
-def recognise(header: str) -> Recognised | None:
-    """Recognise a common channel spelling (``Va``, ``UL1``, ``V1 (kV)``, ``IL2 [mA]``, ``U12``...).
-
-    Returns None for anything that is not a channel name this module knows.
-    """
-    name, unit = split_unit(header)
-    n = _normalise(name)
-    if (m := _LN_RE.match(n)) is not None:
-        return Recognised("voltage", _DIGIT[m.group(1)], "LN", unit)
-    if (m := _LL_RE.match(n)) is not None:
-        a, b = _DIGIT[m.group(1)], _DIGIT[m.group(2)]
-        if LL_PAIR.get(a) == a + b:
-            return Recognised("voltage", a, "LL", unit)
-        return None  # reversed pairs (Vba, U21) are not guessed: the sign would flip
-    if _VN_RE.match(n):
-        return Recognised("voltage", "N", "neutral", unit)
-    if (m := _IL_RE.match(n)) is not None:
-        return Recognised("current", _DIGIT[m.group(1)], "line", unit)
-    if _IN_RE.match(n):
-        return Recognised("current", "N", "neutral", unit)
-    return None
+_label = channel_label
 
 
 def is_time_header(header: str) -> bool:
@@ -414,9 +342,12 @@ def resolve_channels(
             continue
         rec = recognise(h)
         if rec is None:
+            why = refusal(h)
             if mapping.unknown == "ignore":
-                notes.append(f"{what} {h!r} not recognised as a channel; ignored")
+                notes.append(f"{what} {h!r} not recognised as a channel{' (' + why + ')' if why else ''}; ignored")
                 continue
+            if why is not None:
+                raise MappingError(path, where_of(h), why if what == "column" else why.replace("column = ", f"{what} = "))
             raise MappingError(
                 path, where_of(h),
                 f"not a known channel name{suggest(split_unit(h)[0], CANONICAL) or '.'} "
@@ -425,7 +356,8 @@ def resolve_channels(
         factor = 1.0 if rec.unit is None else unit_factor(rec.unit, rec.kind, path, where_of(h))
         spec = ChannelSpec(rec.label, h, rec.kind, rec.conductor, rec.reference, rec.unit or BASE_UNIT[rec.kind], factor, 1.0, True)
         unit_txt = f" in {rec.unit}" if rec.unit else f", no unit stated, taken as {BASE_UNIT[rec.kind]}"
-        notes.append(f"{what} {h!r} recognised as {rec.label} ({rec.kind}, {rec.conductor}, {rec.reference}){unit_txt}")
+        rule = f"; spelling: {rec.rule}" if rec.rule else ""
+        notes.append(f"{what} {h!r} recognised as {rec.label} ({rec.kind}, {rec.conductor}, {rec.reference}{rule}){unit_txt}")
         specs.append(spec)
     seen: dict[str, str] = {}
     for s in specs:

@@ -1,9 +1,14 @@
 """The importer registry: one entry per file format, each a sniffer plus a reader.
 
-An importer is one module in `waveforms.io` that calls `register` at import
-time.  `read_capture` picks the importer (explicit ``format=`` skips sniffing;
-otherwise the highest-priority importer whose sniffer accepts the file), and
-the CLI's ``--format`` choices and the README's format table come from here.
+An importer is one module in `waveforms.io`; `waveforms.io.builtin` registers
+the built-in ones by name (``"waveforms.io.parquet:read_parquet"``), so that a
+format's module, and the heavy library it needs (h5py, pyarrow), is imported
+only when a file is sniffed or read with it.  Before the module is imported a
+cheap pre-check runs: the file's leading bytes (``magic``, at given offsets)
+or its extension (``extensions_only``).  `read_capture` picks the importer
+(explicit ``format=`` skips sniffing; otherwise the highest-priority importer
+whose sniffer accepts the file), and the CLI's ``--format`` choices and the
+README's format table come from here.
 
 Sniffers are cheap, never raise and never modify the file.
 """
@@ -12,6 +17,7 @@ from __future__ import annotations
 
 import dataclasses
 import datetime as _dt
+import importlib
 import os
 from collections.abc import Callable
 from pathlib import Path
@@ -53,9 +59,70 @@ class ReadOptions:
     resample: bool = False
 
 
+class Deferred:
+    """A function named ``"package.module:function"``, imported on its first call."""
+
+    def __init__(self, target: str) -> None:
+        if ":" not in target:
+            raise InvalidParameterError(f"{target!r} must be 'package.module:function'")
+        self.target = target
+        self._fn: Callable[..., Any] | None = None
+
+    def resolve(self) -> Callable[..., Any]:
+        if self._fn is None:
+            module, name = self.target.split(":", 1)
+            self._fn = getattr(importlib.import_module(module), name)
+        return self._fn
+
+    @property
+    def loaded(self) -> bool:
+        return self._fn is not None
+
+    def __call__(self, *args: Any, **kwargs: Any) -> Any:
+        return self.resolve()(*args, **kwargs)
+
+    def __repr__(self) -> str:
+        return f"Deferred({self.target!r})"
+
+
+#: Where the HDF5 signature may sit: offset 0, or after a user block of 512, 1024, 2048... bytes (MATLAB v7.3 uses 512).
+HDF5_SIGNATURE = b"\x89HDF\r\n\x1a\n"
+HDF5_MAGIC = tuple((off, HDF5_SIGNATURE) for off in (0, 512, 1024, 2048, 4096))
+
+
+def head_matches(path: Path, magic: tuple[tuple[int, bytes], ...]) -> bool:
+    """True when one of the ``(offset, bytes)`` pairs is found in the file (False for a folder or a missing file)."""
+    try:
+        with open(path, "rb") as fh:
+            for off, sig in magic:
+                fh.seek(off)
+                if fh.read(len(sig)) == sig:
+                    return True
+    except OSError:
+        return False
+    return False
+
+
 @dataclasses.dataclass(frozen=True)
 class Importer:
-    """A registered file format."""
+    """A registered file format.
+
+    Parameters
+    ----------
+    name, description : str
+    extensions : tuple of str
+        Lower-case, with the dot.
+    sniff, read : callable or str
+        ``sniff(path) -> bool`` and ``read(path, options) -> Capture``, or their
+        names ``"package.module:function"``: the module is then imported only
+        when the function is first called (`Deferred`).
+    priority : int
+        Higher is tried first.
+    magic : tuple of (int, bytes)
+        Leading bytes at offsets: the sniffer runs only when one of them is found.
+    extensions_only : bool
+        The sniffer runs only for files with one of ``extensions``.
+    """
 
     name: str
     description: str
@@ -63,6 +130,37 @@ class Importer:
     sniff: Callable[[Path], bool]
     read: Callable[[Path, ReadOptions], Capture]
     priority: int = 0
+    magic: tuple[tuple[int, bytes], ...] = ()
+    extensions_only: bool = False
+
+    def __post_init__(self) -> None:
+        sniff = Deferred(self.sniff) if isinstance(self.sniff, str) else self.sniff
+        if isinstance(self.read, str):
+            object.__setattr__(self, "read", Deferred(self.read))
+        object.__setattr__(self, "sniff", _PreChecked(sniff, self.magic, self.extensions if self.extensions_only else None))
+
+    @property
+    def loaded(self) -> bool:
+        """Whether the importer's module has been imported (False until its sniffer or reader is first needed)."""
+        fns = [self.read, getattr(self.sniff, "inner", None)]
+        return all(getattr(f, "loaded", True) for f in fns)
+
+
+class _PreChecked:
+    """A sniffer behind the cheap checks (magic bytes, extension) that need no import."""
+
+    def __init__(self, inner: Callable[[Path], bool], magic: tuple[tuple[int, bytes], ...], extensions: tuple[str, ...] | None) -> None:
+        self.inner = inner
+        self.magic = magic
+        self.extensions = extensions
+
+    def __call__(self, path: Path) -> bool:
+        p = Path(path)
+        if self.extensions is not None and p.suffix.lower() not in self.extensions:
+            return False
+        if self.magic and not head_matches(p, self.magic):
+            return False
+        return bool(self.inner(p))
 
 
 _REGISTRY: dict[str, Importer] = {}
