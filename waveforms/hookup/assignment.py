@@ -101,7 +101,7 @@ def search(work: dict[str, Terms], names: list[str], v_line: dict[str, np.ndarra
     if not fits:
         return None, Finding("current_assignment", "current-to-voltage angles not as a motoring motor draws: "
                              "no assignment of the clamps to the lines fits", tuple(names), ev, "low",
-                             "none: ambiguous, analysed as recorded", False), ev
+                             "none: ambiguous, analysed as recorded", False, short="clamps do not fit a motoring motor"), ev
     best = fits[0]
     ties = [f for f in fits[1:] if f[0] == best[0]]
     cost, spread, p, s, lags = best
@@ -111,12 +111,14 @@ def search(work: dict[str, Terms], names: list[str], v_line: dict[str, np.ndarra
     if ties or cost > MAX_COST:
         alt = "; ".join(_describe(f[2], f[3], names)[0] for f in [best] + ties)
         return None, Finding("current_assignment", f"current clamps not where labelled, but which way cannot be told ({alt})",
-                             tuple(names), ev, "low", "none: ambiguous, analysed as recorded", False), ev
+                             tuple(names), ev, "low", "none: ambiguous, analysed as recorded", False,
+                             short="clamp assignment ambiguous"), ev
     new = {LINES[k]: scaled(work[LINES[p[k]]], float(s[k])) for k in range(3)}
     rule = ", ".join(f"I{LINES[k].lower()} = {'-' if s[k] < 0 else ''}{names[p[k]]}" for k in range(3)
                      if not (p[k] == k and s[k] > 0))
     conf = "high" if cost <= 2 and not regen else "medium"
+    short = words
     if regen:  # as recorded, a regenerating motor would look the same: the motoring assumption decides
         words += " (as recorded the currents would fit a regenerating motor; motoring assumed)"
         ev["regenerating_alternative"] = True
-    return new, Finding("current_assignment", words, tuple(chans), ev, conf, f"corrected: {rule}", True), ev
+    return new, Finding("current_assignment", words, tuple(chans), ev, conf, f"corrected: {rule}", True, short=short), ev

@@ -38,9 +38,10 @@ AS_RECORDED_ACTION = "none: analysed as recorded (as_recorded)"
 class HookupSettings:
     """The ``hookup`` stage: how the hook-up is checked, and whether it is corrected."""
 
-    as_recorded: bool = setting(False, "analyse the file exactly as recorded: report hook-up findings, correct nothing")
-    n_windows: int = setting(16, "short windows read, spread evenly over the capture [-]", minimum=3, maximum=200)
-    window_cycles: int = setting(6, "nominal cycles per window [cycles]", minimum=2, maximum=60)
+    as_recorded: bool = setting(False, "analyse the file exactly as recorded: report hook-up findings, correct nothing",
+                               forward=False)
+    n_windows: int = setting(16, "short windows read, spread evenly over the capture [-]", minimum=3, maximum=200, forward=False)
+    window_cycles: int = setting(6, "nominal cycles per window [cycles]", minimum=2, maximum=60, forward=False)
 
     def __post_init__(self) -> None:
         check_fields(self)
@@ -82,7 +83,11 @@ def check_hookup(capture: Capture, nameplate: Any = None, settings: HookupSettin
         lazily corrected copy (`waveforms.hookup.transform.apply_rules`) with a
         provenance history entry.
     """
-    s = settings or HookupSettings()
+    with np.errstate(all="ignore"):  # dead channels and empty windows give NaN ratios, handled below
+        return _check(capture, nameplate, settings or HookupSettings())
+
+
+def _check(capture: Capture, nameplate: Any, s: HookupSettings) -> tuple[Capture, HookupResult]:
     vmap = capture.phase_channels("voltage")
     vref = next(iter(vmap.values())).reference if vmap else ""
     imap = capture.phase_channels("current")
@@ -146,9 +151,9 @@ def check_hookup(capture: Capture, nameplate: Any = None, settings: HookupSettin
         if have_i:
             work = {"A": work["A"], "B": work["C"], "C": work["B"]}
             i_names = [i_names[0], i_names[2], i_names[1]]
-        findings.append(Finding("phase_sequence", "phase sequence A-C-B as labelled: lines B and C relabelled so that the "
-                                "analysis runs in the supply's own rotation", tuple(v_names or i_names), sev, "high",
-                                "corrected: B and C exchanged for the analysis; lines named as labelled", True))
+        findings.append(Finding("phase_sequence", "phase sequence A-C-B as labelled", tuple(v_names or i_names), sev, "high",
+                                "corrected: lines B and C exchanged so that the analysis runs in the supply's own "
+                                "rotation; lines named as labelled", True))
     if have_i:
         il = [combine(work[c], ph) for c in LINES]
         _, _, kind = classify(il, floor)
@@ -203,10 +208,16 @@ def check_hookup(capture: Capture, nameplate: Any = None, settings: HookupSettin
         findings = [dataclasses.replace(f, action=AS_RECORDED_ACTION, corrects=False) if f.corrects else f for f in findings]
         rules = []
         line_map = {"A": "A", "B": "B", "C": "C"}
-    ratio_note = ""
-    if s.as_recorded and any(f.check in ("phase_sequence", "voltage_polarity", "current_assignment") for f in fixes):
-        ratio_note = ("analysed as recorded with a hook-up error: the negative- over positive-sequence ratios "
-                      "(V2/V1, I2/I1) are not unbalance figures and are left out of the summary")
+    ratio_note, absent = "", set()
+    if s.as_recorded:
+        for f in fixes:
+            if f.check in ("phase_sequence", "voltage_polarity"):
+                absent |= {"V2_V1_pct", "I2_I1_pct", "V_unbal_nema_pct"} if f.check == "voltage_polarity" else {"V2_V1_pct", "I2_I1_pct"}
+            elif f.check in ("current_assignment", "dead_sensor", "missing_channel"):
+                absent |= {"I2_I1_pct"} if f.channels and f.channels[0].startswith("I") else {"V2_V1_pct", "V_unbal_nema_pct"}
+        if absent:
+            ratio_note = (f"analysed as recorded with a hook-up error: {', '.join(sorted(absent))} would not be unbalance "
+                          "figures and are left out of the summary")
     # the phasor diagram: the steadiest window with current and voltage
     rec_ph: dict[str, list[float]] = {}
     cor_ph: dict[str, list[float]] = {}
@@ -224,7 +235,7 @@ def check_hookup(capture: Capture, nameplate: Any = None, settings: HookupSettin
         phasors_corrected=cor_ph if rules else {},
         windows={"read": int(wp.n), "steady": int(steady.sum()), "cycles_each": s.window_cycles,
                  "frequency_hz": wp.frequency_hz, "t_s": [float(t) for t in wp.t_s]},
-        as_recorded=s.as_recorded, ratio_note=ratio_note)
+        as_recorded=s.as_recorded, ratio_note=ratio_note, absent_ratios=tuple(sorted(absent)))
     if not rules:
         return capture, result
     step = "hook-up correction: " + "; ".join(r.describe() for r in rules)

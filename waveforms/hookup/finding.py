@@ -30,6 +30,8 @@ class Finding:
         What was done ("corrected: Ib = -Ib", "none: ambiguous", "warning only").
     corrects : bool
         True when the finding's correction is applied to the capture.
+    label : str
+        A short fixed wording for counting across files ("clamp Ib reversed"); `what` when empty.
     """
 
     check: str
@@ -39,12 +41,17 @@ class Finding:
     confidence: str = "high"
     action: str = "warning only"
     corrects: bool = False
+    short: str = ""
+
+    @property
+    def label(self) -> str:
+        return self.short or self.what
 
     def to_dict(self) -> dict[str, Any]:
         from ..detect.event import plain
 
         return {"check": self.check, "what": self.what, "channels": list(self.channels), "evidence": plain(self.evidence),
-                "confidence": self.confidence, "action": self.action, "corrected": self.corrects}
+                "confidence": self.confidence, "action": self.action, "corrected": self.corrects, "label": self.label}
 
     def quality_note(self) -> dict[str, Any]:
         """The finding as a data-quality note (`waveforms.quality` layout)."""
@@ -73,7 +80,9 @@ class HookupResult:
     as_recorded : bool
         The user asked for the file as recorded: findings reported, nothing corrected.
     ratio_note : str
-        Why sequence ratios are meaningless as recorded ("" when they are fine).
+        Why some sequence ratios are meaningless as recorded ("" when they are fine).
+    absent_ratios : tuple of str
+        Those ratios' cycle-table column names (``I2_I1_pct`` ...), left out of summaries.
     """
 
     findings: tuple[Finding, ...] = ()
@@ -85,6 +94,7 @@ class HookupResult:
     windows: dict[str, Any] = dataclasses.field(default_factory=dict)
     as_recorded: bool = False
     ratio_note: str = ""
+    absent_ratios: tuple[str, ...] = ()
 
     @property
     def corrected(self) -> bool:
@@ -121,5 +131,5 @@ class HookupResult:
             "findings": [f.to_dict() for f in self.findings], "corrected": self.corrected, "as_recorded": self.as_recorded,
             "correction": [r.to_dict() for r in self.rules], "line_map": dict(self.line_map), "sequence": self.sequence,
             "phasors_recorded": self.phasors_recorded, "phasors_corrected": self.phasors_corrected,
-            "windows": self.windows, "ratio_note": self.ratio_note,
+            "windows": self.windows, "ratio_note": self.ratio_note, "absent_ratios": list(self.absent_ratios),
         })

@@ -35,7 +35,8 @@ def missing_currents(capture: Capture) -> tuple[dict[str, Terms], list[Finding],
         check="missing_channel", what=f"two-CT hook-up: {name} not recorded, derived as -({a} + {b})",
         channels=(a, b), evidence={"recorded": [a, b], "derived": name, "wiring": capture.wiring,
                                    "assumption": "" if three else CURRENT_ASSUMPTION},
-        confidence="high" if three else "medium", action=f"corrected: {name} = -({a} + {b})", corrects=True)
+        confidence="high" if three else "medium", action=f"corrected: {name} = -({a} + {b})", corrects=True,
+        short=f"two-CT hook-up ({name} derived)")
     return work, [f], [Channel(name, "current", gone, "line", "A", source_label=f"derived: -({a} + {b})")]  # type: ignore[arg-type]
 
 
@@ -52,6 +53,7 @@ def missing_line_voltage(capture: Capture) -> tuple[list[Finding], list[tuple[Ch
     f = Finding(
         check="missing_channel", what=f"open-delta (two-PT) hook-up: {name} not recorded, derived as -({a} + {b})",
         channels=(a, b), evidence={"recorded": [a, b], "derived": name, "rule": "Vab + Vbc + Vca = 0 (Kirchhoff)"},
-        confidence="high", action=f"corrected: {name} = -({a} + {b})", corrects=True)
+        confidence="high", action=f"corrected: {name} = -({a} + {b})", corrects=True,
+        short=f"open-delta hook-up ({name} derived)")
     ch = Channel(name, "voltage", gone, "LL", "V", source_label=f"derived: -({a} + {b})")  # type: ignore[arg-type]
     return [f], [(ch, {a: -1.0, b: -1.0})]

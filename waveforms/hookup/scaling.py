@@ -33,7 +33,7 @@ def scaling(i_level_a: np.ndarray, lag_deg: np.ndarray, v_ll_v: np.ndarray, fla_
             out.append(Finding("scaling", f"steady running current {pu:.2f} x FLA: CT ratio or nameplate suspect",
                                tuple(i_names), {"running_current_a": float(np.median(i_level_a[run])), "fla_a": fla_a,
                                                 "current_pu_fla": pu, "band_pu": list(CURRENT_BAND_PU), "windows": int(run.sum())},
-                               "medium", "warning only"))
+                               "medium", "warning only", short="CT ratio or nameplate suspect"))
     v = v_ll_v[np.isfinite(v_ll_v) & (v_ll_v > 0)]
     if declared_v and v.size:
         pu = float(np.median(v)) / declared_v
@@ -41,5 +41,5 @@ def scaling(i_level_a: np.ndarray, lag_deg: np.ndarray, v_ll_v: np.ndarray, fla_
             out.append(Finding("scaling", f"line-to-line voltage {pu:.2f} x the declared {declared_v:.0f} V: PT ratio or nameplate suspect",
                                tuple(v_names), {"voltage_ll_v": float(np.median(v)), "declared_v": declared_v, "voltage_pu": pu,
                                                 "band_pu": list(VOLTAGE_BAND), "windows": int(v.size)},
-                               "medium", "warning only"))
+                               "medium", "warning only", short="PT ratio or nameplate suspect"))
     return out

@@ -112,7 +112,9 @@ def dead_sensors(work: dict[str, Terms], names: list[str], i_line: list[np.ndarr
             if wiring != "3-wire":
                 ev["assumption"] = CURRENT_ASSUMPTION
             found.append(Finding("dead_sensor", what, (name,), ev, "high" if wiring == "3-wire" else "medium",
-                                 f"corrected: {name} = -({o_names}) over the whole capture", True))
+                                 f"corrected: {name} = -({o_names}) over the whole capture", True,
+                                 short=f"current sensor {name} dead"))
         else:
-            found.append(Finding("dead_sensor", what, (name,), ev, "medium", "none: the zero sum cannot be assumed", False))
+            found.append(Finding("dead_sensor", what, (name,), ev, "medium", "none: the zero sum cannot be assumed", False,
+                                 short=f"current sensor {name} dead"))
     return out, found

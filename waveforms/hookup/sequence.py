@@ -69,7 +69,8 @@ def voltage_polarity(names: list[str], reference: str, phasors: dict, live: np.n
     res = np.median(np.abs(x[0] + x[1] + x[2]) / np.mean([np.abs(v) for v in x], axis=0))
     ev = {"residual_as_recorded_pu": float(res), "residual_reversed_pu": float(np.median(np.abs(sum(xs)) / np.mean([np.abs(v) for v in x], axis=0))),
           "balance_as_recorded": base, "balance_with_reversal": flips[j], "windows": int(live.sum())}
-    return chan, [Finding("voltage_polarity", f"voltage channel {n} reversed", (n,), ev, "high", f"corrected: {n} = -{n}", True)]
+    return chan, [Finding("voltage_polarity", f"voltage channel {n} reversed", (n,), ev, "high", f"corrected: {n} = -{n}", True,
+                         short=f"voltage channel {n} reversed")]
 
 
 def phase_sequence(xa: np.ndarray, xb: np.ndarray, xc: np.ndarray, what: str) -> tuple[str, dict]:
