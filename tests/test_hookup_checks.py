@@ -134,3 +134,42 @@ def test_scaling_wrong_ct_ratio():
     _, res = check_hookup(rebuild(cap, d), cap.nameplate)
     assert [f.check for f in res.findings] == ["scaling"]
     assert "CT ratio or nameplate suspect" in res.findings[0].what and not res.findings[0].corrects
+
+
+@pytest.mark.parametrize("name", ["Ib negated", "Ia negated"])
+def test_reversed_clamp_without_voltages_by_the_zero_sum(name):
+    # Kirchhoff: a motor's three line currents sum to zero; one reversed leaves twice a line current
+    # (Fortescue 1918: residual 3|X0| = 2 x the phase value)
+    from _hookup_support import arrays, rebuild
+
+    cap = fault(_sample(SAMPLE_FILES[[p.stem for p in SAMPLE_FILES].index("dol_start")]), name)
+    d = arrays(cap)
+    only_i = rebuild(cap, d, drop=("Va", "Vb", "Vc"))
+    _, res = check_hookup(only_i)
+    (f,) = res.findings
+    assert f.check == "current_assignment" and f.channels == (name[:2],) and f.corrects
+    assert f.evidence["residual_as_recorded_pu"] == pytest.approx(2.0, abs=0.05)
+
+
+def test_reversed_clamp_residual_with_voltages():
+    cap = fault(_sample(SAMPLE_FILES[[p.stem for p in SAMPLE_FILES].index("healthy_run")]), "Ib negated")
+    _, res = check_hookup(cap)
+    ev = res.findings[0].evidence
+    assert ev["residual_as_recorded_pu"] == pytest.approx(2.0, abs=0.05) and ev["residual_as_corrected_pu"] < 0.05
+
+
+@pytest.mark.parametrize("machine, volts, torque", [("3hp", 220.0, 0.0), ("3hp", 220.0, 12.0), ("50hp", 460.0, 150.0)])
+def test_simulated_motors_no_load_to_full_load(machine, volts, torque):
+    # Krause, Wasynczuk & Sudhoff example machines (tests/_motor_support.py; table number from memory), simulated at
+    # no load (lag near 90 deg, the edge of the motoring range) and loaded: no finding as wired, each fault named
+    from _motor_support import KRAUSE_3HP, KRAUSE_50HP, scenario
+    from waveforms.sim.simulate import simulate
+
+    m = {"3hp": KRAUSE_3HP, "50hp": KRAUSE_50HP}[machine]
+    cap, _ = simulate(scenario(m, volts, duration_s=1.5, fs=6000.0, initial={"state": "steady"},
+                               load={"kind": "constant", "torque_n_m": torque}))
+    assert check_hookup(cap)[1].findings == ()
+    for name in ("Ib negated", "moved", "moved back", "Ia/Ib swapped", "A-C-B", "dead Ib", "two-CT"):
+        res = check_hookup(fault(cap, name))[1]
+        assert [f.check for f in res.findings] == [EXPECTED_CHECK[name]], (name, [f.what for f in res.findings])
+        assert res.findings[0].corrects

@@ -114,6 +114,10 @@ def search(work: dict[str, Terms], names: list[str], v_line: dict[str, np.ndarra
                              tuple(names), ev, "low", "none: ambiguous, analysed as recorded", False,
                              short="clamp assignment ambiguous"), ev
     new = {LINES[k]: scaled(work[LINES[p[k]]], float(s[k])) for k in range(3)}
+    if any(v < 0 for v in s):  # a reversed clamp also shows in the zero sum: about twice a line current (Fortescue)
+        level = np.mean([np.abs(x) for x in i_rec], axis=0)
+        ev["residual_as_recorded_pu"] = float(np.median(np.abs(i_rec[0] + i_rec[1] + i_rec[2]) / level))
+        ev["residual_as_corrected_pu"] = float(np.median(np.abs(sum(s[k] * i_rec[p[k]] for k in range(3))) / level))
     rule = ", ".join(f"I{LINES[k].lower()} = {'-' if s[k] < 0 else ''}{names[p[k]]}" for k in range(3)
                      if not (p[k] == k and s[k] > 0))
     conf = "high" if cost <= 2 and not regen else "medium"

@@ -140,6 +140,17 @@ def _check(capture: Capture, nameplate: Any, s: HookupSettings) -> tuple[Capture
         vl = {c: combine(vl_terms[c], ph) for c in LINES}
         sequence, sev = phase_sequence(vl["A"][live_v], vl["B"][live_v], vl["C"][live_v], "voltages")
     elif have_i:
+        if all(len(work[c]) == 1 for c in LINES):
+            # no voltages: a reversed clamp by its siblings alone -- the three line currents of a motor sum to zero
+            # (Kirchhoff), a reversed one leaves a residual of twice a line current
+            flipped, cpol = voltage_polarity(i_names, "LL", ph, three0)
+            for f in cpol:
+                n = f.channels[0]
+                work = {c: (flipped[n] if next(iter(work[c])) == n else work[c]) for c in LINES}
+                findings.append(dataclasses.replace(f, check="current_assignment", what=f"current clamp {n} reversed",
+                                                    short=f"current clamp {n} reversed",
+                                                    evidence=dict(f.evidence, basis="no voltages: the zero sum of the currents")))
+            il = [combine(work[c], ph) for c in LINES]
         sequence, sev = phase_sequence(il[0][three0], il[1][three0], il[2][three0], "currents")
     else:
         sev = {}
