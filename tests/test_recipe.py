@@ -53,7 +53,7 @@ def test_triage_skips_html_report_and_investigate_writes_it():
     assert tri.params("report")["html"] is False
     assert "speed" not in tri.stage_names
     assert inv.params("report")["html"] is True
-    assert inv.stage_names == ("import", "measure", "speed", "detect", "thermal", "report")
+    assert inv.stage_names == ("import", "hookup", "measure", "speed", "detect", "thermal", "report")
 
 
 # -- validation errors name the file and the key -------------------------------------------

@@ -70,6 +70,8 @@ class AnalysisResult:
         Package and library versions.
     timings_s : dict
         Wall time per step [s].
+    hookup : HookupResult or None
+        What the hook-up check found and corrected (`waveforms.hookup`); None when it did not run.
     """
 
     capture: Capture
@@ -86,6 +88,7 @@ class AnalysisResult:
     parameters: dict
     versions: dict
     timings_s: dict
+    hookup: Any = None
 
     @property
     def cycles(self) -> pd.DataFrame:
@@ -434,15 +437,17 @@ def analysis_parameters(
 def build_result(
     capture: Capture, nameplate: Nameplate | None, measurements: Any, *, speed: pd.DataFrame | None,
     events: list[Event], thermal: ThermalResult | None, states: pd.DataFrame, timeline: pd.DataFrame,
-    notes: list[str], quality: list[dict], parameters: dict, timings_s: dict,
+    notes: list[str], quality: list[dict], parameters: dict, timings_s: dict, hookup: Any = None,
 ) -> AnalysisResult:
     """The `AnalysisResult`, with the verdict written from the events, thermal result and quality warnings."""
     n_warn = sum(1 for q in quality if q.get("severity") == "warning")
     verdict = verdict_text(events, thermal, timeline, capture.start_time, nameplate, n_warn)
+    lead = "" if hookup is None else hookup.sentence()  # hook-up errors open the verdict (waveforms.hookup)
+    verdict = f"{lead} {verdict}" if lead else verdict
     return AnalysisResult(
         capture=capture, nameplate=nameplate, measurements=measurements, speed=speed, events=list(events),
         thermal=thermal, states=states, timeline=timeline, verdict=verdict, notes=list(notes), quality=list(quality),
-        parameters=dict(parameters), versions=versions(), timings_s=dict(timings_s),
+        parameters=dict(parameters), versions=versions(), timings_s=dict(timings_s), hookup=hookup,
     )
 
 
@@ -457,6 +462,7 @@ def analyze(
     detectors: tuple[str, ...] | None = None,
     quality: bool = True,
     measure_options: dict[str, Any] | None = None,
+    as_recorded: bool = False,
 ) -> AnalysisResult:
     """Analyse one capture: events, speed, thermal stress and a verdict.
 
@@ -484,6 +490,9 @@ def analyze(
         Gather data-quality notes (from the measurement pass; no extra read).
     measure_options : dict, optional
         Keys of the measure stage (``chunk_samples``, ``overlap_cycles``).
+    as_recorded : bool
+        Analyse the capture exactly as recorded: hook-up findings are reported,
+        nothing is corrected (`waveforms.hookup`).
 
     Returns
     -------
@@ -497,6 +506,8 @@ def analyze(
     tables = {"import": {"quality": bool(quality)}, "measure": dict(measure_options or {}),
               "speed": {**(speed_options or {}), "enabled": bool(speed)}, "detect": det,
               "thermal": {} if thermal_params is None else dataclasses.asdict(thermal_params)}
+    if as_recorded:
+        tables["hookup"] = {"as_recorded": True}
     rec = default_recipe().without("report")
     try:
         for stage, values in tables.items():

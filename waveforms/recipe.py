@@ -111,6 +111,8 @@ class RunState:
     states: Any = None
     timeline: Any = None
     thermal: Any = None
+    #: what the ``hookup`` stage found and did (`waveforms.hookup.HookupResult`), None when it did not run
+    hookup: Any = None
     quality: list[dict[str, Any]] = dataclasses.field(default_factory=list)
     parameters: dict[str, Any] = dataclasses.field(default_factory=dict)
     #: the settings objects the stages used (DetectParams, ThermalParams, speed options ...), from which
@@ -569,7 +571,7 @@ def _assemble_analysis(state: RunState) -> None:
     state.analysis = build_result(
         state.capture, state.nameplate, state.measurements, speed=state.speed, events=state.events,
         thermal=state.thermal, states=state.states, timeline=state.timeline, notes=state.notes,
-        quality=state.quality, parameters=state.parameters, timings_s=state.timings_s,
+        quality=state.quality, parameters=state.parameters, timings_s=state.timings_s, hookup=state.hookup,
     )
 
 
@@ -761,6 +763,10 @@ def _stage_detect(state: RunState, params: dict[str, Any]) -> None:
     choice, dparams = get_stage("detect").build(params)
     state.events, state.states, state.timeline, notes = detect_events(
         state.capture, state.measurements, state.speed, state.nameplate, dparams, choice.detectors)
+    if state.hookup is not None:  # lines relabelled for the supply's rotation are named as labelled in the file
+        from .hookup.stage import as_labelled
+
+        state.events = as_labelled(state.events, state.hookup)
     state.notes.extend(notes)
     state.settings["detect"] = dparams
     state.settings["detectors"] = choice.detectors
@@ -823,6 +829,9 @@ def _register_builtin() -> None:
         name="import", description="read the capture file (format recognised unless given) and attach the nameplate",
         run=_stage_import, settings=(ImportSettings,), library="waveforms.io:read_capture",
     ))
+    from .hookup.stage import register_hookup_stage
+
+    register_hookup_stage()
     register_stage(Stage(
         name="measure", description="per-cycle phasors, RMS, sequence components, unbalance, power; Urms(1/2); harmonics",
         run=_stage_measure, settings=(MeasureSettings,), needs=("import",), library="waveforms.measure:measure",

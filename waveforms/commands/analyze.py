@@ -66,11 +66,14 @@ def _reading(rec: Recipe, fmt: str | None, options: ReadOptions) -> tuple[str | 
 @click.option("--k-neg", "k_neg", type=float, help="Negative-sequence heating weight K (default 175 / I_LR^2, IEEE C37.96).")
 @click.option("--relay-setting", "relay_setting_a", type=float, help="Overload relay current setting [A] (default: nameplate FLA).")
 @click.option("--hot-start", is_flag=True, help="Start the thermal models from rated-current steady state instead of cold.")
+@click.option("--as-recorded", "as_recorded", is_flag=True,
+              help="Analyse the file exactly as recorded: report hook-up errors (reversed or moved clamps, A-C-B labels, "
+                   "dead sensors) but do not correct them.")
 @threads_option
 @read_options
 def command(capture: str, motor: str | None, out_dir: str, recipe_name: str, no_html: bool, cycles: str, no_speed: bool,
             speed_window_s: float | None, motor_tau_s: float | None, k_neg: float | None, relay_setting_a: float | None,
-            hot_start: bool, threads: int | None, **kw: Any) -> None:
+            hot_start: bool, threads: int | None, as_recorded: bool = False, **kw: Any) -> None:
     """Find open phase, stall, starts, dips and unbalance in CAPTURE; judge thermal stress; write a report.
 
     The report informs; it does not replace protective devices. Work on
@@ -97,6 +100,8 @@ def command(capture: str, motor: str | None, out_dir: str, recipe_name: str, no_
                             (relay_setting_a, "relay_setting_a", "--relay-setting"), (True if hot_start else None, "hot_start", "--hot-start")):
         if value is not None:
             rec = _set(rec, "thermal", {key: value}, opt)
+    if as_recorded:
+        rec = _set(rec, "hookup", {"as_recorded": True}, "--as-recorded")
     fmt, options = _reading(rec, fmt, options)
     from ..io.csv_stream import open_capture
 

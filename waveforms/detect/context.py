@@ -22,6 +22,8 @@ from ..errors import InvalidParameterError
 from ..settings import check_fields, setting
 
 LINES = ("A", "B", "C")
+#: With one line open the other two currents are in antiphase (Kirchhoff); allowed departure [deg] (our choice)
+ANTIPHASE_TOL_DEG = 30.0
 
 
 @dataclasses.dataclass(frozen=True)
@@ -242,6 +244,11 @@ class DetectionInput:
             big = np.maximum(o1, o2)
             # one line open: the other two carry equal and opposite currents (Kirchhoff's current law)
             pair_ok = np.abs(o1 - o2) <= p.pair_balance * np.maximum(big, 1e-12)
+            # ... and opposite: 180 deg apart.  A dead sensor leaves them 120 deg apart (waveforms.hookup.sensors)
+            p1, p2 = self.i_phasor(LINES[(j + 1) % 3]), self.i_phasor(LINES[(j + 2) % 3])
+            if p1 is not None and p2 is not None:
+                with np.errstate(all="ignore"):
+                    pair_ok &= ~(np.abs(np.angle(-p1 / p2, deg=True)) > ANTIPHASE_TOL_DEG)
             out[:, j] = (m[:, j] < p.dead_line_frac * big) & (big > thr) & pair_ok
         return out
 

@@ -56,6 +56,14 @@ TEMPLATE = r"""<!DOCTYPE html>
  <p class="lead">Findings from recorded waveforms only; to be confirmed by qualified people (see the cautions at the end).</p>
 </section>
 
+{% if hookup %}<section id="hookup"><h2>Logger hook-up</h2>
+ <p class="lead">{% if hookup.as_recorded %}Analysed exactly as recorded (as_recorded): nothing was corrected.{% elif hookup.corrected %}Corrected before the analysis: {{ hookup.correction }}.{% else %}Nothing corrected.{% endif %}</p>
+ <table><thead><tr><th>check</th><th>finding</th><th>channels</th><th>confidence</th><th>action</th></tr></thead>
+ <tbody>{% for f in hookup.findings %}<tr><td>{{ f.check }}</td><td>{{ f.what }}</td><td>{{ f.channels|join(", ") }}</td><td>{{ f.confidence }}</td><td>{{ f.action }}</td></tr>{% endfor %}</tbody></table>
+ <details><summary>Evidence</summary>{% for f in hookup.findings %}<p><b>{{ f.check }}</b></p><pre>{{ f.evidence_json }}</pre>{% endfor %}</details>
+ {% if fig.hookup %}<img src="{{ fig.hookup }}" alt="phasors as recorded and as corrected">{% endif %}
+</section>
+{% endif %}
 <section id="timeline"><h2>Timeline</h2>
  <p class="lead">Motor state per cycle: three-phase, single-phased, stalled, de-energised; events beneath.</p>
  <img alt="timeline of motor states and events" src="{{ fig.timeline }}">
@@ -167,7 +175,13 @@ def render(res: AnalysisResult, doc: dict[str, Any], figures: dict[str, str | No
     prov = doc["provenance"]
     pc = prov["capture"]
     ch = [f"{c.source_label or c.name} \u2192 {c.label}" for c in cap.channels]
+    hk = doc.get("hookup")
+    hookup = None if hk is None else {
+        "as_recorded": hk["as_recorded"], "corrected": hk["corrected"], "correction": "; ".join(r["rule"] for r in hk["correction"]),
+        "findings": [dict(f, evidence_json=json.dumps(f["evidence"], indent=1, ensure_ascii=False)) for f in hk["findings"]],
+    }
     ctx = {
+        "hookup": hookup,
         "file_name": (pc.get("source_path") or "(in memory)"),
         "start_time": doc["capture"]["start_time"], "duration": f"{cap.duration_s:.3f} s",
         "rate": f"{cap.sample_rate_hz:g} samples/s", "channels": ", ".join(c.label for c in cap.channels),

@@ -331,4 +331,8 @@ def all_figures(res: AnalysisResult) -> dict[str, str | None]:
     out["spectrum"] = None if fig is None else data_uri(png_bytes(fig))
     out["spectrum_caption"] = caption
     out["phasors_caption"] = phasor_instants(res)[2]
+    from .hookup_plot import hookup_figure
+
+    fig = hookup_figure(res)
+    out["hookup"] = None if fig is None else data_uri(png_bytes(fig))
     return out

@@ -148,6 +148,14 @@ def result_dict(res: AnalysisResult, generated_at: _dt.datetime | None = None) -
         },
         "cautions": list(SAFETY_CAUTIONS),
     }
+    hk = getattr(res, "hookup", None)
+    if hk is not None and hk.findings:  # present only when the hook-up check found something (docs/hookup.md)
+        doc["hookup"] = hk.to_dict()
+        if hk.ratio_note:  # meaningless as recorded: absent, with the reason
+            for key in list(doc["summary"]):
+                if key.endswith(hk.absent_ratios):
+                    doc["summary"][key] = None
+            doc["summary"]["sequence_ratios_absent"] = hk.ratio_note
     return plain(doc)
 
 

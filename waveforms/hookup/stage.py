@@ -1,0 +1,53 @@
+"""The ``hookup`` recipe stage (between ``import`` and ``measure``) and what the later stages take from it.
+
+The stage runs `check_hookup` on the imported capture, puts the corrected
+capture in its place (unless ``as_recorded``), adds one data-quality
+warning per finding and keeps the `HookupResult` on the run state for the
+verdict, result.json, the report and the summary.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from typing import Any
+
+from .check import HookupSettings, check_hookup
+from .finding import HookupResult
+
+
+def run_stage(state: Any, params: dict[str, Any]) -> None:
+    from ..recipe import get_stage
+
+    (s,) = get_stage("hookup").build(params)
+    state.capture, state.hookup = check_hookup(state.capture, state.nameplate, s)
+    state.quality.extend(f.quality_note() for f in state.hookup.findings)
+    if state.hookup.findings and not state.hookup.corrected and not s.as_recorded:
+        state.notes.append("hook-up: evidence ambiguous, nothing corrected; findings that depend on the current-voltage "
+                           "angles (open-point location, power, power factor) are less certain")
+
+
+def register_hookup_stage() -> None:
+    from ..recipe import Stage, register_stage
+
+    register_stage(Stage(
+        name="hookup",
+        description="logger hook-up check: phase sequence, reversed or moved clamps, dead sensors, two-CT/open-delta, "
+                    "scaling; unambiguous errors corrected (as_recorded = analyse the file as it is)",
+        run=run_stage, settings=(HookupSettings,), needs=("import",), library="waveforms.hookup:check_hookup",
+    ))
+
+
+def as_labelled(events: list, hookup: HookupResult | None) -> list:
+    """Events with their line named as labelled in the file (after an A-C-B relabelling)."""
+    if hookup is None or not hookup.relabelled:
+        return events
+    out = []
+    for e in events:
+        if e.phase is None or hookup.labelled(e.phase) == e.phase:
+            out.append(e)
+            continue
+        lab = hookup.labelled(e.phase)
+        figs = dict(e.figures, line_as_analysed=e.phase)
+        summary = e.summary.replace(f"line {e.phase} ", f"line {lab} ")
+        out.append(dataclasses.replace(e, phase=lab, figures=figs, summary=summary))
+    return out
