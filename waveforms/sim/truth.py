@@ -16,6 +16,13 @@ All instants are seconds from the capture start (sample 0).  Definitions
 * ``stall``: energised with ``|speed|`` below 5 % of synchronous speed for at
   least 0.2 s; ``start_s`` is the energisation instant when the rotor never
   turned, else the instant the speed fell below 5 %.
+  Two more instants (issue 12): ``pull_out_s``, where the motor could no
+  longer carry its load -- the start of the deceleration that ends in the
+  stall, i.e. the first instant after which the one-cycle mean of the torque
+  balance ``T_e - T_L - B w`` stays negative (more than 1 % of the load
+  torque) -- None when the rotor never turned; and ``rest_s``, the first
+  instant with ``|speed|`` at or below 1 % of synchronous speed (the rotor at
+  standstill).
 * ``dip`` / ``swell`` / ``interruption``: the source EMF events of the
   scenario (residual < 0.9 pu dip, < 0.1 pu interruption, > 1.1 pu swell),
   with the instants of the EMF change.  What a logger at the motor measures
@@ -42,6 +49,8 @@ from .simulate import Simulation
 
 STALL_SPEED_PU = 0.05
 STALL_MIN_S = 0.2
+REST_SPEED_PU = 0.01
+PULL_OUT_NET_TORQUE_FRAC = 0.01
 START_MAX_SPEED_PU = 0.5
 START_END_SPEED_PU = 0.9
 TRACK_STEP_S = 0.01
@@ -71,6 +80,29 @@ def _runs(mask: np.ndarray) -> list[tuple[int, int]]:
     """Index ranges [i0, i1) where ``mask`` is True."""
     d = np.diff(np.concatenate(([0], mask.astype(np.int8), [0])))
     return list(zip(np.nonzero(d == 1)[0].tolist(), np.nonzero(d == -1)[0].tolist(), strict=True))
+
+
+def _stall_instants(sim: Simulation, a: int, near_energisation: bool) -> tuple[float | None, float | None]:
+    """(pull_out_s, rest_s) of the stall whose slow run starts at sample ``a`` (see the module docstring)."""
+    sc = sim.scenario
+    t, w = sim.t_s, sim.omega_m_rad_s
+    ws = sc.machine.synchronous_speed_rad_s(sc.supply.f_hz)
+    fs = sc.logger.sample_rate_hz
+    n = max(1, int(round(fs / sc.supply.f_hz)))
+    slow = np.abs(w) <= REST_SPEED_PU * ws
+    after = np.flatnonzero(slow[a:])
+    rest = float(t[a + after[0]]) if after.size else None
+    if near_energisation:
+        return None, rest
+    net = sim.torque_n_m - sim.load_torque_n_m - sc.machine.friction_n_m_s * w  # J dw/dt (Krause ch. 4 mechanical equation)
+    cs = np.concatenate(([0.0], np.cumsum(net[: a + 1])))
+    ct = np.concatenate(([0.0], np.cumsum(np.abs(sim.load_torque_n_m[: a + 1]))))
+    net_m = (cs[n:] - cs[:-n]) / n  # trailing one-cycle mean ending at each sample: a single-phased motor's 2 f1 pulsation cancels
+    tl_m = (ct[n:] - ct[:-n]) / n
+    ok = net_m >= -PULL_OUT_NET_TORQUE_FRAC * np.maximum(tl_m, 1e-9)
+    last = np.flatnonzero(ok)
+    # the deceleration's first sample: after the last cycle whose mean balance was not negative
+    return (float(t[last[-1] + n]) if last.size and last[-1] + n <= a else None), rest
 
 
 def events(sim: Simulation) -> list[dict[str, Any]]:
@@ -131,7 +163,9 @@ def events(sim: Simulation) -> list[dict[str, Any]]:
         if t1 is not None:
             exact = [x for x in deenerg_instants if t[b - 1] < x <= t[b]]
             t1 = exact[0] if exact else t1
+        pull_out, rest = _stall_instants(sim, a, near_energisation=bool(near))
         out.append({"kind": "stall", "phase": None, "start_s": _f(t0), "end_s": _f(t1),
+                    "pull_out_s": _f(pull_out), "rest_s": _f(rest),
                     "speed_threshold_pu": STALL_SPEED_PU,
                     "rms_current_a": _f(float(np.sqrt(np.mean(sim.i_line_smooth_a[:, a:b] ** 2, axis=1)).max()), 3)})
     # supply events
