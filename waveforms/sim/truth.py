@@ -11,7 +11,7 @@ All instants are seconds from the capture start (sample 0).  Definitions
   reported.
 * ``start``: energisation (two or more lines closed after fewer) with the
   rotor below half of synchronous speed; ``end_s`` is the first instant the
-  speed reaches 90 % of synchronous speed, None if it never does
+  speed (in either direction) reaches 90 % of synchronous speed, None if it never does
   (``outcome`` = "failed").
 * ``stall``: energised with ``|speed|`` below 5 % of synchronous speed for at
   least 0.2 s; ``start_s`` is the energisation instant when the rotor never
@@ -146,7 +146,7 @@ def events(sim: Simulation) -> list[dict[str, Any]]:
         if i0 >= t.size or abs(sim.omega_m_rad_s[i0]) >= START_MAX_SPEED_PU * ws:
             continue
         run_end = next((b for a, b in _runs(energised) if a <= i0 < b), t.size)
-        reach = np.nonzero(sim.omega_m_rad_s[i0:run_end] >= START_END_SPEED_PU * ws)[0]
+        reach = np.nonzero(np.abs(sim.omega_m_rad_s[i0:run_end]) >= START_END_SPEED_PU * ws)[0]  # either direction
         lines = "".join(c for c, on in zip("ABC", sim.closed[:, i0], strict=True) if on)
         peak = float(np.max(np.abs(sim.i_line_smooth_a[:, i0 : min(run_end, i0 + int(fs / f1 * 3))]))) if run_end > i0 else 0.0
         out.append({"kind": "start", "phase": None, "start_s": _f(te), "end_s": _f(t[i0 + reach[0]]) if reach.size else None,
@@ -249,7 +249,7 @@ def window(sim: Simulation, name: str, start_s: float, end_s: float) -> dict[str
     inema = 100 * np.max(np.abs(imag_ - imag_.mean())) / imag_.mean() if imag_.mean() > 0 else math.nan
     ws = sc.machine.synchronous_speed_rad_s(f1)
     wm = float(np.mean(sim.omega_m_rad_s[sl]))
-    slip = 1 - wm / ws
+    slip = 1 - abs(wm) / ws  # relative to the rotor's own running direction, as the tool reports it
     p_w = float(np.mean(np.sum(sim.v_logger_v[:, sl] * sim.i_line_smooth_a[:, sl], axis=0)))
     out: dict[str, Any] = {
         "name": name, "start_s": start_s, "end_s": end_s, "frequency_hz": f1,
@@ -293,7 +293,7 @@ def speed_track(sim: Simulation) -> dict[str, list]:
     return {
         "t_s": np.round(t_c, 6).tolist(),
         "rpm": np.round(wm * 60 / (2 * np.pi), 4).tolist(),
-        "slip": np.round(1 - wm / ws, 6).tolist(),
+        "slip": np.round(1 - np.abs(wm) / ws, 6).tolist(),  # relative to the rotor's own direction; rpm is signed
         "f_rotor_hz": np.round(wm / (2 * np.pi), 5).tolist(),
         "torque_n_m": np.round(blk(sim.torque_n_m), 3).tolist(),
         "load_torque_n_m": np.round(blk(sim.load_torque_n_m), 3).tolist(),
