@@ -150,7 +150,7 @@ def rotation_direction(
         ["no_current", "inconsistent", "three_phase", single_label, "single_phased_no_voltage"],
         default="",
     )
-    rot = np.array([ROTATION[s] for s in seq], dtype=object)
+    rot = np.select([seq == "ABC", seq == "ACB"], [ROTATION["ABC"], ROTATION["ACB"]], default="").astype(object)
     return pd.DataFrame({"v_sequence": vs, "i_sequence": cs, "basis": basis.astype(object), "rotation": rot})
 
 
@@ -268,9 +268,11 @@ def cycle_direction(cycles: pd.DataFrame, open_point=None, supply: str | None = 
         sup, how = supply, "given"
     else:
         raise InvalidParameterError(f"supply={supply!r} must be 'ABC', 'ACB' or None")
-    seq = np.array([{"forward": "ABC", "reverse": "ACB"}.get(r, "") for r in rot["rotation"]], dtype=object)
+    r = rot["rotation"].to_numpy(object)
+    seq = np.select([r == "forward", r == "reverse"], ["ABC", "ACB"], default="").astype(object)
     direction = np.where(seq == "", "unknown", np.where(seq == sup, "forward", "reverse")).astype(object)
-    basis = np.array([_BASIS_OF_ROTATION.get(b, "no_current") for b in rot["basis"]], dtype=object)
+    rb = rot["basis"].to_numpy(object)
+    basis = np.select([rb == k for k in _BASIS_OF_ROTATION], list(_BASIS_OF_ROTATION.values()), default="no_current").astype(object)
     basis = np.where((seq == "") & np.isin(basis, ["three_phase_sequence", "regenerated_voltage"]), "no_dominant_sequence", basis)
     out = pd.DataFrame({"t_s": rot["t_s"].to_numpy(float), "rotor_sequence": seq, "direction": direction,
                         "direction_basis": basis.astype(object)})
@@ -289,28 +291,34 @@ def interval_direction(per_cycle: pd.DataFrame, t0_s, t1_s, min_share: float = 0
     t1 = np.atleast_1d(np.asarray(t1_s, dtype=float))
     t = per_cycle["t_s"].to_numpy(float)
     d = per_cycle["direction"].to_numpy(object)
-    b = per_cycle["direction_basis"].to_numpy(object)
-    fwd = np.concatenate(([0], np.cumsum(d == "forward")))
-    rev = np.concatenate(([0], np.cumsum(d == "reverse")))
-    live = np.concatenate(([0], np.cumsum(b != "no_current")))
+    names, code = np.unique(per_cycle["direction_basis"].to_numpy(object).astype(str), return_inverse=True)
     lo, hi = np.searchsorted(t, t0, side="left"), np.searchsorted(t, t1, side="right")
-    n_f, n_r, n_live = fwd[hi] - fwd[lo], rev[hi] - rev[lo], live[hi] - live[lo]
+
+    def count(mask: np.ndarray) -> np.ndarray:
+        c = np.concatenate(([0], np.cumsum(mask, dtype=np.int64)))
+        return c[hi] - c[lo]
+
+    cls = {"forward": d == "forward", "reverse": d == "reverse", "unknown": d == "unknown"}
+    n_f, n_r = count(cls["forward"]), count(cls["reverse"])
+    # per interval and basis: cycles of each direction class (a handful of bases, so a loop over them)
+    by = {k: np.stack([count(m & (code == j)) for j in range(names.size)], axis=1) if names.size else np.zeros((t0.size, 0), int)
+          for k, m in cls.items()}
+    no_cur = names == "no_current"
+    n_live = (by["forward"] + by["reverse"] + by["unknown"])[:, ~no_cur].sum(axis=1)
     out_d = np.full(t0.size, "unknown", dtype=object)
     out_b = np.full(t0.size, "no_current", dtype=object)
-    for k in range(t0.size):  # one per window or period (tens), not per sample
-        if n_f[k] and n_r[k]:
-            out_b[k] = "changed_within_window"
-        elif (n_f[k] or n_r[k]) and (n_f[k] + n_r[k]) >= min_share * max(n_live[k], 1):
-            out_d[k] = "forward" if n_f[k] else "reverse"
-            sel = b[lo[k]:hi[k]][d[lo[k]:hi[k]] == out_d[k]]
-            vals, cnt = np.unique(sel.astype(str), return_counts=True)
-            out_b[k] = str(vals[np.argmax(cnt)])
-        elif hi[k] > lo[k]:
-            sel = b[lo[k]:hi[k]].astype(str)
-            if n_live[k]:
-                sel = sel[(sel != "no_current") & (d[lo[k]:hi[k]] == "unknown")]
-            vals, cnt = np.unique(sel, return_counts=True)
-            out_b[k] = str(vals[np.argmax(cnt)]) if vals.size else "no_current"
+    both = (n_f > 0) & (n_r > 0)
+    given = ~both & ((n_f + n_r) > 0) & ((n_f + n_r) >= min_share * np.maximum(n_live, 1))
+    out_d[given] = np.where(n_f[given] > 0, "forward", "reverse")
+    if names.size:
+        best_given = np.where((n_f > 0)[:, None], by["forward"], by["reverse"]).argmax(axis=1)
+        unk = np.where(no_cur[None, :], 0, by["unknown"])
+        best_unknown = np.where(unk.sum(axis=1) > 0, unk.argmax(axis=1), -1)
+        rest = ~both & ~given & (hi > lo)
+        out_b[given] = names[best_given[given]]
+        pick = rest & (best_unknown >= 0)
+        out_b[pick] = names[best_unknown[pick]]
+    out_b[both] = "changed_within_window"
     return out_d, out_b
 
 

@@ -56,7 +56,7 @@ from .spectrum import (
     refine_peak,
     window_spectrum,
 )
-from .spectrum import _window
+from .spectrum import _window  # the speed spectra's own Blackman-Harris window
 
 TRACK_COLUMNS: tuple[str, ...] = (
     "t_s", "t_start_s", "t_end_s", "f_supply_hz", "slip", "rpm", "f_rotor_hz", "component",
