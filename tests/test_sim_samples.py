@@ -27,6 +27,7 @@ EXPECTED = {
     "jam": {"stall"},
     "open_phase_restored": {"open_phase"},
     "open_phase_50hz": {"open_phase"},
+    "pushed_reverse": {"open_phase", "start"},
 }
 
 

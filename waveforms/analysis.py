@@ -211,10 +211,19 @@ def verdict_text(
             what = f"the motor kept running single-phased, then stalled at {_t(start, f.get('stalled_at_s'))}"
         else:
             what = f"the motor kept running single-phased, drawing {f.get('live_line_current_pu_fla', float('nan')):.1f} x FLA on the other two lines"
+        if f.get("rotation") == "reverse":
+            what += ", running in reverse (against the supply's phase sequence, from the regenerated voltage's sequence)" \
+                if f.get("rotation_basis") == "regenerated_voltage" else ", running in reverse (against the supply's phase sequence)"
         end = f.get("ended_by")
         tail = {"phase returned": f"; the line returned at {_t(start, e.end_s)}",
                 "de-energised": f"; the motor was de-energised at {_t(start, e.end_s)}"}.get(end, "; it was still open at the end of the capture")
         parts.append(f"Line {e.phase} {when}, {where}: {what}{tail}.")
+    if "direction" in timeline:
+        told = [o for o in ops if o.figures.get("rotation") == "reverse"]
+        for r in timeline[timeline["direction"] == "reverse"].itertuples(index=False):
+            if not any(o.overlaps(float(r.start_s), float(r.end_s)) for o in told):
+                parts.append(f"The motor was running in reverse (against the supply's phase sequence) from "
+                             f"{_t(start, float(r.start_s))} to {_t(start, float(r.end_s))}.")
     for e in stalls:
         if any(e.overlaps(o.start_s, o.end_s) for o in ops):
             continue  # told with the open phase
@@ -396,6 +405,75 @@ def detect_events(
     return events, states, merge_periods(states), notes
 
 
+#: A period of the timeline gets a direction when the cycles that show one agree and are at least this share
+#: of its cycles carrying current (a start or a slow single-phased rotor shows none at first; our choice).
+PERIOD_DIRECTION_SHARE = 0.2
+
+
+def open_points_per_cycle(t_s: np.ndarray, events: list[Event], cycle_s: float = 0.0) -> np.ndarray:
+    """Per cycle: the location (``"upstream"``, ``"downstream"``, ``""``) of the open phase active there.
+
+    From the open_phase events' ``start_s``/``end_s`` and their ``location`` figure.
+    """
+    out = np.full(np.size(t_s), "", dtype=object)
+    t = np.asarray(t_s, dtype=float)
+    for e in events:
+        if e.kind != "open_phase":
+            continue
+        loc = e.figures.get("location")
+        end = math.inf if e.end_s is None else e.end_s
+        out[(t >= e.start_s - 0.5 * cycle_s) & (t < end) & (out == "")] = loc if loc in ("upstream", "downstream") else "unknown"
+    return out
+
+
+def orient_rotation(
+    cycles: pd.DataFrame, speed: pd.DataFrame | None, events: list[Event], timeline: pd.DataFrame,
+) -> tuple[pd.DataFrame | None, pd.DataFrame, list[str]]:
+    """Direction of rotation for every speed window and every period of the timeline (issue 12).
+
+    Per cycle from `waveforms.speed.direction.cycle_direction` (the open
+    phases' locations say where the logged voltages are the motor terminals);
+    the speed track gets ``direction``, ``direction_basis`` and signed ``rpm``
+    (`waveforms.speed.direction.orient_track`), the timeline a ``direction``
+    column.
+
+    Returns
+    -------
+    (speed track or None, timeline, notes)
+    """
+    from .speed.direction import DIRECTION_BASES, cycle_direction, interval_direction, orient_track
+
+    notes: list[str] = []
+    tl = timeline.copy()
+    needed = {"t_s", "I1", "I2"} | ({"V1", "V2"} if "V1" in cycles else set())
+    if len(cycles) == 0 or not needed <= set(cycles.columns):
+        tl["direction"] = "unknown"
+        return speed, tl, ["direction: not assessed (no sequence components in the cycle table)"]
+    d = np.diff(cycles["t_s"].to_numpy(float))
+    cyc_s = float(np.median(d)) if d.size else 0.0
+    per, sup, how = cycle_direction(cycles, open_point=open_points_per_cycle(cycles["t_s"].to_numpy(float), events, cyc_s))
+    if how == "assumed":
+        notes.append("direction: no three-phase-fed stretch shows the supply's phase sequence; "
+                     "A-B-C as labelled is taken as the supply's (forward)")
+    else:
+        notes.append(f"direction: supply phase sequence {'-'.join(sup)} (measured on the three-phase-fed cycles); "
+                     "forward = with it")
+    if len(tl):
+        dd, bb = interval_direction(per, tl["start_s"].to_numpy(float), tl["end_s"].to_numpy(float), min_share=PERIOD_DIRECTION_SHARE)
+        off = tl["state"].to_numpy(object) == "de-energised"
+        tl["direction"] = np.where(off, "unknown", dd).astype(object)
+        tl["direction_basis"] = np.where(off, "no_current", bb).astype(object)
+    else:
+        tl["direction"] = pd.Series(dtype=object)
+        tl["direction_basis"] = pd.Series(dtype=object)
+    if speed is not None:
+        speed = orient_track(speed, per, sup)
+        rev = speed[(speed["direction"] == "reverse")]
+        if len(rev):
+            notes.append(f"direction: {len(rev)} speed window(s) running in reverse ({DIRECTION_BASES[str(rev['direction_basis'].iloc[0])]})")
+    return speed, tl, notes
+
+
 def assess_motor_thermal(
     cycles: pd.DataFrame | None, nameplate: Nameplate | None, params: ThermalParams | None = None,
 ) -> tuple[ThermalResult | None, list[str]]:
@@ -535,6 +613,8 @@ __all__ = [
     "merge_periods",
     "motor_states",
     "nameplate_notes",
+    "open_points_per_cycle",
+    "orient_rotation",
     "resolve_speed_options",
     "speed_record",
     "verdict_text",

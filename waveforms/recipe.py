@@ -768,6 +768,10 @@ def _stage_detect(state: RunState, params: dict[str, Any]) -> None:
 
         state.events = as_labelled(state.events, state.hookup)
     state.notes.extend(notes)
+    from .analysis import orient_rotation  # direction of rotation per speed window and period (issue 12)
+
+    state.speed, state.timeline, notes = orient_rotation(state.cycles, state.speed, state.events, state.timeline)
+    state.notes.extend(notes)
     state.settings["detect"] = dparams
     state.settings["detectors"] = choice.detectors
 

@@ -157,6 +157,31 @@ def _open_phase_explains(
     return False
 
 
+def motor_terminal_mask(inp: DetectionInput, open_phases: tuple[Event, ...], t: np.ndarray, labels: list[str]) -> np.ndarray:
+    """(n_channels, n_t) bool: the channel is the motor terminal of an open line, not the supply (issue 12).
+
+    While an open phase with the open point upstream of the logger is active,
+    the open line's channel (LN; LL: the two channels through it) carries the
+    voltage the turning motor regenerates, not the supply's; a Urms(1/2) value
+    whose one-cycle window reaches into that stretch is masked.
+    """
+    out = np.zeros((len(labels), t.size), dtype=bool)
+    nxt = {"A": "B", "B": "C", "C": "A"}
+    for e in open_phases:
+        if e.kind != "open_phase" or e.figures.get("location") != "upstream":
+            continue
+        if inp.voltage_reference == "LL":
+            own = {lab for c, lab in inp.voltage_channels.items() if e.phase in (c, nxt[c])}
+        else:
+            own = {inp.voltage_channels.get(e.phase or "", "")}
+        end = math.inf if e.end_s is None else e.end_s + inp.cycle_s
+        live = (t > e.start_s) & (t < end)
+        for k, lab in enumerate(labels):
+            if lab in own:
+                out[k] |= live
+    return out
+
+
 def _motor_off_at(inp: DetectionInput, t: np.ndarray) -> np.ndarray:
     """For each Urms(1/2) time stamp: True when the cycle there carries no motor current."""
     if not np.isfinite(inp.i_max).any():
@@ -179,8 +204,15 @@ def detect_dips(inp: DetectionInput, prior: dict) -> Findings:
     p = inp.params
     udin, udin_src = declared_voltage(inp, u, notes)
     pct = 100.0 * u / udin
-    lo = np.nanmin(pct, axis=0)
-    hi = np.nanmax(pct, axis=0)
+    terminal = motor_terminal_mask(inp, prior["open_phase"], t, labels)
+    if terminal.any():
+        pct = np.where(terminal, np.nan, pct)  # the open line's channel is the motor terminal: no supply event there
+        for k in np.flatnonzero(terminal.any(axis=1)):
+            tk = t[terminal[k]]
+            notes.append(f"{labels[k]} from {tk[0]:.3f} s to {tk[-1]:.3f} s is the motor terminal of an open line upstream of the "
+                         "logger (the motor's regenerated voltage, see the open_phase event): no dip or swell assessed on it there")
+    lo = np.fmin.reduce(pct, axis=0)  # NaN-skipping; NaN where every channel is missing or masked
+    hi = np.fmax.reduce(pct, axis=0)
     valid = np.isfinite(lo)
     h = p.hysteresis_pct
     # IEC 61000-4-30 5.4.2.1: dip starts when one channel < threshold, ends when all >= threshold + hysteresis
@@ -212,11 +244,11 @@ def detect_dips(inp: DetectionInput, prior: dict) -> Findings:
             seg = pct[:, a:b]
             if kind == "swell":
                 mag = float(np.nanmax(seg))
-                worst = [labels[int(k)] for k in np.flatnonzero(np.nanmax(seg, axis=1) > p.swell_threshold_pct)]
+                worst = [labels[int(k)] for k in np.flatnonzero(np.fmax.reduce(seg, axis=1) > p.swell_threshold_pct)]  # fmax: NaN-skipping, a masked row stays NaN
             else:
                 mag = float(np.nanmin(seg))
                 thr = p.interruption_threshold_pct if kind == "interruption" else p.dip_threshold_pct
-                worst = [labels[int(k)] for k in np.flatnonzero(np.nanmin(seg, axis=1) < thr)]
+                worst = [labels[int(k)] for k in np.flatnonzero(np.fmin.reduce(seg, axis=1) < thr)]
             if kind == "dip" and _open_phase_explains(inp, prior["open_phase"], start, end, worst):
                 continue  # an upstream open phase, reported as such
             if kind == "interruption":

@@ -120,6 +120,39 @@ def standstill_index(inp: DetectionInput, a: int, b: int) -> tuple[int, str]:
     return a + int(moving[-1]) + 1, f"impedance settled to its standstill value (within {100 * tol:.0f} %)"
 
 
+def pull_out_index(inp: DetectionInput, a: int, rise_frac: float = 0.02, lookback_s: float = 10.0) -> int | None:
+    """Cycle at which the motor could no longer carry its load: its current starts rising towards locked rotor.
+
+    Looks back from ``a`` (the first cycle in the locked-rotor region) over the
+    cycles energised in the same way (three-phase or single-phased on the same
+    lines), at most ``lookback_s``: the running level is the median largest-line
+    current over its first second (after 0.2 s of settling; the lowest one if it
+    is shorter); pull-out is the cycle after the last one within ``rise_frac``
+    of the rise (running level to the current at ``a``) above it.  None when
+    the motor was not running before (our rule, like the relays' slowdown
+    bounds; common practice, no source).
+    """
+    if a <= 0:
+        return None
+    i = inp.i_max
+    lo = max(0, a - int(round(lookback_s / inp.cycle_s)))
+    same = inp.energised[lo:a] & (inp.dead_line[lo:a] == inp.dead_line[a]).all(axis=1)
+    bad = np.flatnonzero(~same)
+    if bad.size:
+        lo = lo + int(bad[-1]) + 1
+    if a - lo < 3:
+        return None
+    seg = i[lo:a]
+    skip, span = int(round(0.2 / inp.cycle_s)), int(round(1.0 / inp.cycle_s))
+    settled = seg[skip : skip + span] if seg.size > skip + span else seg
+    floor = float(np.nanmedian(settled)) if seg.size > skip + span else float(np.nanmin(seg))
+    rise = float(i[a]) - floor
+    if not (np.isfinite(floor) and rise > 0):
+        return None
+    low = np.flatnonzero(seg <= floor + rise_frac * rise)
+    return lo + int(low[-1]) + 1 if low.size else None
+
+
 def _dip_just_before(inp: DetectionInput, a: int) -> bool:
     v = inp.v_ll_max_ratio[max(0, a - int(round(2.0 / inp.cycle_s))) : a + 2]
     return bool(v.size and np.nanmin(v) < 0.9)
@@ -173,6 +206,9 @@ def detect_stall(inp: DetectionInput, prior: dict) -> Findings:
             "locked_rotor_a": inp.locked_rotor_ref_a, "threshold_a_median": float(np.median(thr[a:b])),
             "single_phased": single, "from_energisation": started,
             "high_current_from_s": float(inp.t_start_s[a]), "stall_onset_basis": basis,
+            # issue 12: the two instants of a stall; start_s is the rest instant
+            "pull_out_s": None if started or (k_po := pull_out_index(inp, a)) is None else float(inp.t_start_s[k_po]),
+            "rest_s": stall_s,
             "ended_by": ("capture end" if end_s is None else "current fell, motor still energised" if ends_running else "de-energised"),
         }
         pf = inp.col("PF")

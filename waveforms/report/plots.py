@@ -208,7 +208,9 @@ def speed_figure(res: AnalysisResult) -> Figure:
             ax.text(0.5, 0.5, "no speed track (no nameplate, or too short for one window)", ha="center", va="center", transform=ax.transAxes)
         else:
             ok = np.isfinite(sp["rpm"].to_numpy(float))
-            ax.plot(sp["t_s"][ok], sp["rpm"][ok], color=OI["blue"], marker="o", ms=3.5, lw=1.0, label="estimated speed")
+            neg = bool((sp["rpm"].to_numpy(float)[ok] < 0).any())  # signed speed: negative = reverse (issue 12)
+            ax.plot(sp["t_s"][ok], sp["rpm"][ok], color=OI["blue"], marker="o", ms=3.5, lw=1.0,
+                    label="estimated speed" + (" (< 0: reverse)" if neg else ""))
             bad = sp[~ok]
             if len(bad):
                 y0 = 0.0
@@ -217,7 +219,9 @@ def speed_figure(res: AnalysisResult) -> Figure:
             if plate is not None:
                 ax.axhline(plate.synchronous_speed_rpm, color=OI["black"], lw=0.8, ls=":", label=f"synchronous {plate.synchronous_speed_rpm:.0f} rpm")
                 ax.axhline(plate.rated_speed_rpm, color=OI["green"], lw=0.8, ls="--", label=f"rated {plate.rated_speed_rpm:.0f} rpm")
-            ax.set_ylim(bottom=-0.04 * (plate.synchronous_speed_rpm if plate else 1800))
+            if plate is not None and neg:
+                ax.axhline(-plate.synchronous_speed_rpm, color=OI["black"], lw=0.8, ls=":")
+            ax.set_ylim(bottom=(-1.08 if neg else -0.04) * (plate.synchronous_speed_rpm if plate else 1800))
         ax.set_xlim(0, res.capture.duration_s)
         ax.set_xlabel("time from capture start [s]")
         ax.set_ylabel("rotor speed [rpm]")

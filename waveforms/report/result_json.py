@@ -95,6 +95,7 @@ def _speed_part(res: AnalysisResult) -> dict[str, Any]:
             "confidence": _num(r.get("confidence_db")), "confidence_db": _num(r.get("confidence_db")),
             "f_supply_hz": _num(r.get("f_supply_hz")), "component": str(r.get("component") or ""),
             "status": str(r.get("status") or ""),
+            "direction": str(r.get("direction") or "unknown"), "direction_basis": str(r.get("direction_basis") or "") or None,
         })
     return {"available": True, "track": track}
 
@@ -132,7 +133,9 @@ def result_dict(res: AnalysisResult, generated_at: _dt.datetime | None = None) -
         "summary": _summary_part(res),
         "events": _event_part(res),
         "timeline": [
-            {"state": r.state, "start_s": float(r.start_s), "end_s": float(r.end_s)} for r in res.timeline.itertuples(index=False)
+            {"state": r.state, "start_s": float(r.start_s), "end_s": float(r.end_s),
+             "direction": str(getattr(r, "direction", "unknown")), "direction_basis": getattr(r, "direction_basis", None)}
+            for r in res.timeline.itertuples(index=False)
         ],
         "speed": _speed_part(res),
         "thermal": thermal,

@@ -11,11 +11,18 @@ All instants are seconds from the capture start (sample 0).  Definitions
   reported.
 * ``start``: energisation (two or more lines closed after fewer) with the
   rotor below half of synchronous speed; ``end_s`` is the first instant the
-  speed reaches 90 % of synchronous speed, None if it never does
+  speed (in either direction) reaches 90 % of synchronous speed, None if it never does
   (``outcome`` = "failed").
 * ``stall``: energised with ``|speed|`` below 5 % of synchronous speed for at
   least 0.2 s; ``start_s`` is the energisation instant when the rotor never
   turned, else the instant the speed fell below 5 %.
+  Two more instants (issue 12): ``pull_out_s``, where the motor could no
+  longer carry its load -- the start of the deceleration that ends in the
+  stall, i.e. the first instant after which the one-cycle mean of the torque
+  balance ``T_e - T_L - B w`` stays negative (more than 1 % of the load
+  torque) -- None when the rotor never turned; and ``rest_s``, the first
+  instant with ``|speed|`` at or below 1 % of synchronous speed (the rotor at
+  standstill).
 * ``dip`` / ``swell`` / ``interruption``: the source EMF events of the
   scenario (residual < 0.9 pu dip, < 0.1 pu interruption, > 1.1 pu swell),
   with the instants of the EMF change.  What a logger at the motor measures
@@ -42,6 +49,8 @@ from .simulate import Simulation
 
 STALL_SPEED_PU = 0.05
 STALL_MIN_S = 0.2
+REST_SPEED_PU = 0.01
+PULL_OUT_NET_TORQUE_FRAC = 0.01
 START_MAX_SPEED_PU = 0.5
 START_END_SPEED_PU = 0.9
 TRACK_STEP_S = 0.01
@@ -71,6 +80,29 @@ def _runs(mask: np.ndarray) -> list[tuple[int, int]]:
     """Index ranges [i0, i1) where ``mask`` is True."""
     d = np.diff(np.concatenate(([0], mask.astype(np.int8), [0])))
     return list(zip(np.nonzero(d == 1)[0].tolist(), np.nonzero(d == -1)[0].tolist(), strict=True))
+
+
+def _stall_instants(sim: Simulation, a: int, near_energisation: bool) -> tuple[float | None, float | None]:
+    """(pull_out_s, rest_s) of the stall whose slow run starts at sample ``a`` (see the module docstring)."""
+    sc = sim.scenario
+    t, w = sim.t_s, sim.omega_m_rad_s
+    ws = sc.machine.synchronous_speed_rad_s(sc.supply.f_hz)
+    fs = sc.logger.sample_rate_hz
+    n = max(1, int(round(fs / sc.supply.f_hz)))
+    slow = np.abs(w) <= REST_SPEED_PU * ws
+    after = np.flatnonzero(slow[a:])
+    rest = float(t[a + after[0]]) if after.size else None
+    if near_energisation:
+        return None, rest
+    net = sim.torque_n_m - sim.load_torque_n_m - sc.machine.friction_n_m_s * w  # J dw/dt (Krause ch. 4 mechanical equation)
+    cs = np.concatenate(([0.0], np.cumsum(net[: a + 1])))
+    ct = np.concatenate(([0.0], np.cumsum(np.abs(sim.load_torque_n_m[: a + 1]))))
+    net_m = (cs[n:] - cs[:-n]) / n  # trailing one-cycle mean ending at each sample: a single-phased motor's 2 f1 pulsation cancels
+    tl_m = (ct[n:] - ct[:-n]) / n
+    ok = net_m >= -PULL_OUT_NET_TORQUE_FRAC * np.maximum(tl_m, 1e-9)
+    last = np.flatnonzero(ok)
+    # the deceleration's first sample: after the last cycle whose mean balance was not negative
+    return (float(t[last[-1] + n]) if last.size and last[-1] + n <= a else None), rest
 
 
 def events(sim: Simulation) -> list[dict[str, Any]]:
@@ -114,7 +146,7 @@ def events(sim: Simulation) -> list[dict[str, Any]]:
         if i0 >= t.size or abs(sim.omega_m_rad_s[i0]) >= START_MAX_SPEED_PU * ws:
             continue
         run_end = next((b for a, b in _runs(energised) if a <= i0 < b), t.size)
-        reach = np.nonzero(sim.omega_m_rad_s[i0:run_end] >= START_END_SPEED_PU * ws)[0]
+        reach = np.nonzero(np.abs(sim.omega_m_rad_s[i0:run_end]) >= START_END_SPEED_PU * ws)[0]  # either direction
         lines = "".join(c for c, on in zip("ABC", sim.closed[:, i0], strict=True) if on)
         peak = float(np.max(np.abs(sim.i_line_smooth_a[:, i0 : min(run_end, i0 + int(fs / f1 * 3))]))) if run_end > i0 else 0.0
         out.append({"kind": "start", "phase": None, "start_s": _f(te), "end_s": _f(t[i0 + reach[0]]) if reach.size else None,
@@ -131,7 +163,9 @@ def events(sim: Simulation) -> list[dict[str, Any]]:
         if t1 is not None:
             exact = [x for x in deenerg_instants if t[b - 1] < x <= t[b]]
             t1 = exact[0] if exact else t1
+        pull_out, rest = _stall_instants(sim, a, near_energisation=bool(near))
         out.append({"kind": "stall", "phase": None, "start_s": _f(t0), "end_s": _f(t1),
+                    "pull_out_s": _f(pull_out), "rest_s": _f(rest),
                     "speed_threshold_pu": STALL_SPEED_PU,
                     "rms_current_a": _f(float(np.sqrt(np.mean(sim.i_line_smooth_a[:, a:b] ** 2, axis=1)).max()), 3)})
     # supply events
@@ -215,7 +249,7 @@ def window(sim: Simulation, name: str, start_s: float, end_s: float) -> dict[str
     inema = 100 * np.max(np.abs(imag_ - imag_.mean())) / imag_.mean() if imag_.mean() > 0 else math.nan
     ws = sc.machine.synchronous_speed_rad_s(f1)
     wm = float(np.mean(sim.omega_m_rad_s[sl]))
-    slip = 1 - wm / ws
+    slip = 1 - abs(wm) / ws  # relative to the rotor's own running direction, as the tool reports it
     p_w = float(np.mean(np.sum(sim.v_logger_v[:, sl] * sim.i_line_smooth_a[:, sl], axis=0)))
     out: dict[str, Any] = {
         "name": name, "start_s": start_s, "end_s": end_s, "frequency_hz": f1,
@@ -259,7 +293,7 @@ def speed_track(sim: Simulation) -> dict[str, list]:
     return {
         "t_s": np.round(t_c, 6).tolist(),
         "rpm": np.round(wm * 60 / (2 * np.pi), 4).tolist(),
-        "slip": np.round(1 - wm / ws, 6).tolist(),
+        "slip": np.round(1 - np.abs(wm) / ws, 6).tolist(),  # relative to the rotor's own direction; rpm is signed
         "f_rotor_hz": np.round(wm / (2 * np.pi), 5).tolist(),
         "torque_n_m": np.round(blk(sim.torque_n_m), 3).tolist(),
         "load_torque_n_m": np.round(blk(sim.load_torque_n_m), 3).tolist(),

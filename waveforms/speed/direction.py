@@ -63,7 +63,7 @@ def cycle_phasors(x, sample_rate_hz: float, f1_hz: float, window_cycles: int = 1
 
 def rotation_direction(
     v1=None, v2=None, i1=None, i2=None, i_line_a=None, *, margin: float = 2.0, open_frac: float = 0.05,
-    min_current_a: float | None = None, min_voltage_v: float | None = None, open_point: str | None = None,
+    min_current_a: float | None = None, min_voltage_v: float | None = None, open_point=None,
 ) -> pd.DataFrame:
     """Decide the rotation per row from sequence components.
 
@@ -85,9 +85,10 @@ def rotation_direction(
     min_voltage_v : float or None
         Below this ``|V1| + |V2|`` the voltages are not used [V]; default 5 % of the
         largest in the record.
-    open_point : {"upstream", "downstream", None}
+    open_point : {"upstream", "downstream", None} or array_like of them
         Where the open point of a single-phased row lies relative to the logger
-        (as `waveforms.detect` reports it).  ``upstream``: the voltage inputs see
+        (as `waveforms.detect` reports it), for all rows or one value per row
+        (``""`` and ``"unknown"`` count as None).  ``upstream``: the voltage inputs see
         the regenerated voltage, basis ``regenerated_voltage``; ``downstream``:
         they see the supply, no rotation (basis ``supply_side_voltage``);
         None: rotation from the terminal voltages with basis
@@ -101,12 +102,21 @@ def rotation_direction(
         "supply_side_voltage", "single_phased_no_voltage", "inconsistent",
         "no_current", ""), ``rotation`` ("forward", "reverse" or "").
     """
-    if open_point not in (None, "upstream", "downstream"):
-        raise InvalidParameterError(f"{open_point=} must be 'upstream', 'downstream' or None")
     lengths = {np.size(a) for a in (v1, i1) if a is not None}
     if not lengths:
         raise InvalidParameterError("rotation_direction needs voltage (v1, v2) or current (i1, i2) sequence components")
     n = lengths.pop()
+    if np.ndim(open_point) == 0:
+        if open_point not in (None, "upstream", "downstream"):
+            raise InvalidParameterError(f"{open_point=} must be 'upstream', 'downstream' or None")
+        ops = np.full(n, open_point or "", dtype=object)
+    else:
+        ops = np.asarray(open_point, dtype=object).reshape(-1)
+        bad = set(ops.tolist()) - {None, "", "unknown", "upstream", "downstream"}
+        if ops.size != n or bad:
+            raise InvalidParameterError(f"open_point per row: need {n} values from 'upstream', 'downstream', '', None; "
+                                        f"got {ops.size} values{f', including {sorted(map(str, bad))}' if bad else ''}")
+    ops = np.where((ops == "upstream") | (ops == "downstream"), ops, "")
     blank = np.full(n, "", dtype=object)
     have_v = v1 is not None
     if have_v:
@@ -131,16 +141,16 @@ def rotation_direction(
     both = (vs != "") & (cs != "")
     clash = three & both & (vs != cs)
     single = (n_open == 1) & ~no_cur
-    single_v = single & have_v & (open_point != "downstream")
+    single_v = single & have_v & (ops != "downstream")
     seq = np.where(three & ~clash, seq3, np.where(single_v, vs, ""))
-    single_label = {"upstream": "regenerated_voltage", "downstream": "supply_side_voltage",
-                    None: "single_phased_voltage_unverified"}[open_point]
+    single_label = np.select([ops == "upstream", ops == "downstream"], ["regenerated_voltage", "supply_side_voltage"],
+                             default="single_phased_voltage_unverified")
     basis = np.select(
         [no_cur, clash, three, single & have_v, single],
         ["no_current", "inconsistent", "three_phase", single_label, "single_phased_no_voltage"],
         default="",
     )
-    rot = np.array([ROTATION[s] for s in seq], dtype=object)
+    rot = np.select([seq == "ABC", seq == "ACB"], [ROTATION["ABC"], ROTATION["ACB"]], default="").astype(object)
     return pd.DataFrame({"v_sequence": vs, "i_sequence": cs, "basis": basis.astype(object), "rotation": rot})
 
 
@@ -187,4 +197,185 @@ def direction_from_waveforms(
         il = np.abs(pi)
     out = rotation_direction(v1, v2, i1, i2, il, **options)
     out.insert(0, "t_s", t)
+    return out
+
+
+# -- direction relative to the supply, per cycle, speed window and running period -----------------
+
+#: ``direction_basis`` values: how a direction was found, or why it was not (see docs/speed.md).
+DIRECTION_BASES = {
+    "three_phase_sequence": "fed on three lines: the rotor turns with the supply's field",
+    "regenerated_voltage": "single-phased, open point upstream: sequence of the terminal voltages with the regenerated one",
+    "sidebands": "the current's fundamental and its speed components each on one side of zero frequency (a rotating field)",
+    "no_current": "no motor current",
+    "no_dominant_sequence": "neither sequence dominates (stalled or slow single-phased rotor, or a heavy unbalance)",
+    "supply_side_voltage": "single-phased with the open point downstream: the logged voltages are the supply's, "
+                           "and the current of two lines in series is one signal, symmetric about zero frequency",
+    "open_point_unknown": "single-phased, but whether the logger sees the motor terminals is not known",
+    "no_voltage": "single-phased without voltage channels",
+    "inconsistent": "the voltage and current sequences disagree",
+    "changed_within_window": "forward and reverse cycles in the same window",
+}
+DIRECTIONS = ("forward", "reverse", "unknown")
+_BASIS_OF_ROTATION = {"three_phase": "three_phase_sequence", "regenerated_voltage": "regenerated_voltage",
+                      "single_phased_voltage_unverified": "open_point_unknown", "supply_side_voltage": "supply_side_voltage",
+                      "single_phased_no_voltage": "no_voltage", "inconsistent": "inconsistent", "no_current": "no_current",
+                      "": "no_current"}
+
+
+def supply_sequence(rot: pd.DataFrame) -> tuple[str, str]:
+    """The supply's phase sequence from the three-phase-fed rows of a `rotation_direction` table.
+
+    Returns ``(sequence, how)``: the voltages' majority sequence over rows with
+    basis ``three_phase`` (else the currents'), ``how`` = ``"measured"``; with no
+    such row, ``("ABC", "assumed")`` -- the terminals' A-B-C as labelled.
+    """
+    three = rot["basis"].to_numpy(object) == "three_phase"
+    for col in ("v_sequence", "i_sequence"):
+        vals = rot[col].to_numpy(object)[three]
+        n_abc, n_acb = int(np.sum(vals == "ABC")), int(np.sum(vals == "ACB"))
+        if n_abc + n_acb:
+            return ("ABC" if n_abc >= n_acb else "ACB"), "measured"
+    return "ABC", "assumed"
+
+
+def cycle_direction(cycles: pd.DataFrame, open_point=None, supply: str | None = None, **options) -> tuple[pd.DataFrame, str, str]:
+    """Per-cycle direction of rotation relative to the supply's phase sequence.
+
+    Parameters
+    ----------
+    cycles : DataFrame
+        The cycle table (``t_s``, ``V1 V2 I1 I2 Ia_mag Ib_mag Ic_mag``).
+    open_point : str, None or array_like
+        Per cycle (or for all): ``"upstream"`` / ``"downstream"`` while an open
+        phase with that location is active, else ``""`` (see `rotation_direction`).
+    supply : {"ABC", "ACB", None}
+        The supply's sequence; None = `supply_sequence` of the record.
+    **options
+        To `rotation_direction`.
+
+    Returns
+    -------
+    (DataFrame, str, str)
+        Columns ``t_s``, ``rotor_sequence`` ("ABC", "ACB", ""), ``direction``
+        (`DIRECTIONS`), ``direction_basis`` (`DIRECTION_BASES`); the supply
+        sequence used and how it was found (``"measured"``, ``"assumed"``, ``"given"``).
+    """
+    rot = direction_from_cycles(cycles, open_point=open_point, **options)
+    if supply is None:
+        sup, how = supply_sequence(rot)
+    elif supply in ("ABC", "ACB"):
+        sup, how = supply, "given"
+    else:
+        raise InvalidParameterError(f"supply={supply!r} must be 'ABC', 'ACB' or None")
+    r = rot["rotation"].to_numpy(object)
+    seq = np.select([r == "forward", r == "reverse"], ["ABC", "ACB"], default="").astype(object)
+    direction = np.where(seq == "", "unknown", np.where(seq == sup, "forward", "reverse")).astype(object)
+    rb = rot["basis"].to_numpy(object)
+    basis = np.select([rb == k for k in _BASIS_OF_ROTATION], list(_BASIS_OF_ROTATION.values()), default="no_current").astype(object)
+    basis = np.where((seq == "") & np.isin(basis, ["three_phase_sequence", "regenerated_voltage"]), "no_dominant_sequence", basis)
+    out = pd.DataFrame({"t_s": rot["t_s"].to_numpy(float), "rotor_sequence": seq, "direction": direction,
+                        "direction_basis": basis.astype(object)})
+    return out, sup, how
+
+
+def interval_direction(per_cycle: pd.DataFrame, t0_s, t1_s, min_share: float = 0.5) -> tuple[np.ndarray, np.ndarray]:
+    """Direction and basis over intervals ``[t0_s, t1_s]`` from a `cycle_direction` table.
+
+    An interval gets a direction when every cycle in it that has one agrees and
+    they are at least ``min_share`` of its cycles carrying current; forward and
+    reverse cycles together give ``unknown`` / ``changed_within_window``; otherwise
+    ``unknown`` with the most frequent reason among its cycles (our rule, no source).
+    """
+    t0 = np.atleast_1d(np.asarray(t0_s, dtype=float))
+    t1 = np.atleast_1d(np.asarray(t1_s, dtype=float))
+    t = per_cycle["t_s"].to_numpy(float)
+    d = per_cycle["direction"].to_numpy(object)
+    names, code = np.unique(per_cycle["direction_basis"].to_numpy(object).astype(str), return_inverse=True)
+    lo, hi = np.searchsorted(t, t0, side="left"), np.searchsorted(t, t1, side="right")
+
+    def count(mask: np.ndarray) -> np.ndarray:
+        c = np.concatenate(([0], np.cumsum(mask, dtype=np.int64)))
+        return c[hi] - c[lo]
+
+    cls = {"forward": d == "forward", "reverse": d == "reverse", "unknown": d == "unknown"}
+    n_f, n_r = count(cls["forward"]), count(cls["reverse"])
+    # per interval and basis: cycles of each direction class (a handful of bases, so a loop over them)
+    by = {k: np.stack([count(m & (code == j)) for j in range(names.size)], axis=1) if names.size else np.zeros((t0.size, 0), int)
+          for k, m in cls.items()}
+    no_cur = names == "no_current"
+    n_live = (by["forward"] + by["reverse"] + by["unknown"])[:, ~no_cur].sum(axis=1)
+    out_d = np.full(t0.size, "unknown", dtype=object)
+    out_b = np.full(t0.size, "no_current", dtype=object)
+    both = (n_f > 0) & (n_r > 0)
+    given = ~both & ((n_f + n_r) > 0) & ((n_f + n_r) >= min_share * np.maximum(n_live, 1))
+    out_d[given] = np.where(n_f[given] > 0, "forward", "reverse")
+    if names.size:
+        best_given = np.where((n_f > 0)[:, None], by["forward"], by["reverse"]).argmax(axis=1)
+        unk = np.where(no_cur[None, :], 0, by["unknown"])
+        best_unknown = np.where(unk.sum(axis=1) > 0, unk.argmax(axis=1), -1)
+        rest = ~both & ~given & (hi > lo)
+        out_b[given] = names[best_given[given]]
+        pick = rest & (best_unknown >= 0)
+        out_b[pick] = names[best_unknown[pick]]
+    out_b[both] = "changed_within_window"
+    return out_d, out_b
+
+
+#: Both the fundamental and the speed component must be this far to one side of zero frequency [dB] (our choice).
+SIDE_MARGIN_DB = 10.0
+
+
+def sideband_direction(fundamental_side_db, component_side_db, supply: str, margin_db: float = SIDE_MARGIN_DB) -> np.ndarray:
+    """Direction from which side of zero frequency the current's fundamental and speed components lie.
+
+    In the current space vector (Clarke) a positive-sequence field shows at
+    ``+f1``, a negative-sequence one at ``-f1`` (Fortescue 1918; Clarke 1943,
+    from memory).  When both the fundamental and the agreeing speed component
+    lie on one side (``|side| >= margin_db``), they belong to one rotating
+    field, and a rotor whose slip lies in the searched motoring band turns
+    with it: rotor sequence ABC for the ``+`` side, ACB for ``-``.  A
+    single-phased motor's current (two lines in series, ``Ia = -Ib``) is one
+    real signal whose spectrum is symmetric, so it gives ``unknown``.
+    (Reasoning from the space-vector definition; common practice, no source.)
+
+    Returns
+    -------
+    ndarray of str
+        `DIRECTIONS` relative to ``supply``.
+    """
+    fs_ = np.asarray(fundamental_side_db, dtype=float)
+    cs_ = np.asarray(component_side_db, dtype=float)
+    one_sided = (np.abs(fs_) >= margin_db) & (np.abs(cs_) >= margin_db)
+    seq = np.where(fs_ > 0, "ABC", "ACB")
+    d = np.where(seq == supply, "forward", "reverse")
+    return np.where(one_sided, d, "unknown").astype(object)
+
+
+def orient_track(track: pd.DataFrame, per_cycle: pd.DataFrame, supply: str) -> pd.DataFrame:
+    """The speed track with ``direction`` / ``direction_basis`` columns and signed ``rpm`` / ``f_rotor_hz``.
+
+    Direction per window from `interval_direction` over its cycles; where that
+    gives none, from `sideband_direction` when the track has the side columns.
+    ``rpm`` and ``f_rotor_hz`` become negative for ``reverse``; ``slip`` is
+    unchanged: it is relative to the rotor's own running direction (the
+    field it follows), ``s = 1 - |n| / n_s``.
+    """
+    out = track.copy()
+    if len(out) == 0:
+        out["direction"] = pd.Series(dtype=object)
+        out["direction_basis"] = pd.Series(dtype=object)
+        return out
+    d, b = interval_direction(per_cycle, out["t_start_s"].to_numpy(float), out["t_end_s"].to_numpy(float))
+    if "fundamental_side_db" in out and "component_side_db" in out:
+        sb = sideband_direction(out["fundamental_side_db"].to_numpy(float), out["component_side_db"].to_numpy(float), supply)
+        use = (d == "unknown") & (sb != "unknown") & (b != "changed_within_window")
+        d = np.where(use, sb, d)
+        b = np.where(use, "sidebands", b)
+    out["direction"] = d.astype(object)
+    out["direction_basis"] = b.astype(object)
+    sign = np.where(d == "reverse", -1.0, 1.0)
+    for col in ("rpm", "f_rotor_hz"):
+        if col in out:
+            out[col] = sign * np.abs(out[col].to_numpy(float))
     return out

@@ -56,10 +56,12 @@ from .spectrum import (
     refine_peak,
     window_spectrum,
 )
+from .spectrum import _window  # the speed spectra's own Blackman-Harris window
 
 TRACK_COLUMNS: tuple[str, ...] = (
     "t_s", "t_start_s", "t_end_s", "f_supply_hz", "slip", "rpm", "f_rotor_hz", "component",
     "confidence_db", "status", "n_components", "f_component_hz", "i_rms_a",
+    "fundamental_side_db", "component_side_db",
 )
 
 STATUS_ESTIMATE = "estimate"
@@ -592,8 +594,13 @@ def track_speed(
         a = w * hop
         t0 = (i0 + a * q) / fs
         t1 = t0 + win / fsd
-        return _row(analyse_window(y[:, a : a + win], fsd, motor, settings, f1_hz=f_supply(t0, t1), t_start_s=t0,
-                                   phase_rms=use_sv))
+        r = analyse_window(y[:, a : a + win], fsd, motor, settings, f1_hz=f_supply(t0, t1), t_start_s=t0,
+                           phase_rms=use_sv)
+        row = _row(r)
+        if use_sv and r.status == STATUS_ESTIMATE:
+            row["fundamental_side_db"], row["component_side_db"] = side_db(
+                y[0, a : a + win], fsd, [row["f_supply_hz"], row["f_component_hz"]])
+        return row
 
     if threads > 1 and n_win > 1:  # the FFTs release the GIL; results in window order whatever the thread count
         import concurrent.futures
@@ -603,8 +610,32 @@ def track_speed(
     else:
         rows = [one(w) for w in range(n_win)]
     return pd.DataFrame(rows, columns=list(TRACK_COLUMNS)).astype(
-        {"slip": float, "rpm": float, "f_rotor_hz": float, "confidence_db": float, "n_components": int}
+        {"slip": float, "rpm": float, "f_rotor_hz": float, "confidence_db": float, "n_components": int,
+         "fundamental_side_db": float, "component_side_db": float}
     )
+
+
+def side_db(x: np.ndarray, sample_rate_hz: float, f_hz) -> np.ndarray:
+    """``10 log10(P(+f) / P(-f))`` of a complex space-vector window at each frequency of ``f_hz`` [dB].
+
+    Single-bin DFTs of the Blackman-Harris-windowed samples at ``+f`` and
+    ``-f``: positive for a component turning with the positive-sequence field,
+    negative against it, near 0 for a pulsating (single-phase) one; NaN for a
+    non-finite frequency (common practice, no source).
+    """
+    f = np.atleast_1d(np.asarray(f_hz, dtype=float))
+    n = x.shape[-1]
+    xw = np.asarray(x) * _window(n)
+    k = np.arange(n) / sample_rate_hz
+    out = np.full(f.size, np.nan)
+    ok = np.isfinite(f)
+    if ok.any():
+        e = np.exp(-2j * np.pi * np.outer(np.concatenate((f[ok], -f[ok])), k))  # rows: +f..., -f...
+        p = np.abs(e @ xw) ** 2
+        m = int(ok.sum())
+        with np.errstate(divide="ignore"):
+            out[ok] = 10.0 * np.log10(np.maximum(p[:m], 1e-300) / np.maximum(p[m:], 1e-300))
+    return out
 
 
 def _row(r: WindowResult) -> dict[str, Any]:
@@ -619,6 +650,7 @@ def _row(r: WindowResult) -> dict[str, Any]:
         "component": r.component if est else "", "confidence_db": r.confidence_db if est else math.nan,
         "status": r.status, "n_components": len(r.used),
         "f_component_hz": best[1] if best else math.nan, "i_rms_a": r.i_rms_a,
+        "fundamental_side_db": math.nan, "component_side_db": math.nan,
     }
 
 
