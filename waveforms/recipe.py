@@ -688,7 +688,8 @@ def _stage_measure(state: RunState, params: dict[str, Any]) -> None:
         from .quality import quality_notes
 
         t0 = time.perf_counter()
-        state.quality = quality_notes(state.capture, acc.records())
+        # the survey's notes first; keep what stages between import and measure added (the hook-up check)
+        state.quality = [*quality_notes(state.capture, acc.records()), *state.quality]
         state.pending_quality = None
         state.timings_s["quality"] = time.perf_counter() - t0  # the notes only: the survey rode on the measure pass
 
