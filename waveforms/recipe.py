@@ -673,6 +673,11 @@ def _stage_measure(state: RunState, params: dict[str, Any]) -> None:
     state.settings["measure"] = {k: v for k, v in kw.items() if k != "harmonics"}
     run_kw: dict[str, Any] = {**kw, "threads": state.threads}
     acc = state.pending_quality
+    if acc is not None and acc.capture.channels != state.capture.channels:
+        # the hook-up check derived a channel (two-CT, open delta): survey the channels the pass reads
+        from .quality import StatsAccumulator
+
+        acc = state.pending_quality = StatsAccumulator(state.capture)
     if acc is not None:
         run_kw["feed"] = acc.feed
     dec = _speed_decimator(state)
