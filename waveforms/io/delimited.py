@@ -38,7 +38,7 @@ from ..errors import CaptureReadError, MappingError, positive_number
 from ..hashing import sha256_file
 from .. import timebase
 from . import metadata as md
-from .common import EPOCH, one_line, parse_start_time, system_values
+from .common import EPOCH, one_line, parse_start_time, parse_utc_offset, system_values
 from .mapping import (
     TIME_UNITS, UNIT_RE, Mapping, is_time_header, split_unit, mapping_record, parse_mapping, resolve_channels, suggest, time_header_unit, time_unit_factor,
 )
@@ -350,16 +350,6 @@ def _column_into(out: np.ndarray, col: pa.ChunkedArray) -> None:
         pos += n
 
 
-def _parse_offset(text: str, source: str, where: str) -> _dt.timezone:
-    if text in ("Z", "UTC", "utc"):
-        return _dt.timezone.utc
-    m = re.fullmatch(r"([+-])(\d{2}):?(\d{2})", text.strip())
-    if not m:
-        raise MappingError(source, where, f"{text!r} is not a UTC offset like '+01:00'")
-    sign = 1 if m.group(1) == "+" else -1
-    return _dt.timezone(sign * _dt.timedelta(hours=int(m.group(2)), minutes=int(m.group(3))))
-
-
 def iso_to_ns(s: pd.Series, mapping: Mapping, path: Path, col: str, line_of: Any) -> tuple[np.ndarray, _dt.tzinfo]:
     """ISO 8601 text stamps -> int64 ns since the POSIX epoch (UTC), and the offset of the first stamp.
 
@@ -376,7 +366,7 @@ def iso_to_ns(s: pd.Series, mapping: Mapping, path: Path, col: str, line_of: Any
             if off is None:
                 raise CaptureReadError(path, f"line {line_of(0)}, column {col!r}",
                                        f"time stamp {first!r} has no UTC offset; set [time] utc_offset = '+01:00' in a mapping file")
-            tz = _parse_offset(str(off), mapping.source, "key time.utc_offset")
+            tz = parse_utc_offset(str(off), mapping.source, "key time.utc_offset")
             ts = pd.to_datetime(s, format="ISO8601").dt.tz_localize(tz).dt.tz_convert("UTC")
     except (ValueError, TypeError):
         bad = pd.to_datetime(s, format="ISO8601", errors="coerce", utc=has_offset)
