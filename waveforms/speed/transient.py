@@ -87,6 +87,21 @@ def acceleration_interval(
         None when the record shows no start (no inrush well above the running
         current, or a current that was already flowing before the rise).  When
         the record opens with the inrush, ``start_censored`` is set.
+
+    Examples
+    --------
+    An envelope at rest for 0.2 s, an inrush of 60 A decaying to a running
+    current of 10 A:
+
+    >>> import numpy as np
+    >>> t = np.arange(0.0, 5.0, 0.02)
+    >>> i = np.where(t < 0.2, 0.0, 10 + 50 * np.exp(-np.clip(t - 0.2, 0, None) / 0.5))
+    >>> tr = acceleration_interval(t, i)
+    >>> print(tr.kind, f"{tr.start_s:.2f} {tr.end_s:.2f} {tr.i_after_a:.1f}")
+    acceleration 0.20 1.36 10.0
+
+    The end is where the envelope is within 10 % of the step above the running
+    current: 0.2 + 0.5 ln(10) = 1.35 s, the next cycle time at 1.36 s.
     """
     t, i = _check(t_s, i_rms_a)
     k_pk = int(np.nanargmax(i))
@@ -122,6 +137,20 @@ def slowdown_interval(
     -------
     Transient or None
         None when the final level is not at least ``min_ratio`` x the running level.
+
+    Examples
+    --------
+    A motor running at 10 A stalls: the current rises to 60 A between 1.0 and 1.5 s:
+
+    >>> import numpy as np
+    >>> t = np.arange(0.0, 4.0, 0.02)
+    >>> i = np.interp(t, [0.0, 1.0, 1.5, 4.0], [10.0, 10.0, 60.0, 60.0])
+    >>> tr = slowdown_interval(t, i)
+    >>> print(tr.kind, f"{tr.start_s:.2f} {tr.end_s:.2f} {tr.i_after_a:.0f}")
+    slowdown 1.04 1.46 60
+
+    It starts at the last cycle within 10 % of the 50 A step above 10 A (15 A
+    is reached at 1.05 s) and ends at the first within 10 % of 60 A (55 A at 1.45 s).
     """
     t, i = _check(t_s, i_rms_a)
     i0 = _level(t, i, t[0], t[0] + settle_s)
