@@ -351,7 +351,7 @@ def test_workers_run_one_blas_thread_without_touching_the_environment(monkeypatc
     if max(here) < 2:
         pytest.skip("BLAS runs one thread here anyway (one core): the cap cannot be seen")
     before = dict(os.environ)
-    pool = batch.executors._Pool(1, batch.runner.load_recipe(None), fresh_workers=True)
+    pool = batch.executors._Pool(1, batch.runner.load_recipe(None))
     try:
         seen = pool.executor.submit(_worker_report).result(timeout=120)
     finally:
