@@ -188,11 +188,11 @@ def _run_fresh(queue: deque[CaptureTask], jobs: int, collect: Callable[[dict[str
                 reader, writer = ctx.Pipe(duplex=False)
                 proc = ctx.Process(target=_fresh_worker, args=(t, writer, threads, os.getpid()),
                                    name=f"waveforms-worker-{t.key[:12]}", daemon=True)
+                running[reader] = (proc, t)  # listed before it starts: a stop in between still ends it
                 try:
                     proc.start()
                 finally:
                     writer.close()
-                running[reader] = (proc, t)
             sentinels = {p.sentinel: r for r, (p, _t) in running.items()}
             ready = mp_wait(list(running) + list(sentinels))
             done = {r for r in ready if r in running} | {sentinels[s] for s in ready if s in sentinels}
