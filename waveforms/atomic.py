@@ -38,6 +38,10 @@ def atomic_path(target: str | os.PathLike[str]) -> Iterator[Path]:
     try:
         yield tmp_path
         os.replace(tmp_path, target)
+    except OSError as e:  # full disk, file-size limit, read-only folder: the output's failure, named
+        with contextlib.suppress(OSError):
+            tmp_path.unlink()
+        raise WriteError(f"{target}: cannot write ({e.strerror or type(e).__name__})") from None
     except BaseException:
         with contextlib.suppress(OSError):
             tmp_path.unlink()

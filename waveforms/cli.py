@@ -10,7 +10,9 @@ and a non-zero exit, never a traceback.
 from __future__ import annotations
 
 import importlib
+import signal
 import sys
+import warnings
 
 import click
 
@@ -58,11 +60,33 @@ class _Group(click.Group):
             formatter.write_dl(rows)
 
     def invoke(self, ctx: click.Context) -> object:
+        from .terminal import terminal_text
+
         try:
-            return super().invoke(ctx)
+            with warnings.catch_warnings():
+                # numpy's arithmetic warnings (all-NaN slice, overflow) on masked or broken stretches are not
+                # news to the user: the data-quality notes say what was masked
+                warnings.simplefilter("ignore", RuntimeWarning)
+                return super().invoke(ctx)
         except WaveformsError as err:
-            click.echo(f"error: {err}", err=True)
+            click.echo(terminal_text(f"error: {err}"), err=True)
             sys.exit(2)
+        except KeyboardInterrupt as err:
+            click.echo("interrupted", err=True)
+            sys.exit(128 + int(getattr(err, "signum", signal.SIGINT)))
+        except OSError as err:  # an output that cannot be written, a path that cannot be opened
+            where = err.filename if err.filename is not None else "(no file named)"
+            click.echo(terminal_text(f"error: {where}: {err.strerror or type(err).__name__}"), err=True)
+            sys.exit(2)
+        except (click.exceptions.Exit, click.ClickException, click.exceptions.Abort, SystemExit):
+            raise
+        except Exception as err:  # a bug: still one line, with where it happened, and a distinct exit code
+            import traceback
+
+            tb = traceback.extract_tb(err.__traceback__)
+            at = f" (at {tb[-1].filename.rsplit('/', 1)[-1]}:{tb[-1].lineno})" if tb else ""
+            click.echo(terminal_text(f"error: internal error, please report it: {type(err).__name__}: {err}{at}"), err=True)
+            sys.exit(3)
 
 
 @click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"]})

@@ -83,10 +83,12 @@ def _cell(rec: dict[str, Any], c: str) -> dict[str, Any]:
 def index_html(frame: pd.DataFrame, title: str = "Capture summary") -> str:
     """A self-contained HTML table of the summary: sortable columns, a verdict filter, links to reports."""
     js, csp = _script()
-    rows = [{"error": rec.get("status") == "error", "verdict": str(rec.get("verdict", "")),
+    rows = [{"error": rec.get("status") == "error", "pending": rec.get("status") == "not analysed",
+             "verdict": str(rec.get("verdict", "")),
              "cells": [_cell(rec, c) for c in SHOWN]} for rec in frame.to_dict("records")]
     headings = [{"name": c, "label": LABELS.get(c, c.replace("_", " "))} for c in SHOWN]
     return _environment().get_template(TEMPLATE).render(
         title=title, csp=Markup(csp), script=Markup(js), n_rows=len(frame),
         n_errors=int((frame["status"] == "error").sum()) if len(frame) else 0,
+        n_pending=int((frame["status"] == "not analysed").sum()) if len(frame) else 0,
         verdicts=sorted({str(v) for v in frame["verdict"]}), headings=headings, rows=rows)

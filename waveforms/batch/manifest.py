@@ -3,14 +3,16 @@
 from __future__ import annotations
 
 import contextlib
+import fcntl
 import json
+import math
 import os
 import socket
 from pathlib import Path
 from typing import Any
 
 from ..atomic import write_text
-from ..errors import InvalidParameterError
+from ..errors import InvalidParameterError, WriteError
 
 MANIFEST_FOLDER = "manifest"
 #: The ``format`` of a manifest entry.
@@ -37,8 +39,20 @@ def read_manifest(out: str | os.PathLike[str]) -> dict[str, dict[str, Any]]:
     return entries
 
 
+def json_safe(value: Any) -> Any:
+    """``value`` with every non-finite float (NaN, +/-inf) replaced by None, so that it is strict JSON."""
+    if isinstance(value, float):
+        return value if math.isfinite(value) else None
+    if isinstance(value, dict):
+        return {k: json_safe(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [json_safe(v) for v in value]
+    return value
+
+
 def write_entry(out: Path, entry: dict[str, Any]) -> None:
-    write_text(_entry_path(out, entry["key"]), json.dumps(entry, allow_nan=True, default=str))
+    """Save one finished capture's entry (strict JSON: NaN and infinities become null)."""
+    write_text(_entry_path(out, entry["key"]), json.dumps(json_safe(entry), allow_nan=False, default=str))
 
 
 LOCK_FILE = ".batch.lock"
@@ -46,35 +60,84 @@ LOCK_FILE = ".batch.lock"
 
 @contextlib.contextmanager
 def output_lock(out: Path | None):
-    """One batch run per output folder: a lock file holding host and pid (a stale one is taken over)."""
+    """One batch run per output folder.
+
+    The lock file holds the host and pid of the run; the run holds an
+    exclusive ``flock`` on it for its whole life.  The kernel drops that lock
+    when the process ends, however it ends (SIGKILL included), so a lock left
+    by a killed run is taken over; the takeover happens under the flock, so
+    two runs cannot both take it (the file's identity is checked after
+    locking, against a run that removed it meanwhile).  A lock file naming a
+    live process on this host is respected even without a flock.
+    """
     if out is None:
         yield
         return
     lock = out / LOCK_FILE
     me = f"{socket.gethostname()}:{os.getpid()}"
-    for _attempt in range(2):
-        try:
-            fd = os.open(lock, os.O_CREAT | os.O_EXCL | os.O_WRONLY, 0o644)
-        except FileExistsError:
-            try:
-                host, pid = lock.read_text(encoding="utf-8").strip().rsplit(":", 1)
-            except (OSError, ValueError):
-                host, pid = "", "0"
-            if host == socket.gethostname() and not _alive(int(pid)):
-                lock.unlink(missing_ok=True)  # left by a run that was killed
-                continue
-            raise InvalidParameterError(
-                f"{out}: another batch run ({host}, pid {pid}) is writing this output folder; "
-                f"wait for it, use another --out, or delete {lock} if that run is gone") from None
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            fh.write(me)
-        break
+    fd = _acquire(lock, out)
+    try:
+        os.ftruncate(fd, 0)
+        os.pwrite(fd, me.encode(), 0)
+        os.fsync(fd)
+    except OSError as e:
+        os.close(fd)
+        raise WriteError(f"{lock}: cannot write the lock file ({e.strerror})") from None
     try:
         yield
     finally:
         with contextlib.suppress(OSError):
-            if lock.read_text(encoding="utf-8").strip() == me:
-                lock.unlink()
+            os.unlink(lock)  # still holding the flock: nobody can take the file between the check and this
+        os.close(fd)
+
+
+def _acquire(lock: Path, out: Path) -> int:
+    """Open and flock ``lock`` (create-exclusive when absent); the locked descriptor."""
+    for _attempt in range(20):
+        try:
+            fd = os.open(lock, os.O_CREAT | os.O_EXCL | os.O_RDWR, 0o644)
+        except FileExistsError:
+            try:
+                fd = os.open(lock, os.O_RDWR)
+            except FileNotFoundError:
+                continue  # removed meanwhile: try again
+            except OSError as e:
+                raise WriteError(f"{lock}: cannot open the lock file ({e.strerror})") from None
+        except OSError as e:
+            raise WriteError(f"{out}: cannot write in the output folder ({e.strerror})") from None
+        try:
+            fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+        except OSError:
+            holder = _holder(fd)
+            os.close(fd)
+            raise _busy(out, lock, holder) from None
+        try:
+            same = os.fstat(fd).st_ino == os.stat(lock).st_ino
+        except FileNotFoundError:
+            same = False
+        if not same:  # the run that held it removed the file after we opened it: start again
+            os.close(fd)
+            continue
+        host, pid = _holder(fd)
+        if host == socket.gethostname() and pid != 0 and _alive(pid):
+            os.close(fd)
+            raise _busy(out, lock, (host, pid))
+        return fd  # free, or left by a run that is gone
+    raise WriteError(f"{lock}: cannot take the lock file (it keeps changing)")
+
+
+def _holder(fd: int) -> tuple[str, int]:
+    try:
+        host, pid = os.pread(fd, 300, 0).decode("utf-8", "replace").strip().rsplit(":", 1)
+        return host, int(pid)
+    except (OSError, ValueError):
+        return "", 0
+
+
+def _busy(out: Path, lock: Path, holder: tuple[str, int]) -> InvalidParameterError:
+    host, pid = holder
+    return InvalidParameterError(f"{out}: another batch run ({host or 'unknown host'}, pid {pid}) is writing this "
+                                 f"output folder; wait for it, use another --out, or delete {lock} if that run is gone")
 
 
 def _alive(pid: int) -> bool:

@@ -2,10 +2,14 @@
 
 from __future__ import annotations
 
+import contextlib
 import dataclasses
 import json
 import os
+import shutil
+import signal
 import sys
+import threading
 from collections.abc import Callable, Sequence
 from pathlib import Path
 from typing import Any
@@ -13,14 +17,14 @@ from typing import Any
 import pandas as pd
 
 from ..atomic import write_text
-from ..errors import InvalidParameterError
+from ..errors import InvalidParameterError, WriteError
 from ..recipe import Recipe, RunState, load_recipe, run_recipe
-from ..summary import events_frame, summary_frame, summary_row, write_summary
+from ..summary import error_row, events_frame, summary_frame, summary_row, write_summary
 from .executors import run_dask, run_local
 from .inputs import InputFile, discover, hash_all
-from .manifest import output_lock, read_manifest, write_entry
+from .manifest import json_safe, output_lock, read_manifest, write_entry
 from .motors import MotorMap, motor_map, plate_digest
-from .task import CaptureTask, capture_folder
+from .task import STAGING_PREFIX, CaptureTask, capture_folder
 
 CAPTURES_FOLDER = "captures"
 
@@ -37,8 +41,13 @@ class BatchResult:
         Every event: ``file``, ``site``, then the event columns.
     n_done, n_skipped, n_failed : int
         Analysed in this run, taken from the manifest, with an error row.
+    n_pending : int
+        Captures not analysed yet because the run was stopped (rows with
+        ``status`` "not analysed" in the summary).
     interrupted : bool
-        True when the run was stopped (Ctrl-C) before every capture was done.
+        True when the run was stopped (Ctrl-C, SIGTERM) before every capture was done.
+    signal : int
+        The signal that stopped it (2 SIGINT, 15 SIGTERM), 0 when not interrupted.
     out : Path or None
     files : dict
         ``summary.csv``, ``summary.parquet``, ``index.html`` paths when written.
@@ -51,6 +60,8 @@ class BatchResult:
     n_failed: int = 0
     interrupted: bool = False
     out: Path | None = None
+    n_pending: int = 0
+    signal: int = 0
     files: dict[str, Path] = dataclasses.field(default_factory=dict)
 
     @property
@@ -145,8 +156,13 @@ def run(
     sched = rec.batch.get("scheduler", "") if scheduler is None else scheduler
 
     if out_path is not None:
-        out_path.mkdir(parents=True, exist_ok=True)
-    with output_lock(out_path):
+        try:
+            out_path.mkdir(parents=True, exist_ok=True)
+        except OSError as e:
+            raise WriteError(f"{out_path}: cannot create the output folder ({e.strerror or type(e).__name__})") from None
+    with stop_signals(), output_lock(out_path):
+        if out_path is not None:
+            _clear_staging(out_path)
         done = read_manifest(out_path) if out_path is not None else {}
         tasks, todo, _states = _plan(files, rec, mmap, out_path, done, force, retry_errors, n_jobs)
         keys = [t.key for t in tasks]
@@ -159,6 +175,8 @@ def run(
 
         def collect(entry: dict[str, Any]) -> None:
             nonlocal n_failed_new
+            if "output_error" in entry:  # the outputs could not be written: the run stops, the capture is not failed
+                raise WriteError(entry["output_error"])
             if out_path is not None:
                 write_entry(out_path, entry)
             new[entry["key"]] = entry
@@ -171,23 +189,32 @@ def run(
                 on_result(entry)
 
         interrupted = False
+        stop_signal = 0
+        write_failure: WriteError | None = None
         try:
             if sched:
                 run_dask(todo, sched, collect)
             else:
                 run_local(todo, n_jobs, collect, rec, fresh_workers)
-        except KeyboardInterrupt:
+        except KeyboardInterrupt as e:
             interrupted = True
+            stop_signal = getattr(e, "signum", signal.SIGINT)
+        except WriteError as e:
+            interrupted = True
+            write_failure = e
         finally:
             if bar is not None:
                 bar.close()
+        if interrupted:
+            # a second Ctrl-C / SIGTERM while the summary of what is done is written would lose it
+            hold_signals()
 
         entries = {**done, **new}
         rows, ev_frames = [], []
         for t, key in zip(tasks, keys, strict=True):
             e = entries.get(key)
-            if e is None:
-                continue  # not finished (interrupted)
+            if e is None:  # not reached (interrupted): listed, as not analysed yet
+                e = {"row": pending_row(t), "events": []}
             row = dict(e["row"])
             row.update(file=t.input.name, site=t.input.site, path=t.input.path)
             rows.append(row)
@@ -200,15 +227,80 @@ def run(
         events = pd.concat(ev_frames, ignore_index=True) if ev_frames else _empty_events()
         written: dict[str, Path] = {}
         if out_path is not None:
-            written = write_summary(summary, out_path, title=f"Capture summary: recipe {rec.name}")
-            index = {"format": "motor-waveforms batch manifest", "recipe": rec.name, "recipe_fingerprint": fp,
-                     "recipe_source": rec.source, "complete": not interrupted,
-                     "captures": [{"file": t.input.name, "path": t.input.path, "key": k, "done": k in entries}
-                                  for t, k in zip(tasks, keys, strict=True)]}
-            write_text(out_path / "manifest.json", json.dumps(index, indent=1))
+            try:
+                written = write_summary(summary, out_path, title=f"Capture summary: recipe {rec.name}")
+                index = {"format": "motor-waveforms batch manifest", "recipe": rec.name, "recipe_fingerprint": fp,
+                         "recipe_source": rec.source, "complete": not interrupted,
+                         "captures": [{"file": t.input.name, "path": t.input.path, "key": k, "done": k in entries}
+                                      for t, k in zip(tasks, keys, strict=True)]}
+                write_text(out_path / "manifest.json", json.dumps(json_safe(index), indent=1, allow_nan=False))
+            except WriteError as e:
+                # the first write failure is the one to name; the captures' entries stay as they were
+                raise (write_failure or e) from None
+        if write_failure is not None:
+            raise write_failure
         n_failed = int((summary["status"] == "error").sum()) if len(summary) else 0
+        n_pending = int((summary["status"] == PENDING_STATUS).sum()) if len(summary) else 0
         return BatchResult(summary=summary, events=events, n_done=len(new), n_skipped=n_skipped, n_failed=n_failed,
-                           interrupted=interrupted, out=out_path, files=written)
+                           interrupted=interrupted, out=out_path, files=written, n_pending=n_pending,
+                           signal=int(stop_signal))
+
+
+#: ``status`` of a capture the run did not reach (stopped first).
+PENDING_STATUS = "not analysed"
+#: Its verdict.
+PENDING_VERDICT = "not analysed yet (run stopped)"
+
+
+def pending_row(t: CaptureTask) -> dict[str, Any]:
+    """Summary row of a capture not reached before the run stopped: rerun the command to analyse it."""
+    row = error_row(t.input.name, t.input.site, "", {"path": t.input.path, "sha256": t.sha256,
+                                                     "recipe": t.recipe.name, "recipe_hash": t.recipe.fingerprint()[:16]})
+    row.update(status=PENDING_STATUS, verdict=PENDING_VERDICT)
+    return row
+
+
+class Stopped(KeyboardInterrupt):
+    """SIGTERM (or SIGINT) received: raised in the main thread so a run stops as on Ctrl-C."""
+
+    def __init__(self, signum: int) -> None:
+        super().__init__(signal.Signals(signum).name)
+        self.signum = signum
+
+
+def _raise_stopped(signum: int, _frame: Any) -> None:
+    raise Stopped(signum)
+
+
+@contextlib.contextmanager
+def stop_signals():
+    """While a run lasts: SIGINT and SIGTERM stop it as Ctrl-C does (main thread only; restored afterwards)."""
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+    before = {s: signal.getsignal(s) for s in (signal.SIGINT, signal.SIGTERM)}
+    for s in before:
+        signal.signal(s, _raise_stopped)
+    try:
+        yield
+    finally:
+        for s, h in before.items():
+            signal.signal(s, h if h is not None else signal.SIG_DFL)
+
+
+def hold_signals() -> None:
+    """Ignore SIGINT and SIGTERM from now until `stop_signals` restores them (the summary is being written)."""
+    if threading.current_thread() is threading.main_thread():
+        for s in (signal.SIGINT, signal.SIGTERM):
+            signal.signal(s, signal.SIG_IGN)
+
+
+def _clear_staging(out: Path) -> None:
+    """Remove staging folders left by a run that was killed (their capture was never recorded)."""
+    folder = out / CAPTURES_FOLDER
+    if folder.is_dir():
+        for p in folder.glob(f"{STAGING_PREFIX}*"):
+            shutil.rmtree(p, ignore_errors=True)
 
 
 def _plan(files: Sequence[InputFile], rec: Recipe, mmap: MotorMap, out_path: Path | None,

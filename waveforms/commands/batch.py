@@ -2,11 +2,13 @@
 
 from __future__ import annotations
 
+import signal
 import sys
 
 import click
 
 from ..batch import plan, run
+from ..terminal import terminal_text
 
 
 @click.command("batch")
@@ -37,7 +39,9 @@ def command(inputs: tuple[str, ...], out: str, recipe: str | None, jobs: int | N
     the others go on.  Rerunning the same command skips captures already done
     (same file content, recipe and nameplate); Ctrl-C keeps everything finished.
 
-    Exit code: 0 all analysed, 1 some captures failed, 130 interrupted.
+    Exit code: 0 all analysed, 1 some captures failed, 2 a bad option or an
+    output that cannot be written (the run stops), 130 interrupted by Ctrl-C
+    (SIGINT), 143 stopped by SIGTERM; see docs/batch.md.
 
     The results inform an investigation; they do not replace protective
     devices.  Work on energized equipment only by qualified people.
@@ -54,24 +58,25 @@ def command(inputs: tuple[str, ...], out: str, recipe: str | None, jobs: int | N
     try:
         res = run(list(inputs), recipe=recipe, out=out, jobs=jobs, motor=motor, motors=motors, force=force,
                   retry_errors=retry_errors, scheduler=scheduler, progress=not quiet, fresh_workers=not reuse_workers)
-    except KeyboardInterrupt:  # before any capture was dispatched (while hashing the inputs)
+    except KeyboardInterrupt as e:  # before any capture was dispatched (while hashing the inputs)
         click.echo("interrupted before any capture started; nothing was lost", err=True)
-        sys.exit(130)
+        sys.exit(128 + getattr(e, "signum", signal.SIGINT))
     total = len(res.summary)
     click.echo(f"{total} captures: {res.n_done} analysed now, {res.n_skipped} already done, "
-               f"{res.n_failed} failed" + (" (run interrupted)" if res.interrupted else ""))
+               f"{res.n_failed} failed" + (f", {res.n_pending} not analysed yet (run stopped)" if res.interrupted else ""))
     if len(res.summary):
         counts = res.summary["verdict"].replace("", "(not assessed)").value_counts()
         click.echo("verdicts: " + ", ".join(f"{v} {n}" for v, n in counts.items()))
     bad = res.summary[res.summary["status"] == "error"]
     for rec in bad.head(20).to_dict("records"):
-        click.echo(f"  failed: {rec['file']}: {rec['error']}")
+        click.echo(terminal_text(f"  failed: {rec['file']}: {rec['error']}"))
     if len(bad) > 20:
         click.echo(f"  ... and {len(bad) - 20} more (see summary.csv)")
     if res.files:
         click.echo(f"summary: {res.files['csv']}  {res.files['parquet']}  {res.files['html']}")
     if res.interrupted:
-        click.echo("interrupted: rerun the same command to resume", err=True)
-        sys.exit(130)
+        name = signal.Signals(res.signal or signal.SIGINT).name
+        click.echo(f"interrupted ({name}): rerun the same command to resume", err=True)
+        sys.exit(128 + (res.signal or signal.SIGINT))
     if res.n_failed:
         sys.exit(1)
