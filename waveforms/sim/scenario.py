@@ -68,6 +68,27 @@ Layout (all tables optional except ``[scenario]``, ``[supply]`` and a machine)::
     slot_db = -55
     rotor_bars = 28            # default: the nameplate's rotor_bars
 
+    [site]                     # optional: the site around the motor (waveforms.sim.site)
+    logger_at = "feeder"       # feeder | branch | motor | second_motor
+    cable_r_ohm = 0.01         # motor cable, between its switch and its terminals
+    cable_x_ohm = 0.01
+    [[site.capacitor]]
+    at = "bus"                 # bus (upstream of the motor switch) | motor (at its terminals)
+    connection = "delta"       # delta | star (floating neutral)
+    fla_pu = 0.3               # line current in pu of the nameplate FLA, or kvar = 12.0
+    [site.second_motor]
+    machine = "sludge4.machine.toml"   # or an inline [site.second_motor.machine] table
+    load = {kind = "constant", torque_n_m = 120.0}
+    [site.transformer]         # [supply] is then the primary source
+    kva = 300
+    secondary_voltage_ll_v = 460    # primary_voltage_ll_v defaults to supply.voltage_ll_v
+    vector_group = "Dyn11"          # or "Dyn1"
+    impedance_pct = 5.0
+    x_over_r = 5.0
+    magnetising_pct = 1.0
+    closed_at_start = "ABC"
+    ops = [{line = "A", time_s = 2.0, action = "open"}]
+
     [[truth.windows]]
     name = "running"
     start_s = 1.0
@@ -94,6 +115,7 @@ from .logger import ChannelError, Logger
 from .machine import MachineParameters, load_machine
 from ..motor.nameplate import Nameplate, load_nameplate
 from .signatures import Signatures
+from .site import CapacitorBank, SecondMotor, Site, Transformer, bank_capacitance_f
 from .supply import Dip, Harmonic, Supply
 
 
@@ -130,13 +152,17 @@ class Scenario:
     source_path: str = ""
     source_sha256: str = ""
     notes: tuple[str, ...] = ()
+    site: Site | None = None
 
     def __post_init__(self) -> None:
         if not (math.isfinite(self.duration_s) and 0.05 <= self.duration_s <= 3600.0):
             raise InvalidParameterError(f"scenario duration_s={self.duration_s!r} must be 0.05..3600")
         if self.initial_state not in ("steady", "rest", "coasting"):
             raise InvalidParameterError(f"initial state={self.initial_state!r} must be 'steady', 'rest' or 'coasting'")
-        if self.open_point not in ("upstream", "downstream"):
+        if self.site is not None and self.open_point != self.site.open_point:
+            raise InvalidParameterError(f"switches open_point={self.open_point!r} contradicts site logger_at={self.site.logger_at!r} "
+                                        f"(the motor switch is {self.site.open_point} of the logger); leave open_point out")
+        if self.open_point not in ("upstream", "downstream") and self.site is None:
             raise InvalidParameterError(f"switches open_point={self.open_point!r} must be 'upstream' or 'downstream'")
         for w in self.windows:
             if not (0 <= w.start_s < w.end_s <= self.duration_s):
@@ -172,7 +198,7 @@ def scenario_from_dict(data: dict[str, Any], path: str = "<scenario>", base: Pat
     """Build a `Scenario` from a parsed TOML mapping (see the module docstring)."""
     base = base or Path(".")
     top = _table(data, "", path, {"scenario", "initial", "machine", "machine_from_nameplate", "load", "supply", "switches", "logger",
-                                  "signatures", "truth"})
+                                  "signatures", "truth", "site"})
     sc = _table(top.get("scenario"), "scenario", path, {"name", "description", "duration_s", "seed", "machine", "nameplate", "locked_rotor"})
     where = "scenario"
     try:
@@ -264,6 +290,11 @@ def scenario_from_dict(data: dict[str, Any], path: str = "<scenario>", base: Pat
                                 eccentricity_phase_deg=float(sg.get("eccentricity_phase_deg", 0.0)),
                                 slot_phase_deg=float(sg.get("slot_phase_deg", 0.0)))
 
+        where = "site"
+        site = _site(top.get("site"), path, base, sp, supply, machine, nameplate) if "site" in top else None
+        if site is not None and "open_point" not in sw:
+            sw = {**sw, "open_point": site.open_point}
+
         where = "truth"
         tr = _table(top.get("truth"), "truth", path, {"windows"})
         windows = tuple(Window(str(w["name"]), float(w["start_s"]), float(w["end_s"])) for w in _list(tr.get("windows"), "truth.windows", path))
@@ -278,11 +309,78 @@ def scenario_from_dict(data: dict[str, Any], path: str = "<scenario>", base: Pat
             load=load, supply=supply, closed_at_start=closed0,
             switch_ops=ops, open_point=str(sw.get("open_point", "upstream")), logger=logger, signatures=signatures,
             windows=windows, locked_rotor=bool(sc.get("locked_rotor", False)), source_path=str(path), notes=notes,
+            site=site,
         )
     except InvalidParameterError as e:
         raise CaptureReadError(path, f"table [{where}]", str(e)) from None
     except (KeyError, TypeError, ValueError) as e:
         raise CaptureReadError(path, f"table [{where}]", f"missing or malformed value ({e!s})") from None
+
+
+def _load_from(d: dict[str, Any], where: str, path: str, default_rpm: float) -> Load:
+    ld = _table(d, where, path, {"kind", "torque_n_m", "reference_speed_rpm", "breakaway_n_m", "steps", "jam"})
+    steps = tuple(LoadStep(float(s["time_s"]), float(s["torque_n_m"])) for s in _list(ld.get("steps"), f"{where}.steps", path))
+    jam = Jam(float(ld["jam"]["time_s"]), float(ld["jam"]["torque_n_m"])) if "jam" in ld else None
+    ref_rpm = float(ld.get("reference_speed_rpm", default_rpm))
+    return Load(kind=str(ld.get("kind", "constant")), torque_n_m=float(ld.get("torque_n_m", 0.0)),
+                reference_speed_rad_s=ref_rpm * 2.0 * math.pi / 60.0, breakaway_n_m=float(ld.get("breakaway_n_m", 0.0)),
+                steps=steps, jam=jam)
+
+
+def _site(d: Any, path: str, base: Path, sp: dict[str, Any], supply: Supply, machine: MachineParameters,
+          nameplate: Nameplate | None) -> Site:
+    """The ``[site]`` table (see `waveforms.sim.site`)."""
+    st = _table(d, "site", path, {"logger_at", "cable_r_ohm", "cable_x_ohm", "capacitor", "second_motor", "transformer"})
+    transformer = None
+    if "transformer" in st:
+        tt = _table(st["transformer"], "site.transformer", path, {"kva", "primary_voltage_ll_v", "secondary_voltage_ll_v", "vector_group",
+                                                                   "impedance_pct", "x_over_r", "magnetising_pct", "closed_at_start", "ops"})
+        for key in ("kva", "secondary_voltage_ll_v"):
+            if key not in tt:
+                raise CaptureReadError(path, f"key site.transformer.{key}", "missing")
+        ops = []
+        for i, o in enumerate(_list(tt.get("ops"), "site.transformer.ops", path)):
+            op = SwitchOp(str(o["line"]), float(o["time_s"]), str(o["action"]))
+            if op.line not in ("A", "B", "C") or op.action not in ("open", "close") or not op.time_s > 0:
+                raise CaptureReadError(path, f"key site.transformer.ops[{i}]",
+                                       f"line={op.line!r} must be A/B/C, action={op.action!r} open/close and time_s > 0")
+            ops.append(op)
+        transformer = Transformer(kva=float(tt["kva"]), primary_voltage_ll_v=float(tt.get("primary_voltage_ll_v", supply.voltage_ll_v)),
+                                  secondary_voltage_ll_v=float(tt["secondary_voltage_ll_v"]), vector_group=str(tt.get("vector_group", "Dyn11")),
+                                  impedance_pct=float(tt.get("impedance_pct", 5.0)), x_over_r=float(tt.get("x_over_r", 5.0)),
+                                  magnetising_pct=float(tt.get("magnetising_pct", 1.0)),
+                                  closed_at_start=_lines(tt.get("closed_at_start", "ABC"), "site.transformer.closed_at_start", path),
+                                  ops=tuple(ops))
+    v_bus = transformer.secondary_voltage_ll_v if transformer is not None else supply.voltage_ll_v
+    banks = []
+    for i, b in enumerate(_list(st.get("capacitor"), "site.capacitor", path)):
+        where = f"site.capacitor[{i}]"
+        bt = _table(b, where, path, {"at", "connection", "kvar", "fla_pu", "rated_voltage_ll_v"})
+        if ("kvar" in bt) == ("fla_pu" in bt):
+            raise CaptureReadError(path, f"key {where}", "give exactly one of kvar and fla_pu")
+        if "fla_pu" in bt and nameplate is None:
+            raise CaptureReadError(path, f"key {where}.fla_pu", "needs scenario.nameplate (its fla_a); give kvar instead")
+        conn = str(bt.get("connection", "delta"))
+        if conn not in ("delta", "star"):
+            raise CaptureReadError(path, f"key {where}.connection", f"{conn!r} must be 'delta' or 'star'")
+        try:
+            c = bank_capacitance_f(conn, float(bt.get("rated_voltage_ll_v", v_bus)), supply.frequency_hz,
+                                   kvar=float(bt["kvar"]) if "kvar" in bt else None,
+                                   line_current_a=float(bt["fla_pu"]) * nameplate.fla_a if "fla_pu" in bt and nameplate is not None else None)
+            banks.append(CapacitorBank(str(bt.get("at", "bus")), conn, c))
+        except InvalidParameterError as e:
+            raise CaptureReadError(path, f"key {where}", str(e)) from None
+    second = None
+    if "second_motor" in st:
+        sm = _table(st["second_motor"], "site.second_motor", path, {"machine", "load", "name"})
+        if "machine" not in sm:
+            raise CaptureReadError(path, "key site.second_motor.machine", "missing: a machine file or an inline table")
+        m2 = (MachineParameters.from_dict(dict(sm["machine"]), f"{path} [site.second_motor.machine]") if isinstance(sm["machine"], dict)
+              else load_machine(base / str(sm["machine"])))
+        second = SecondMotor(m2, _load_from(sm.get("load"), "site.second_motor.load", path, 120.0 * 60.0 / m2.poles),
+                             str(sm.get("name", "second motor")))
+    return Site(logger_at=str(st.get("logger_at", "motor")), banks=tuple(banks), second_motor=second, transformer=transformer,
+                cable_r_ohm=float(st.get("cable_r_ohm", 0.0)), cable_x_ohm=float(st.get("cable_x_ohm", 0.0)))
 
 
 def load_scenario(path: str | PathLike[str]) -> Scenario:

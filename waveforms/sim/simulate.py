@@ -85,6 +85,8 @@ class Simulation:
     clipped: dict[str, int]
     capture: Capture | None = None
     truth: dict | None = None
+    site: dict | None = None
+    i_logger_smooth_a: np.ndarray | None = None
 
 
 def initial_state(sc: Scenario) -> np.ndarray:
@@ -102,6 +104,10 @@ def run(sc: Scenario) -> Simulation:
     """Simulate a scenario; see the module docstring."""
     from .truth import build_truth  # truth needs Simulation; import here to keep modules one-way at import time
 
+    if sc.site is not None:  # capacitor banks, a second motor, a transformer: the network solution
+        from .site_run import run_site
+
+        return run_site(sc)
     fs = sc.logger.sample_rate_hz
     n = int(round(sc.duration_s * fs))
     t = np.arange(n) / fs
@@ -182,6 +188,7 @@ def _capture(sc: Scenario, sim: Simulation) -> Capture:
     )
     return from_arrays(
         {c.name: recorded[c.name] for c in chans}, chans, sc.logger.sample_rate_hz, sc.logger.start_time,
-        nominal_frequency_hz=sc.supply.frequency_hz, nominal_voltage_v=sc.supply.voltage_ll_v,
+        nominal_frequency_hz=sc.supply.frequency_hz,
+        nominal_voltage_v=sc.site.transformer.secondary_voltage_ll_v if sc.site is not None and sc.site.transformer is not None else sc.supply.voltage_ll_v,
         wiring="4-wire" if sc.logger.voltages == "LN" else "3-wire", provenance=prov, nameplate=sc.nameplate,
     )

@@ -181,7 +181,63 @@ def events(sim: Simulation) -> list[dict[str, Any]]:
         v2 = (e[0] + A_OP**2 * e[1] + A_OP * e[2]) / 3
         out.append({"kind": "unbalance", "phase": None, "start_s": 0.0, "end_s": None,
                     "emf_vuf_pct": _f(100 * abs(v2) / abs(v1), 4), "where": "source EMF"})
+    if sim.site is not None:
+        for e in out:
+            if e["kind"] == "open_phase":
+                e["where"] = "motor switch"
+        out += _primary_open_events(sim)
     out.sort(key=lambda e: (e["start_s"] if e["start_s"] is not None else -1.0, e["kind"]))
+    return out
+
+
+def _primary_open_events(sim: Simulation) -> list[dict[str, Any]]:
+    """Open transformer primary lines (one line open of three): ``open_phase`` with location ``transformer_primary``."""
+    tr = getattr(sim.trajectory, "primary_interruptions", None)
+    if tr is None:
+        return []
+    f1 = sim.scenario.supply.f_hz
+    t_last = float(sim.t_s[-1])
+    out: list[dict[str, Any]] = []
+    stretches: list[list[Any]] = []
+    for p in sim.trajectory.pieces:
+        if p.t1_s <= p.t0_s:
+            continue
+        if stretches and stretches[-1][2] == p.closed_primary and abs(stretches[-1][1] - p.t0_s) < 1e-12:
+            stretches[-1][1] = p.t1_s
+        else:
+            stretches.append([p.t0_s, p.t1_s, p.closed_primary])
+    commanded = {(line, round(act, 9)): cmd for line, cmd, act in tr}
+    for t0, t1, closed in stretches:
+        if sum(closed) != 2:
+            continue
+        at_end = t1 >= t_last - 1e-9
+        if not at_end and t1 - t0 < 1.0 / f1:
+            continue
+        line = "ABC"[list(closed).index(False)]
+        out.append({"kind": "open_phase", "phase": line, "start_s": _f(t0), "end_s": None if at_end else _f(t1),
+                    "commanded_s": _f(commanded.get((line, round(t0, 9)))), "location": "transformer_primary",
+                    "where": "transformer primary line (the secondary keeps three live lines)"})
+    return out
+
+
+def _site_window(sim: Simulation, sl: slice, f1: float, ref: float) -> dict[str, Any]:
+    """Per-branch phasors of a site run over one window (see `waveforms.sim.site_run`)."""
+    t = sim.t_s[sl]
+    rec = sim.site or {}
+    out: dict[str, Any] = {}
+    for key, label in (("v_bus_v", "V_bus"), ("i_feeder_a", "I_feeder"), ("i_branch_a", "I_branch"), ("i_bank_bus_a", "I_bank_bus"),
+                       ("i_bank_motor_a", "I_bank_motor"), ("i_second_motor_a", "I_second_motor"), ("i_magnetising_a", "I_magnetising"),
+                       ("i_primary_a", "I_primary")):
+        if key in rec and np.any(rec[key][:, sl]):
+            ph = phasors(rec[key][:, sl], t, f1)
+            out[label] = {c: _ph(complex(ph[j]), ref) for j, c in enumerate("abc" if label != "I_primary" else "ABC")}
+    out["I_motor"] = {c: _ph(complex(z), ref) for c, z in zip("abc", phasors(sim.i_line_smooth_a[:, sl], t, f1), strict=True)}
+    out["P_motor_w"] = _f(float(np.mean(np.sum(sim.v_motor_v[:, sl] * sim.i_line_smooth_a[:, sl], axis=0))), 2)
+    if "i_second_motor_a" in rec:
+        w2 = rec["omega2_rad_s"][sl]
+        out["second_motor_speed_rpm"] = _f(float(np.mean(w2)) * 60 / (2 * math.pi), 4)
+        out["P_second_motor_w"] = _f(float(np.mean(np.sum(rec["v_bus_v"][:, sl] * rec["i_second_motor_a"][:, sl], axis=0))), 2)
+    out["P_feeder_w"] = _f(float(np.mean(np.sum(rec["v_bus_v"][:, sl] * rec["i_feeder_a"][:, sl], axis=0))), 2)
     return out
 
 
@@ -237,7 +293,8 @@ def window(sim: Simulation, name: str, start_s: float, end_s: float) -> dict[str
     vl = phasors(sim.v_logger_v[:, sl], tt, f1)
     vm = phasors(sim.v_motor_v[:, sl], tt, f1)
     em = phasors(sim.emf_v[:, sl], tt, f1)
-    il = phasors(sim.i_line_smooth_a[:, sl], tt, f1)
+    i_seen = sim.i_logger_smooth_a if sim.i_logger_smooth_a is not None else sim.i_line_smooth_a  # a site: what the logger sees
+    il = phasors(i_seen[:, sl], tt, f1)
     v0, v1, v2 = sequence(vl)
     i0, i1, i2 = sequence(il)
     ref = math.degrees(math.atan2(v1.imag, v1.real))
@@ -250,7 +307,7 @@ def window(sim: Simulation, name: str, start_s: float, end_s: float) -> dict[str
     ws = sc.machine.synchronous_speed_rad_s(f1)
     wm = float(np.mean(sim.omega_m_rad_s[sl]))
     slip = 1 - abs(wm) / ws  # relative to the rotor's own running direction, as the tool reports it
-    p_w = float(np.mean(np.sum(sim.v_logger_v[:, sl] * sim.i_line_smooth_a[:, sl], axis=0)))
+    p_w = float(np.mean(np.sum(sim.v_logger_v[:, sl] * i_seen[:, sl], axis=0)))
     out: dict[str, Any] = {
         "name": name, "start_s": start_s, "end_s": end_s, "frequency_hz": f1,
         "voltage_reference": "logger voltage inputs, line-to-neutral against the source neutral",
@@ -264,11 +321,13 @@ def window(sim: Simulation, name: str, start_s: float, end_s: float) -> dict[str
         "V2_V1_pct": _f(100 * abs(v2) / abs(v1), 4) if abs(v1) > 0 else None,
         "I2_I1_pct": _f(100 * abs(i2) / abs(i1), 4) if abs(i1) > 0 else None,
         "V_unbal_nema_pct": _f(nema, 4), "V_unbal_pvur_pct": _f(pvur, 4), "I_unbal_nema_pct": _f(inema, 4),
-        "I_rms": {c: _f(float(np.sqrt(np.mean(sim.i_line_smooth_a[j, sl] ** 2))), 4) for j, c in enumerate("abc")},
+        "I_rms": {c: _f(float(np.sqrt(np.mean(i_seen[j, sl] ** 2))), 4) for j, c in enumerate("abc")},
         "speed_rpm": _f(wm * 60 / (2 * math.pi), 4), "slip": _f(slip, 6),
         "torque_n_m": _f(float(np.mean(sim.torque_n_m[sl])), 4), "P_w": _f(p_w, 2),
         "signature_lines_hz": {k: _f(v, 4) for k, v in expected_lines_hz(sc.signatures, f1, slip, sc.machine.pole_pairs).items()},
     }
+    if sim.site is not None:
+        out["site"] = _site_window(sim, sl, f1, ref)
     if sc.machine.connection == "delta":
         iw = phasors(sim.i_winding_a[:, sl], tt, f1)
         out["I_winding"] = {lab: _ph(complex(iw[j]), ref) for j, lab in enumerate(("ab", "bc", "ca"))}
@@ -341,7 +400,41 @@ def build_truth(sim: Simulation) -> dict[str, Any]:
                    "clipped_samples": dict(sim.clipped)},
         "definitions": {"stall_speed_pu": STALL_SPEED_PU, "stall_min_s": STALL_MIN_S, "start_max_speed_pu": START_MAX_SPEED_PU,
                         "start_end_speed_pu": START_END_SPEED_PU, "speed_track_step_s": TRACK_STEP_S},
+        **({"site": _site_truth(sim)} if sim.site is not None else {}),
         "events": events(sim),
         "windows": [window(sim, w.name, w.start_s, w.end_s) for w in wins],
         "speed_track": speed_track(sim),
     }
+
+
+def _site_truth(sim: Simulation) -> dict[str, Any]:
+    """What the site is, where the logger is, which currents it sees, and where the open points are."""
+    site = sim.scenario.site
+    assert site is not None
+    tr = site.transformer
+    f_nom = sim.scenario.supply.frequency_hz
+    v_bus = tr.secondary_voltage_ll_v if tr is not None else sim.scenario.supply.voltage_ll_v
+    banks = [{"at": b.at, "connection": b.connection, "unit_capacitance_uf": _f(b.capacitance_f * 1e6, 4),
+              "star_equivalent_uf": _f(b.star_equivalent_f * 1e6, 4),
+              "line_current_at_rated_a": _f(v_bus / math.sqrt(3) * 2 * math.pi * f_nom * b.star_equivalent_f, 4),
+              "kvar_at_rated": _f(v_bus**2 * 2 * math.pi * f_nom * b.star_equivalent_f / 1e3, 4)} for b in site.banks]
+    out: dict[str, Any] = {
+        "logger_at": site.logger_at, "logger_currents": site.logger_sees(),
+        "motor_switch": {"between": "bus S and the motor's cable", "seen_from_logger": site.open_point},
+        "cable_r_ohm": site.cable_r_ohm, "cable_x_ohm": site.cable_x_ohm, "capacitor_banks": banks,
+        "stiff_source": tr is None and sim.scenario.supply.source_r_ohm == 0 and sim.scenario.supply.source_x_ohm == 0,
+        "second_motor": None if site.second_motor is None else {"name": site.second_motor.name, "machine": site.second_motor.machine.to_dict(),
+                                                                "load": {"kind": site.second_motor.load.kind, "torque_n_m": site.second_motor.load.torque_n_m}},
+        "transformer": None,
+    }
+    if tr is not None:
+        out["transformer"] = {"kva": tr.kva, "primary_voltage_ll_v": tr.primary_voltage_ll_v, "secondary_voltage_ll_v": tr.secondary_voltage_ll_v,
+                              "vector_group": tr.vector_group, "impedance_pct": tr.impedance_pct, "x_over_r": tr.x_over_r,
+                              "magnetising_pct": tr.magnetising_pct,
+                              "model": "ideal ratio with the vector group's winding connection + leakage impedance referred to the secondary "
+                                       "+ linear magnetising inductance at the secondary terminals",
+                              "primary_closed_at_start": "".join(c for c, on in zip("ABC", tr.closed_at_start, strict=True) if on),
+                              "primary_interruptions": [{"line": ln, "commanded_s": _f(c), "current_zero_s": _f(a)}
+                                                        for ln, c, a in sim.trajectory.primary_interruptions],  # type: ignore[attr-defined]
+                              "primary_closings": [{"line": ln, "time_s": _f(tc)} for ln, tc in sim.trajectory.primary_closings]}  # type: ignore[attr-defined]
+    return out
