@@ -47,6 +47,9 @@ class Logger:
         [Hz]
     voltages : {"LN", "LL"}
         Record line-to-neutral voltages (against the source neutral) or line-to-line.
+    currents : {"line", "winding"}
+        Current clamps on the three lines, or on the windings of a delta motor (a six-lead hook-up:
+        channels Ia, Ib, Ic carry the winding currents A-B, B-C, C-A, in the direction A->B, B->C, C->A).
     start_time : datetime
         Absolute, timezone-aware time of the first sample.
     adc_bits : int or None
@@ -63,6 +66,7 @@ class Logger:
 
     sample_rate_hz: float = 5000.0
     voltages: str = "LN"
+    currents: str = "line"
     start_time: _dt.datetime = _dt.datetime(2026, 3, 2, 8, 0, tzinfo=_dt.timezone.utc)
     adc_bits: int | None = 16
     voltage_range_v: float = 1024.0
@@ -77,6 +81,8 @@ class Logger:
             raise InvalidParameterError(f"logger sample_rate_hz={self.sample_rate_hz!r} must be >= 500")
         if self.voltages not in ("LN", "LL"):
             raise InvalidParameterError(f"logger voltages={self.voltages!r} must be 'LN' or 'LL'")
+        if self.currents not in ("line", "winding"):
+            raise InvalidParameterError(f"logger currents={self.currents!r} must be 'line' or 'winding'")
         if self.start_time.tzinfo is None or self.start_time.utcoffset() is None:
             raise InvalidParameterError(f"logger start_time={self.start_time.isoformat()} must carry a UTC offset")
         if self.adc_bits is not None and not (isinstance(self.adc_bits, int) and 8 <= self.adc_bits <= 32):

@@ -51,6 +51,7 @@ Layout (all tables optional except ``[scenario]``, ``[supply]`` and a machine)::
     [logger]
     sample_rate_hz = 5000
     voltages = "LN"            # or "LL"
+    currents = "line"          # or "winding": a six-lead hook-up on a delta motor (Ia, Ib, Ic = windings AB, BC, CA)
     start_time = 2026-03-02T08:00:00+01:00
     adc_bits = 16
     voltage_range_v = 1024
@@ -88,6 +89,10 @@ Layout (all tables optional except ``[scenario]``, ``[supply]`` and a machine)::
     magnetising_pct = 1.0
     closed_at_start = "ABC"
     ops = [{line = "A", time_s = 2.0, action = "open"}]
+    [site.grounding]           # the source neutral: solid (default) | resistance | ungrounded
+    kind = "ungrounded"
+    charging_uf_per_phase = 1.0
+    faults = [{line = "A", start_s = 1.0, end_s = 2.0, resistance_ohm = 0.0}]   # on another feeder
 
     [[truth.windows]]
     name = "running"
@@ -115,6 +120,7 @@ from .logger import ChannelError, Logger
 from .machine import MachineParameters, load_machine
 from ..motor.nameplate import Nameplate, load_nameplate
 from .signatures import Signatures
+from .grounding import GroundFault, Grounding
 from .site import CapacitorBank, SecondMotor, Site, Transformer, bank_capacitance_f
 from .supply import Dip, Harmonic, Supply
 
@@ -162,6 +168,10 @@ class Scenario:
         if self.site is not None and self.open_point != self.site.open_point:
             raise InvalidParameterError(f"switches open_point={self.open_point!r} contradicts site logger_at={self.site.logger_at!r} "
                                         f"(the motor switch is {self.site.open_point} of the logger); leave open_point out")
+        if self.logger.currents == "winding" and self.machine.connection != "delta":
+            raise InvalidParameterError("logger currents='winding' (a six-lead hook-up) needs a delta-connected machine")
+        if self.logger.currents == "winding" and self.site is not None and self.site.logger_at != "motor":
+            raise InvalidParameterError("logger currents='winding' needs site logger_at='motor' (the winding currents are the motor's)")
         if self.open_point not in ("upstream", "downstream") and self.site is None:
             raise InvalidParameterError(f"switches open_point={self.open_point!r} must be 'upstream' or 'downstream'")
         for w in self.windows:
@@ -263,7 +273,7 @@ def scenario_from_dict(data: dict[str, Any], path: str = "<scenario>", base: Pat
                                        f"{o.time_s} s is outside the capture (0, {float(sc['duration_s']):g}) s; give the state at t = 0 with closed_at_start")
 
         where = "logger"
-        lg = _table(top.get("logger"), "logger", path, {"sample_rate_hz", "voltages", "start_time", "adc_bits", "voltage_range_v",
+        lg = _table(top.get("logger"), "logger", path, {"sample_rate_hz", "voltages", "currents", "start_time", "adc_bits", "voltage_range_v",
                                                          "current_range_a", "noise_v", "noise_a", "channels", "storage"})
         start = lg.get("start_time", Logger.start_time)
         if isinstance(start, str):
@@ -276,6 +286,7 @@ def scenario_from_dict(data: dict[str, Any], path: str = "<scenario>", base: Pat
             chans[name] = ChannelError(float(ce.get("gain", 1.0)), float(ce.get("offset", 0.0)), float(ce.get("phase_deg", 0.0)))
         bits = lg.get("adc_bits", 16)
         logger = Logger(sample_rate_hz=float(lg.get("sample_rate_hz", 5000.0)), voltages=str(lg.get("voltages", "LN")),
+                        currents=str(lg.get("currents", "line")),
                         start_time=start, adc_bits=None if bits in (0, None) else int(bits),
                         voltage_range_v=float(lg.get("voltage_range_v", 1024.0)), current_range_a=float(lg.get("current_range_a", 1024.0)),
                         noise_v=float(lg.get("noise_v", 0.0)), noise_a=float(lg.get("noise_a", 0.0)),
@@ -330,7 +341,19 @@ def _load_from(d: dict[str, Any], where: str, path: str, default_rpm: float) -> 
 def _site(d: Any, path: str, base: Path, sp: dict[str, Any], supply: Supply, machine: MachineParameters,
           nameplate: Nameplate | None) -> Site:
     """The ``[site]`` table (see `waveforms.sim.site`)."""
-    st = _table(d, "site", path, {"logger_at", "cable_r_ohm", "cable_x_ohm", "capacitor", "second_motor", "transformer"})
+    st = _table(d, "site", path, {"logger_at", "cable_r_ohm", "cable_x_ohm", "capacitor", "second_motor", "transformer", "grounding"})
+    grounding = None
+    if "grounding" in st:
+        gt = _table(st["grounding"], "site.grounding", path, {"kind", "resistance_ohm", "charging_uf_per_phase", "faults"})
+        faults = []
+        for i, f in enumerate(_list(gt.get("faults"), "site.grounding.faults", path)):
+            ft = _table(f, f"site.grounding.faults[{i}]", path, {"line", "start_s", "end_s", "resistance_ohm"})
+            faults.append(GroundFault(str(ft["line"]), float(ft["start_s"]), float(ft["end_s"]), float(ft.get("resistance_ohm", 0.0))))
+        try:
+            grounding = Grounding(kind=str(gt.get("kind", "solid")), resistance_ohm=float(gt.get("resistance_ohm", 0.0)),
+                                  charging_uf_per_phase=float(gt.get("charging_uf_per_phase", 1.0)), faults=tuple(faults))
+        except InvalidParameterError as e:
+            raise CaptureReadError(path, "key site.grounding", str(e)) from None
     transformer = None
     if "transformer" in st:
         tt = _table(st["transformer"], "site.transformer", path, {"kva", "primary_voltage_ll_v", "secondary_voltage_ll_v", "vector_group",
@@ -380,7 +403,7 @@ def _site(d: Any, path: str, base: Path, sp: dict[str, Any], supply: Supply, mac
         second = SecondMotor(m2, _load_from(sm.get("load"), "site.second_motor.load", path, 120.0 * 60.0 / m2.poles),
                              str(sm.get("name", "second motor")))
     return Site(logger_at=str(st.get("logger_at", "motor")), banks=tuple(banks), second_motor=second, transformer=transformer,
-                cable_r_ohm=float(st.get("cable_r_ohm", 0.0)), cable_x_ohm=float(st.get("cable_x_ohm", 0.0)))
+                cable_r_ohm=float(st.get("cable_r_ohm", 0.0)), cable_x_ohm=float(st.get("cable_x_ohm", 0.0)), grounding=grounding)
 
 
 def load_scenario(path: str | PathLike[str]) -> Scenario:

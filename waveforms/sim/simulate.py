@@ -168,13 +168,17 @@ def _post_process(sc: Scenario, traj: Trajectory) -> Simulation:
     else:
         for j, lab in enumerate(("ab", "bc", "ca")):
             signals[f"V{lab}"] = v_logger[j] - v_logger[(j + 1) % 3]
+    i_seen = i_wind if sc.logger.currents == "winding" else i_line_sig  # six-lead hook-up: winding currents AB, BC, CA
     for j, c in enumerate("abc"):
-        signals[f"I{c}"] = i_line_sig[j]
-    return Simulation(
+        signals[f"I{c}"] = i_seen[j]
+    sim = Simulation(
         scenario=sc, trajectory=traj, t_s=t, emf_v=emf, v_motor_v=v_motor, v_source_v=v_src_side, v_logger_v=v_logger,
         i_line_a=i_line_sig, i_winding_a=i_wind, i_line_smooth_a=i_line, omega_m_rad_s=y[4].copy(), theta_m_rad=y[5].copy(),
         torque_n_m=te, load_torque_n_m=tl, closed=closed, signals=signals, clipped={},
     )
+    if sc.logger.currents == "winding":
+        sim.i_logger_smooth_a = CLARKE.T @ i_s
+    return sim
 
 
 def _capture(sc: Scenario, sim: Simulation) -> Capture:

@@ -30,6 +30,9 @@ What is modelled and what is neglected:
 * second motor: a full induction-machine model of its own (parameters, inertia, load), always
   connected, running steadily at t = 0; no signature side-bands of its own beyond the same
   modulation settings driven by its own rotor angle;
+* source grounding (`waveforms.sim.grounding`): solid, resistance or ungrounded, with ground faults
+  on another feeder; it moves the line-to-ground voltages only (the logger's line-to-neutral inputs
+  are then referred to ground);
 * cable: series resistance and inductance per line between the motor switch and the motor terminals
   (no capacitance);
 * transformer: ideal ratio with the vector group's winding connection (Dyn11 or Dyn1), the
@@ -50,6 +53,7 @@ import numpy as np
 
 from ..errors import InvalidParameterError
 from .dynamics import SwitchOp
+from .grounding import Grounding
 from .loads import Load
 from .machine import MachineParameters
 from .topology import CLARKE, DELTA_D
@@ -221,6 +225,7 @@ class Site:
     transformer: Transformer | None = None
     cable_r_ohm: float = 0.0
     cable_x_ohm: float = 0.0
+    grounding: Grounding | None = None
 
     def __post_init__(self) -> None:
         if self.logger_at not in LOGGER_POINTS:

@@ -155,6 +155,19 @@ def _post_process(sc: Scenario, net: Network, traj: SiteTrajectory) -> Simulatio
     if site.transformer is not None:
         rec["i_magnetising_a"] = lines("mag")
         rec["i_primary_a"] = net.n_map @ y[b["feeder"] : b["feeder"] + 2]
+    if site.grounding is not None and site.grounding.kind != "solid":
+        from .grounding import neutral_voltage_v
+
+        if site.transformer is not None:  # the secondary's open-circuit EMF drives its zero-sequence circuit
+            def phasors_at(tt: float) -> np.ndarray:
+                return CLARKE.T @ (net.n_map.T @ sup.phasors(tt))
+        else:
+            phasors_at = sup.phasors
+        v_n = neutral_voltage_v(site.grounding, phasors_at, sup.orders, sup.omega_rad_s, t, sup.change_times_s())
+        rec["v_neutral_v"] = v_n
+        v_bus = v_bus + v_n
+        v_motor = v_motor + v_n
+        rec["v_bus_v"] = v_bus
     where = site.logger_at
     if where == "feeder":
         i_log, extra, v_log = rec["i_feeder_a"], sig_extra + sig2, v_bus
@@ -164,6 +177,8 @@ def _post_process(sc: Scenario, net: Network, traj: SiteTrajectory) -> Simulatio
         i_log, extra, v_log = i_motor, sig_extra, v_motor
     else:
         i_log, extra, v_log = rec["i_second_motor_a"], sig2, v_bus
+    if sc.logger.currents == "winding":  # six-lead hook-up on the (delta) motor: windings AB, BC, CA
+        i_log, extra = CLARKE.T @ i_s1, (fac1 - 1.0) * (CLARKE.T @ i_s1)
     signals: dict[str, np.ndarray] = {}
     if sc.logger.voltages == "LN":
         for j, c in enumerate("abc"):

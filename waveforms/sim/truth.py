@@ -186,6 +186,11 @@ def events(sim: Simulation) -> list[dict[str, Any]]:
             if e["kind"] == "open_phase":
                 e["where"] = "motor switch"
         out += _primary_open_events(sim)
+        gr = sc.site.grounding if sc.site is not None else None
+        for gf in (gr.faults if gr is not None else ()):
+            out.append({"kind": "ground_fault", "phase": gf.line, "start_s": _f(gf.start_s), "end_s": _f(gf.end_s) if gf.end_s < t_end else None,
+                        "resistance_ohm": gf.resistance_ohm, "location": "another feeder", "grounding": gr.kind,
+                        "where": "line-to-ground voltages shift with the source neutral; line-to-line voltages unchanged"})
     out.sort(key=lambda e: (e["start_s"] if e["start_s"] is not None else -1.0, e["kind"]))
     return out
 
@@ -225,11 +230,14 @@ def _site_window(sim: Simulation, sl: slice, f1: float, ref: float) -> dict[str,
     t = sim.t_s[sl]
     rec = sim.site or {}
     out: dict[str, Any] = {}
-    for key, label in (("v_bus_v", "V_bus"), ("i_feeder_a", "I_feeder"), ("i_branch_a", "I_branch"), ("i_bank_bus_a", "I_bank_bus"),
+    for key, label in (("v_bus_v", "V_bus"), ("v_neutral_v", "V_neutral"), ("i_feeder_a", "I_feeder"), ("i_branch_a", "I_branch"), ("i_bank_bus_a", "I_bank_bus"),
                        ("i_bank_motor_a", "I_bank_motor"), ("i_second_motor_a", "I_second_motor"), ("i_magnetising_a", "I_magnetising"),
                        ("i_primary_a", "I_primary")):
-        if key in rec and np.any(rec[key][:, sl]):
-            ph = phasors(rec[key][:, sl], t, f1)
+        if key in rec and np.any(np.atleast_2d(rec[key])[:, sl]):
+            ph = phasors(np.atleast_2d(rec[key])[:, sl], t, f1)
+            if label == "V_neutral":
+                out[label] = _ph(complex(ph[0]), ref)
+                continue
             out[label] = {c: _ph(complex(ph[j]), ref) for j, c in enumerate("abc" if label != "I_primary" else "ABC")}
     out["I_motor"] = {c: _ph(complex(z), ref) for c, z in zip("abc", phasors(sim.i_line_smooth_a[:, sl], t, f1), strict=True)}
     out["P_motor_w"] = _f(float(np.mean(np.sum(sim.v_motor_v[:, sl] * sim.i_line_smooth_a[:, sl], axis=0))), 2)
@@ -377,6 +385,9 @@ def build_truth(sim: Simulation) -> dict[str, Any]:
             "start_time": sc.logger.start_time.isoformat(), "channels": list(sim.signals),
             "voltages": sc.logger.voltages, "voltage_reference": "source neutral" if sc.logger.voltages == "LN" else "line-to-line",
             "open_point": sc.open_point,
+            "currents": sc.logger.currents,
+            "current_channels": ({"Ia": "winding A-B (A->B)", "Ib": "winding B-C (B->C)", "Ic": "winding C-A (C->A)"}
+                                 if sc.logger.currents == "winding" else {"Ia": "line A", "Ib": "line B", "Ic": "line C"}),
         },
         "supply": {"frequency_hz": f1, "nominal_frequency_hz": sc.supply.frequency_hz, "voltage_ll_v": sc.supply.voltage_ll_v,
                    "magnitude_pu": list(sc.supply.magnitude_pu), "angle_offset_deg": list(sc.supply.angle_offset_deg),
@@ -421,6 +432,10 @@ def _site_truth(sim: Simulation) -> dict[str, Any]:
     out: dict[str, Any] = {
         "logger_at": site.logger_at, "logger_currents": site.logger_sees(),
         "motor_switch": {"between": "bus S and the motor's cable", "seen_from_logger": site.open_point},
+        "grounding": None if site.grounding is None else {"kind": site.grounding.kind, "resistance_ohm": site.grounding.resistance_ohm,
+                                                           "charging_uf_per_phase": site.grounding.charging_uf_per_phase},
+        "voltage_reference": ("ground (line-to-ground: the source neutral's shift included)"
+                              if site.grounding is not None and site.grounding.kind != "solid" else "source neutral"),
         "cable_r_ohm": site.cable_r_ohm, "cable_x_ohm": site.cable_x_ohm, "capacitor_banks": banks,
         "stiff_source": tr is None and sim.scenario.supply.source_r_ohm == 0 and sim.scenario.supply.source_x_ohm == 0,
         "second_motor": None if site.second_motor is None else {"name": site.second_motor.name, "machine": site.second_motor.machine.to_dict(),
