@@ -49,7 +49,7 @@ import math
 from collections.abc import Sequence
 
 import numpy as np
-from scipy.integrate import solve_ivp
+from scipy.integrate import odeint, solve_ivp
 from scipy.linalg import null_space
 from scipy.optimize import root
 
@@ -152,7 +152,8 @@ class Network:
         self.nv = 2 * len(self.cap_nodes)
         self.cap_f = np.array([cy[nd] for nd in self.cap_nodes for _ in range(2)])
         self.a_cap = np.vstack([a[2 * self.nodes.index(nd) : 2 * self.nodes.index(nd) + 2] for nd in self.cap_nodes]) if self.cap_nodes else np.zeros((0, k))
-        self.a_free = np.vstack([a[2 * self.nodes.index(nd) : 2 * self.nodes.index(nd) + 2] for nd in self.nodes if nd not in self.cap_nodes])
+        free = [a[2 * self.nodes.index(nd) : 2 * self.nodes.index(nd) + 2] for nd in self.nodes if nd not in self.cap_nodes]
+        self.a_free = np.vstack(free) if free else np.zeros((0, k))
         self.free_nodes = [nd for nd in self.nodes if nd not in self.cap_nodes]
         # state layout: x, v_c, then per machine psi (2), w (1), theta (1)
         self.ny = k + self.nv + 4 * len(self.machines)
@@ -271,9 +272,68 @@ class Segment:
             dy[ith] = y[iw]
         return dy
 
+    def linear_form(self) -> tuple[np.ndarray, np.ndarray, np.ndarray, list[np.ndarray]]:
+        """``(M, Fc, Fs, Q)`` with ``dy/dt = M y + Fc cos(h w t) + Fs sin(h w t) + sum_m w_r,m Q_m y + (torque rows)``.
+
+        The same equations as `derivative`, written as matrices once per stretch so that the solver's
+        right-hand side is a few small matrix products (the torque and load rows are added in `rhs`).
+        """
+        net = self.net
+        ny, nx = net.ny, net.nx
+        # psi rows: d psi/dt = -rr/Lr psi + rr Lm/Lr i + w_r J psi
+        dpsi_lin = np.zeros((ny, ny))
+        dpsi_q = []
+        for xi, ip, _iw, _ith, _k, rr_lr, lm, _pp, *_ in self.mach:
+            dpsi_lin[ip : ip + 2, ip : ip + 2] = -rr_lr * I2
+            dpsi_lin[ip : ip + 2, xi : xi + 2] = rr_lr * lm * I2
+            q = np.zeros((ny, ny))
+            q[ip : ip + 2, ip : ip + 2] = J2
+            dpsi_q.append(q)
+        # forcing f = e - R x + A_cap^T v - k dpsi/dt (machine rows)
+        f_lin = np.zeros((nx, ny))
+        f_lin[:, :nx] = -net.rmat
+        if net.nv:
+            f_lin[:, net.i_vc : net.i_vc + net.nv] = net.a_cap.T
+        f_q = [np.zeros((nx, ny)) for _ in self.mach]
+        for j, (xi, ip, *_rest) in enumerate(self.mach):
+            k = _rest[2]
+            f_lin[xi : xi + 2] -= k * dpsi_lin[ip : ip + 2]
+            f_q[j][xi : xi + 2] -= k * dpsi_q[j][ip : ip + 2]
+        m = dpsi_lin.copy()
+        m[:nx] = self.k @ f_lin
+        if net.nv:
+            m[net.i_vc : net.i_vc + net.nv, :nx] = -self.inv_c[:, None] * net.a_cap
+        for _xi, _ip, iw, ith, *_ in self.mach:
+            m[ith, iw] = 1.0
+        qs = []
+        for j in range(len(self.mach)):
+            q = dpsi_q[j].copy()
+            q[:nx] = self.k @ f_q[j]
+            qs.append(q)
+        fc = np.zeros((ny, self.ec.shape[1]))
+        fs = np.zeros_like(fc)
+        fc[:nx], fs[:nx] = self.k @ self.ec, self.k @ self.es
+        return m, fc, fs, qs
+
     def rhs(self):  # noqa: ANN201 - returns a closure
+        """Right-hand side ``f(t, y)`` for the solvers (see `linear_form`)."""
+        m, fc, fs, qs = self.linear_form()
+        hw = self.hw
+        mech = [(xi, ip, iw, pp * k, pp, inv_j, bf, kq, tst, q)
+                for (xi, ip, iw, _ith, k, _rr, _lm, pp, inv_j, bf, kq, tst), q in zip(self.mach, qs, strict=True)]
+        cos, sin, tanh, dot = np.cos, np.sin, math.tanh, np.dot
+        inv_eps = 1.0 / OMEGA_EPS_RAD_S
+
         def f(t: float, yy: np.ndarray) -> np.ndarray:
-            return self.derivative(np.array([t]), yy[:, None])[:, 0]
+            arg = hw * t
+            dy = dot(m, yy) + dot(fc, cos(arg)) + dot(fs, sin(arg))
+            for xi, ip, iw, ppk, pp, inv_j, bf, kq, tst, q in mech:
+                wm = yy[iw]
+                dy += (pp * wm) * dot(q, yy)
+                te = ppk * (yy[ip] * yy[xi + 1] - yy[ip + 1] * yy[xi])
+                dy[iw] = (te - kq * wm * abs(wm) - tst * tanh(wm * inv_eps) - bf * wm) * inv_j
+            return dy
+
         return f
 
     def node_voltages(self, t: np.ndarray, y: np.ndarray) -> dict[str, np.ndarray]:
@@ -440,17 +500,31 @@ def integrate_site(net: Network, t_s: np.ndarray, y0: np.ndarray, closed0: Seque
             t_eval = t_s[i_next:hi]
             t_ask = t_eval if (t_eval.size and t_eval[-1] == t_stop) else np.append(t_eval, t_stop)
             t_ask = t_ask[t_ask >= t]
-            sol = solve_ivp(seg.rhs(), (t, t_stop), y, method="LSODA", t_eval=t_ask, events=events or None,
-                            rtol=rtol, atol=atol, max_step=max_step)
-            if sol.status < 0:
-                raise InvalidParameterError(f"the site network could not be integrated at t = {t:.6f} s: {sol.message}")
-            n_rhs += int(sol.nfev)
-            got = np.asarray(sol.y).reshape(net.ny, -1)
+            if not events:
+                # no current zero to locate: LSODA through scipy.integrate.odeint (its Fortran loop
+                # interpolates to the sample instants; only the right-hand side runs in Python)
+                lead = not (t_ask.size and t_ask[0] == t)
+                t_full = np.concatenate(([t] if lead else [], t_ask))
+                rows, info = odeint(seg.rhs(), y, t_full, tfirst=True, rtol=rtol, atol=atol, hmax=max_step,
+                                    mxstep=1_000_000, full_output=True)
+                if info["message"] != "Integration successful.":
+                    raise InvalidParameterError(f"the site network could not be integrated at t = {t:.6f} s: {info['message']}")
+                n_rhs += int(info["nfe"][-1])
+                got = rows[int(lead) :].T
+                status = 0
+            else:
+                sol = solve_ivp(seg.rhs(), (t, t_stop), y, method="LSODA", t_eval=t_ask, events=events,
+                                rtol=rtol, atol=atol, max_step=max_step)
+                if sol.status < 0:
+                    raise InvalidParameterError(f"the site network could not be integrated at t = {t:.6f} s: {sol.message}")
+                n_rhs += int(sol.nfev)
+                got = np.asarray(sol.y).reshape(net.ny, -1)
+                status = sol.status
             n_got = min(got.shape[1], t_eval.size)
             states[:, i_next : i_next + n_got] = got[:, :n_got]
             pieces.append(SitePiece(t, t_stop, tuple(closed["m"]), tuple(closed["p"]), i_next, i_next + n_got))  # type: ignore[arg-type]
             i_next += n_got
-            if sol.status == 1:
+            if status == 1:
                 k_ev = [len(te) > 0 for te in sol.t_events].index(True)
                 t_hit = float(sol.t_events[k_ev][0])
                 pieces[-1] = dataclasses.replace(pieces[-1], t1_s=t_hit)
