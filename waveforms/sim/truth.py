@@ -318,7 +318,7 @@ def window(sim: Simulation, name: str, start_s: float, end_s: float) -> dict[str
     p_w = float(np.mean(np.sum(sim.v_logger_v[:, sl] * i_seen[:, sl], axis=0)))
     out: dict[str, Any] = {
         "name": name, "start_s": start_s, "end_s": end_s, "frequency_hz": f1,
-        "voltage_reference": "logger voltage inputs, line-to-neutral against the source neutral",
+        "voltage_reference": f"logger voltage inputs, line-to-neutral against the {_neutral(sc)}",
         "V": {c: _ph(complex(vl[j]), ref) for j, c in enumerate("abc")},
         "V_ll": {lab: _ph(complex(vll[j]), ref) for j, lab in enumerate(("ab", "bc", "ca"))},
         "V_motor": {c: _ph(complex(vm[j]), ref) for j, c in enumerate("abc")},
@@ -383,7 +383,7 @@ def build_truth(sim: Simulation) -> dict[str, Any]:
         "capture": {
             "sample_rate_hz": sc.logger.sample_rate_hz, "n_samples": int(sim.t_s.size), "duration_s": sim.t_s.size / sc.logger.sample_rate_hz,
             "start_time": sc.logger.start_time.isoformat(), "channels": list(sim.signals),
-            "voltages": sc.logger.voltages, "voltage_reference": "source neutral" if sc.logger.voltages == "LN" else "line-to-line",
+            "voltages": sc.logger.voltages, "voltage_reference": _neutral(sc) if sc.logger.voltages == "LN" else "line-to-line",
             "open_point": sc.open_point,
             "currents": sc.logger.currents,
             "current_channels": ({"Ia": "winding A-B (A->B)", "Ib": "winding B-C (B->C)", "Ic": "winding C-A (C->A)"}
@@ -416,6 +416,16 @@ def build_truth(sim: Simulation) -> dict[str, Any]:
         "windows": [window(sim, w.name, w.start_s, w.end_s) for w in wins],
         "speed_track": speed_track(sim),
     }
+
+
+def _neutral(sc: Any) -> str:
+    """What the line-to-neutral voltages are referred to."""
+    site = sc.site
+    if site is not None and site.grounding is not None and site.grounding.kind != "solid":
+        return "ground (the source neutral's shift included)"
+    if site is not None and site.transformer is not None:
+        return "transformer secondary neutral"
+    return "source neutral"
 
 
 def _site_truth(sim: Simulation) -> dict[str, Any]:
