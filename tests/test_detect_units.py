@@ -148,9 +148,20 @@ class TestNema:
         # NEMA MG-1: operation above 5 % unbalance not recommended (REFERENCES.md [pub])
         assert np.isnan(nema_derating_factor(6.0))
 
-    def test_temperature_rule(self):
-        # rule of thumb 2 x (% unbalance)^2: 3 % -> ~18 % (REFERENCES.md [pub], secondary)
-        assert float(extra_temperature_rise_pct(3.0)) == pytest.approx(18.0)
+    @pytest.mark.parametrize("u", [1.0, 2.0, 3.0, 4.0])
+    def test_temperature_rule_agrees_with_negative_sequence_heating(self, u):
+        # Two rules of thumb from different sources, checked against each other rather than restated:
+        # NEMA MG-1 (secondary, REFERENCES.md [pub]): extra temperature rise about 2 x (% unbalance)^2 %;
+        # IEEE C37.96 (from memory): extra rotor heating K (I2/I1)^2 with K = 175 / I_LR^2, and the motor's
+        # negative-sequence impedance about its locked-rotor impedance, so I2/I1 = I_LR x V2/V1 (machines
+        # textbook, from memory): extra heating 175 (u/100)^2, independent of I_LR.  They must agree within 20 %.
+        from waveforms.motor.thermal import negative_sequence_k
+
+        lr = 6.0
+        via_k = 100.0 * negative_sequence_k(lr) * (lr * u / 100.0) ** 2
+        assert float(extra_temperature_rise_pct(u)) == pytest.approx(via_k, rel=0.20)
+        # and it grows as the square (the rule's form): doubling the unbalance quadruples the rise
+        assert float(extra_temperature_rise_pct(2 * u)) == pytest.approx(4 * float(extra_temperature_rise_pct(u)), rel=1e-12)
 
 
 class TestNoFalseAlarms:

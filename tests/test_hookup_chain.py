@@ -139,3 +139,15 @@ def test_simulated_open_line_versus_dead_clamp():
     assert set(kind2[healthy & wp2.steady]) == {"dead"} and np.all(np.abs(angle2[healthy & wp2.steady] - 120.0) < 10.0)
     assert set(kind2[open_w]) == {"open"}
     assert dataclasses.is_dataclass(sc)
+
+
+def test_thermal_per_line_figures_follow_the_a_c_b_relabelling():
+    # issue 18 item 4: the thermal per-line figures are named as the events are, as labelled in the file.
+    # Kirchhoff: the open line carries no current after it opens, so its largest current is the pre-event load
+    # (under 1 x FLA) while the other two reach the single-phased stall current
+    res = analyze(fault(_cap("open_phase_stall"), "A-C-B"), speed=False)
+    (op,) = res.events_of("open_phase")
+    lines = res.thermal.summary["lines"]
+    assert op.phase == "C" and set(lines) == {"A", "B", "C"}
+    assert lines[op.phase]["max_current_pu"] < 1.0 and lines[op.phase]["time_above_fla_s"] == 0.0
+    assert min(lines["A"]["max_current_pu"], lines["B"]["max_current_pu"]) > 5.0

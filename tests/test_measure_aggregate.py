@@ -64,13 +64,17 @@ def test_dip_and_interruption_flags():
     assert (basic["flagged"] == (basic["dip"] | basic["interruption"])).all()
 
 
-def test_declared_voltage_falls_back_to_the_median():
-    t = np.arange(int(FS * 1.0)) / FS
-    m = measure(capture_of(three_phase(t, 240.0, 50.0), None, FS))
+def test_declared_voltage_inferred_from_the_nearest_standard_voltage_else_the_median():
+    # IEC 60038 Table 1 (from memory): 230/400 V is the 50 Hz low-voltage system.  240 V line-to-neutral
+    # (415.7 V line-to-line, 3.9 % above 400 V) is judged against 400 / sqrt(3) = 230.94 V, inferred; 300 V
+    # line-to-neutral (519.6 V, 30 % above 400 V and 25 % below 690 V) is near no standard value: its median
     from waveforms.measure.aggregate import declared_voltages
 
-    decl = declared_voltages(m.half_cycles, m.info)
-    assert decl["Va"] == pytest.approx(240.0, rel=1e-3)
+    t = np.arange(int(FS * 1.0)) / FS
+    m = measure(capture_of(three_phase(t, 240.0, 50.0), None, FS))
+    assert declared_voltages(m.half_cycles, m.info)["Va"] == pytest.approx(400.0 / np.sqrt(3.0), rel=1e-6)
+    m = measure(capture_of(three_phase(t, 300.0, 50.0), None, FS))
+    assert declared_voltages(m.half_cycles, m.info)["Va"] == pytest.approx(300.0, rel=1e-3)
 
 
 def test_ten_minute_intervals_are_clock_aligned():

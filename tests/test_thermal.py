@@ -52,18 +52,8 @@ class TestTripTime:
 
 
 class TestTripClasses:
-    @pytest.mark.parametrize("cls", ["10A", "10", "20", "30"])
-    def test_inside_iec_60947_4_1_band_at_7_2x(self, cls):
-        # IEC 60947-4-1 trip classes at 7.2 x setting, cold: 10A 2-10 s, 10 4-10 s,
-        # 20 6-20 s, 30 9-30 s (REFERENCES.md [pub]); checked on the time-stepped relay of
-        # assess_thermal: cold, 1 s without current, then 7.2 x the relay setting (12 A, not FLA)
-        lo, hi = {"10A": (2, 10), "10": (4, 10), "20": (6, 20), "30": (9, 30)}[cls]
-        setting = 12.0
-        i = np.r_[np.zeros(50), np.full(50 * 40, 7.2 * setting)]
-        p = th.ThermalParams(relay_setting_a=setting, trip_classes=(cls,))
-        r = th.assess_thermal(_cycles(i), fla_a=10.0, locked_rotor_a=60.0, params=p).summary["relays"][cls]
-        assert r["trip_s"] is not None
-        assert lo <= r["trip_s"] - 1.0 <= hi
+    # the band at 7.2 x is checked by an independent ODE solution in tests/test_thermal_capture.py
+    # (TestTripClassesOutside), with the 1.5 x hot limits the model relays are not tuned to
 
     @pytest.mark.parametrize("cls", ["10A", "10", "20", "30"])
     def test_1_05_and_1_2_limits(self, cls):
@@ -71,7 +61,7 @@ class TestTripClasses:
         # from cold; trip within 2 h at 1.2 x.  Time-stepped relay of assess_thermal, 1 s cycles
         # (the model is solved exactly for piecewise-constant input, so the step does not matter).
         setting, two_h = 10.0, 7200
-        p = th.ThermalParams(relay_setting_a=setting, trip_classes=(cls,))
+        p = th.ThermalParams(relay_setting_a=setting, trip_classes=(cls,), initial_state="cold")  # the limits are from cold
 
         def trip(i):
             return th.assess_thermal(_cycles(i, f_hz=1.0), fla_a=setting, params=p).summary["relays"][cls]["trip_s"]
@@ -98,9 +88,12 @@ class TestTripClasses:
 
 
 class TestHeating:
-    def test_negative_sequence_k(self):
-        # IEEE C37.96: K ~ 175 / I_LR^2 (from memory); I_LR = 6 pu -> 4.86
-        assert th.negative_sequence_k(6.0) == pytest.approx(175 / 36)
+    @pytest.mark.parametrize("lr", [4.0, 5.0, 6.0, 7.0, 8.0])
+    def test_negative_sequence_k_exceeds_one_for_real_motors(self, lr):
+        # physics (machines textbook, from memory): running near rated slip the rotor sees the negative-sequence
+        # field at about twice supply frequency, where its resistance is higher, so the weight K must exceed 1
+        # for locked-rotor currents of 4-8 x FLA (NEMA MG-1 code letters F-L span about that range, from memory)
+        assert th.negative_sequence_k(lr) > 1.0
 
     def test_equivalent_current(self):
         # I_eq^2 = I1^2 + K I2^2 (IEEE C37.96, from memory): 1 pu + 0.1 pu at K = 4.86

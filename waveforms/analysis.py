@@ -72,6 +72,9 @@ class AnalysisResult:
         Wall time per step [s].
     hookup : HookupResult or None
         What the hook-up check found and corrected (`waveforms.hookup`); None when it did not run.
+    voltage : dict or None
+        The declared supply voltage and its source, and the motor's terminal
+        voltage against its own rating (`supply_voltage_record`).
     """
 
     capture: Capture
@@ -89,6 +92,7 @@ class AnalysisResult:
     versions: dict
     timings_s: dict
     hookup: Any = None
+    voltage: dict | None = None
 
     @property
     def cycles(self) -> pd.DataFrame:
@@ -251,13 +255,29 @@ def verdict_text(
         txt = (f"Thermal stress: the largest line current reached {s['max_current_pu']:.1f} x FLA, "
                f"{s['time_above_fla_s']:.1f} s above FLA, thermal capacity used up to {s['thermal_capacity_used_pct']:.0f} % "
                f"(single time-constant model, tau {s['motor_tau_s']:.0f} s).") if s.get("max_current_pu") is not None else ""
-        cold = "hot" if s.get("hot_start") else "cold"
+        init = s.get("initial_state") or {"mode": "hot" if s.get("hot_start") else "cold"}
+        pre = init.get("pre_event_heating_pu")
+        cold = {"hot": "hot", "cold": "cold"}.get(init.get("mode"), "cold")
+        if pre is not None:
+            cold = f"from the capture's pre-event load ({pre:.2f} x FLA, steady state)"
+        elif init.get("mode") == "capture":
+            cold = "cold (no steady pre-event load in the capture)"
         if tripped:
             txt += f" A model overload relay set at {s['relay_setting_a']:.1f} A, starting {cold}, would have tripped: {', '.join(tripped)}"
             txt += f"; {', '.join(held)} would not have tripped within the capture." if held else "."
         elif held:
             txt += (f" No model overload relay of class {', '.join(c for c, _ in trips)} set at {s['relay_setting_a']:.1f} A, "
                     f"starting {cold}, would have tripped within the capture.")
+        pj = s.get("projection") or {}
+        if pj.get("heating_pu") is not None:
+            later = [f"class {c} trips at about {t:.0f} s" for c, t in pj["relays"].items() if t is not None]
+            if pj.get("motor_100pct_s") is not None:
+                later.append(f"the motor model reaches 100 % after about {pj['motor_100pct_s']:.0f} s")
+            if later:
+                txt += (f" Held at the last steady current ({pj['relay_current_pu'] or pj['heating_pu']:.2f} x the relay setting) "
+                        f"past the end of the capture: {', '.join(later)} (from the capture start).")
+            else:
+                txt += f" Held at the last steady current past the end of the capture, no model relay trips and the motor model stays below 100 %."
         parts.append(txt)
     elif nameplate is None:
         parts.append("No nameplate was given, so currents are not judged against FLA and thermal stress is not assessed.")
@@ -372,15 +392,58 @@ def estimate_speed(
         return None, [f"speed: not estimated ({e})"]
 
 
+def _measured_voltage_ll_v(capture: Capture, measurements: Any) -> float | None:
+    """Median line-to-line Urms(1/2) of the energised stretch [V] (`waveforms.measure.declared.measured_ll_v`)."""
+    from .measure.declared import measured_ll_v
+
+    volts = capture.phase_channels("voltage")
+    half = getattr(measurements, "half_cycles", None)
+    if not volts or half is None or len(half) == 0:
+        return None
+    refs = {ch.reference for ch in volts.values()}
+    ref = "LL" if refs == {"LL"} else "LN"
+    cols = [f"{ch.label}_rms_half" for ch in volts.values() if f"{ch.label}_rms_half" in half]
+    return measured_ll_v(half[cols].to_numpy(), ref) if cols else None
+
+
+def declared_supply_voltage(capture: Capture, measurements: Any, params: DetectParams | None = None) -> Any:
+    """The declared supply voltage by the one rule of `waveforms.measure.declared` (never the motor's rating)."""
+    from .measure.declared import resolve_declared_voltage
+
+    p = params or DetectParams()
+    return resolve_declared_voltage(p.declared_voltage_v, capture.nominal_voltage_v,
+                                    _measured_voltage_ll_v(capture, measurements), capture.nominal_frequency_hz)
+
+
+def supply_voltage_record(
+    capture: Capture, measurements: Any, nameplate: Nameplate | None, params: DetectParams | None = None,
+) -> dict:
+    """``declared`` (``ll_v``, ``source``, ``basis``) and ``motor_terminal`` (`waveforms.motor.terminal`, None without a rating)."""
+    from .motor.terminal import terminal_voltage_check
+
+    d = declared_supply_voltage(capture, measurements, params)
+    meas = _measured_voltage_ll_v(capture, measurements)
+    term = None
+    if nameplate is not None and meas is not None and meas > 0:
+        term = terminal_voltage_check(meas, float(nameplate.rated_voltage_v))
+    return {"declared": {"ll_v": d.ll_v, "source": d.source, "basis": d.basis}, "measured_ll_v": meas, "motor_terminal": term}
+
+
 def detection_input(
     capture: Capture, measurements: Any, speed: pd.DataFrame | None, nameplate: Nameplate | None, params: DetectParams,
 ) -> DetectionInput:
-    """The detectors' shared input: tables, nameplate figures (FLA, locked-rotor current) and declared voltage."""
+    """The detectors' shared input: tables, nameplate figures (FLA, locked-rotor current) and declared voltage.
+
+    The declared voltage is the supply's (`declared_supply_voltage`): the
+    user's, the capture's, or the nearest standard system voltage, never the
+    motor's rating (a 460 V motor on a 480 V system).
+    """
     plate = nameplate
+    decl = declared_supply_voltage(capture, measurements, params)
     return DetectionInput(
         cycles=measurements.cycles, half_cycles=getattr(measurements, "half_cycles", None), speed=speed,
         fla_a=None if plate is None else float(plate.fla_a), locked_rotor_a=locked_rotor_a(plate),
-        declared_voltage_ll_v=capture.nominal_voltage_v or (None if plate is None else float(plate.rated_voltage_v)),
+        declared_voltage_ll_v=decl.ll_v, declared_voltage_source=decl.source,
         capture=capture, params=params,
         current_channels={c: ch.label for c, ch in capture.phase_channels("current").items()},
     )
@@ -401,6 +464,9 @@ def detect_events(
     found = detect(inp, only=only)
     events = found.events
     notes = [f"detect: {n}" for n in found.notes]
+    if inp.declared_voltage_source != "capture" and len(inp.voltage_channels):
+        vrec = supply_voltage_record(capture, measurements, nameplate, params)
+        notes.append(f"voltage: {vrec['declared']['basis']}")
     states = motor_states(inp, events)
     return events, states, merge_periods(states), notes
 
@@ -476,8 +542,12 @@ def orient_rotation(
 
 def assess_motor_thermal(
     cycles: pd.DataFrame | None, nameplate: Nameplate | None, params: ThermalParams | None = None,
+    states: pd.DataFrame | None = None,
 ) -> tuple[ThermalResult | None, list[str]]:
     """Thermal stress from the per-cycle line currents and the nameplate, with its notes.
+
+    ``states`` (`motor_states`, one row per cycle) tells where the rotor was
+    stalled: there the negative-sequence weight is 1, not the running K.
 
     Returns
     -------
@@ -487,9 +557,14 @@ def assess_motor_thermal(
     tparams = params or ThermalParams()
     if nameplate is None or cycles is None or not any(f"I{c}_rms" in cycles for c in "abc"):
         return None, []
+    still = None
+    if states is not None and len(states) == len(cycles) and "state" in states:
+        still = states["state"].astype(str).str.contains("stalled").to_numpy(bool)
     thermal = assess_thermal(
         cycles, fla_a=float(nameplate.fla_a), service_factor=float(nameplate.service_factor),
         locked_rotor_a=locked_rotor_a(nameplate), connection=nameplate.connection, params=tparams,
+        standstill=still, locked_rotor_range_a=nameplate.locked_rotor_current_range_a(),
+        rated_voltage_v=float(nameplate.rated_voltage_v),
     )
     notes = [f"thermal: {n}" for n in thermal.summary["notes"]]
     if tparams.motor_tau_s == ThermalParams().motor_tau_s:
@@ -519,13 +594,18 @@ def build_result(
 ) -> AnalysisResult:
     """The `AnalysisResult`, with the verdict written from the events, thermal result and quality warnings."""
     n_warn = sum(1 for q in quality if q.get("severity") == "warning")
+    dparams = DetectParams(declared_voltage_v=(parameters.get("detect") or {}).get("declared_voltage_v"))
+    voltage = supply_voltage_record(capture, measurements, nameplate, dparams) if measurements is not None else None
     verdict = verdict_text(events, thermal, timeline, capture.start_time, nameplate, n_warn)
+    term = None if voltage is None else voltage.get("motor_terminal")
+    if term is not None and not term["within_nema_mg1"]:
+        verdict += " The " + term["sentence"] + "."
     lead = "" if hookup is None else hookup.sentence()  # hook-up errors open the verdict (waveforms.hookup)
     verdict = f"{lead} {verdict}" if lead else verdict
     return AnalysisResult(
         capture=capture, nameplate=nameplate, measurements=measurements, speed=speed, events=list(events),
         thermal=thermal, states=states, timeline=timeline, verdict=verdict, notes=list(notes), quality=list(quality),
-        parameters=dict(parameters), versions=versions(), timings_s=dict(timings_s), hookup=hookup,
+        parameters=dict(parameters), versions=versions(), timings_s=dict(timings_s), hookup=hookup, voltage=voltage,
     )
 
 
@@ -603,6 +683,7 @@ __all__ = [
     "analyze",
     "assess_motor_thermal",
     "build_result",
+    "declared_supply_voltage",
     "default_speed_window_s",
     "detect_events",
     "detection_input",
@@ -617,5 +698,6 @@ __all__ = [
     "orient_rotation",
     "resolve_speed_options",
     "speed_record",
+    "supply_voltage_record",
     "verdict_text",
 ]

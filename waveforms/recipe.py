@@ -787,7 +787,11 @@ def _stage_thermal(state: RunState, params: dict[str, Any]) -> None:
 
     (tparams,) = get_stage("thermal").build(params)
     state.settings["thermal"] = tparams
-    state.thermal, notes = assess_motor_thermal(state.cycles, state.nameplate, tparams)
+    state.thermal, notes = assess_motor_thermal(state.cycles, state.nameplate, tparams, state.states)
+    if state.thermal is not None and state.hookup is not None and state.hookup.relabelled:
+        # per-line figures named as labelled in the file, as the events are (waveforms.hookup.stage.as_labelled)
+        lines = state.thermal.summary["lines"]
+        state.thermal.summary["lines"] = {state.hookup.labelled(k): v for k, v in lines.items()}
     state.notes.extend(notes)
 
 

@@ -65,7 +65,12 @@ def _reading(rec: Recipe, fmt: str | None, options: ReadOptions) -> tuple[str | 
 @click.option("--motor-tau", "motor_tau_s", type=float, help="Motor heating time constant [s] (default 600, an assumption).")
 @click.option("--k-neg", "k_neg", type=float, help="Negative-sequence heating weight K (default 175 / I_LR^2, IEEE C37.96).")
 @click.option("--relay-setting", "relay_setting_a", type=float, help="Overload relay current setting [A] (default: nameplate FLA).")
-@click.option("--hot-start", is_flag=True, help="Start the thermal models from rated-current steady state instead of cold.")
+@click.option("--hot-start", is_flag=True, help="Start the thermal models from rated-current steady state (default: from the "
+              "capture's pre-event running current when it begins with the motor running, else cold).")
+@click.option("--declared-voltage", "declared_voltage_v", type=float,
+              help="Declared line-to-line supply voltage [V] for dips and swells (default: the capture's nominal voltage, else "
+                   "the standard system voltage nearest the measured one, an inference; never the motor's rating).")
+@click.option("--cold-start", is_flag=True, help="Start the thermal models cold (motor at ambient) instead of from the capture.")
 @click.option("--as-recorded", "as_recorded", is_flag=True,
               help="Analyse the file exactly as recorded: report hook-up errors (reversed or moved clamps, A-C-B labels, "
                    "dead sensors) but do not correct them.")
@@ -73,12 +78,15 @@ def _reading(rec: Recipe, fmt: str | None, options: ReadOptions) -> tuple[str | 
 @read_options
 def command(capture: str, motor: str | None, out_dir: str, recipe_name: str, no_html: bool, cycles: str, no_speed: bool,
             speed_window_s: float | None, motor_tau_s: float | None, k_neg: float | None, relay_setting_a: float | None,
-            hot_start: bool, threads: int | None, as_recorded: bool = False, **kw: Any) -> None:
+            hot_start: bool, threads: int | None, as_recorded: bool = False, cold_start: bool = False,
+            declared_voltage_v: float | None = None, **kw: Any) -> None:
     """Find open phase, stall, starts, dips and unbalance in CAPTURE; judge thermal stress; write a report.
 
     The report informs; it does not replace protective devices. Work on
     energized equipment only by qualified people under local electrical codes.
     """
+    if hot_start and cold_start:
+        raise InvalidParameterError("--hot-start and --cold-start: give one of them, not both")
     fmt, options = options_from(kw)
     out = Path(out_dir)
     if out.exists() and not out.is_dir():
@@ -100,6 +108,10 @@ def command(capture: str, motor: str | None, out_dir: str, recipe_name: str, no_
                             (relay_setting_a, "relay_setting_a", "--relay-setting"), (True if hot_start else None, "hot_start", "--hot-start")):
         if value is not None:
             rec = _set(rec, "thermal", {key: value}, opt)
+    if cold_start:
+        rec = _set(rec, "thermal", {"initial_state": "cold"}, "--cold-start")
+    if declared_voltage_v is not None:
+        rec = _set(rec, "detect", {"declared_voltage_v": declared_voltage_v}, "--declared-voltage")
     if as_recorded:
         rec = _set(rec, "hookup", {"as_recorded": True}, "--as-recorded")
     fmt, options = _reading(rec, fmt, options)

@@ -64,6 +64,9 @@ class DetectParams:
                                       "is upstream [-]", minimum=0.0)
     upstream_angle_tol_deg: float = setting(8.0, "fallback test: angle change of the open line's voltage [deg]", minimum=0.0)
     upstream_v2_rise_pct: float = setting(3.0, "fallback test: rise of V2/V1 [percentage points]", minimum=0.0)
+    declared_voltage_v: float | None = setting(
+        None, "declared line-to-line supply voltage for dips and swells [V]; absent = the capture's nominal voltage, else the "
+        "standard system voltage nearest the measured one (an inference), never the motor's rating", minimum=0.0)
 
     def __post_init__(self) -> None:
         check_fields(self)
@@ -90,6 +93,9 @@ class DetectionInput:
         Locked-rotor current at rated voltage [A].
     declared_voltage_ll_v : float or None
         Declared line-to-line voltage [V].
+    declared_voltage_source : str
+        Where it came from: "user", "capture", "inferred" or "capture median"
+        (`waveforms.measure.declared`).
     capture : Capture or None
         For point-on-wave refinement of onsets only.
     voltage_channels, current_channels : dict
@@ -109,6 +115,7 @@ class DetectionInput:
     current_channels: dict[str, str] = dataclasses.field(default_factory=dict)
     voltage_reference: str | None = None
     params: DetectParams = dataclasses.field(default_factory=DetectParams)
+    declared_voltage_source: str = "capture"
 
     def __post_init__(self) -> None:
         if "t_s" not in self.cycles:

@@ -129,14 +129,24 @@ def _half_cycle_matrix(inp: DetectionInput, notes: list[str]) -> tuple[np.ndarra
 
 
 def declared_voltage(inp: DetectionInput, urms: np.ndarray, notes: list[str] | None = None) -> tuple[float, str]:
-    """Declared voltage of the channels [V] and where it came from (the capture's median, said in ``notes``, when none)."""
+    """Declared voltage of the channels [V] and where it came from (`waveforms.measure.declared`).
+
+    ``inp.declared_voltage_ll_v`` with ``inp.declared_voltage_source`` when set
+    (`waveforms.analysis.detection_input` applies the rule); otherwise the same
+    rule on the Urms(1/2) values here, the basis said in ``notes``.
+    """
+    from ..measure.declared import measured_ll_v, resolve_declared_voltage
+
+    scale = math.sqrt(3.0) if inp.voltage_reference == "LN" else 1.0
     if inp.declared_voltage_ll_v:
-        u = inp.declared_voltage_ll_v / (math.sqrt(3.0) if inp.voltage_reference == "LN" else 1.0)
-        return float(u), "declared"
-    med = float(np.nanmedian(urms))
+        return float(inp.declared_voltage_ll_v / scale), inp.declared_voltage_source
+    f_nom = inp.capture.nominal_frequency_hz if inp.capture is not None else None
+    decl = resolve_declared_voltage(None, None, measured_ll_v(urms, inp.voltage_reference or "LN"), f_nom)
     if notes is not None:
-        notes.append(f"no declared voltage: the capture's median Urms(1/2), {med:.1f} V, used as reference")
-    return med, "capture median"
+        notes.append(decl.basis)
+    if decl.ll_v is None:
+        return float(np.nanmedian(urms)), decl.source
+    return float(decl.ll_v / scale), decl.source
 
 
 def _open_phase_explains(

@@ -12,10 +12,11 @@ frequency as arithmetic means; angles and the phase sequence are not
 aggregated.  An interval is flagged ``dip`` when any Urms(1/2) of a phase
 voltage inside it falls below 90 % of the declared voltage, ``interruption``
 when all phase voltages fall below 10 % at the same half cycle; ``flagged`` is
-either.  The declared voltage is ``capture.nominal_voltage_v`` (line-to-line;
-divided by sqrt 3 for line-to-neutral channels) when known, otherwise the
-median Urms(1/2) of the phase-voltage channels over the whole capture (which
-is what the capture mostly shows, not what the supply should be: check it).
+either.  The declared voltage follows the one rule of
+`waveforms.measure.declared` (line-to-line; divided by sqrt 3 for
+line-to-neutral channels): ``capture.nominal_voltage_v`` when known, else the
+standard nominal system voltage nearest the measured median (an inference),
+else the median Urms(1/2) itself -- never the motor's rating.
 
 References
 ----------
@@ -55,19 +56,19 @@ def declared_voltages(half_cycles: pd.DataFrame, info: dict[str, Any]) -> dict[s
     >>> {k: round(float(v), 1) for k, v in declared_voltages(half, {"channels": {"Va": "LN"}, "nominal_voltage_v": 400.0}).items()}
     {'Va': 230.9}
     """
+    from .declared import measured_ll_v, resolve_declared_voltage
+
     refs = info.get("channels", {})
     out: dict[str, float] = {}
-    vnom = info.get("nominal_voltage_v")
     for ref in ("LN", "LL"):
         labs = [lab for lab, r in refs.items() if r == ref and lab.startswith("V") and f"{lab}_rms_half" in half_cycles]
         if not labs:
             continue
-        if vnom:
-            val = float(vnom) / np.sqrt(3.0) if ref == "LN" else float(vnom)
-        else:
-            allv = half_cycles[[f"{lab}_rms_half" for lab in labs]].to_numpy().ravel()
-            allv = allv[np.isfinite(allv)]
-            val = float(np.median(allv)) if allv.size else float("nan")
+        # the one declared-voltage rule of the dip/swell detector too (waveforms.measure.declared)
+        meas = measured_ll_v(half_cycles[[f"{lab}_rms_half" for lab in labs]].to_numpy(), ref)
+        decl = resolve_declared_voltage(info.get("declared_voltage_v"), info.get("nominal_voltage_v"), meas,
+                                        info.get("nominal_frequency_hz"))
+        val = float("nan") if decl.ll_v is None else (decl.ll_v / np.sqrt(3.0) if ref == "LN" else decl.ll_v)
         for lab in labs:
             out[lab] = val
     return out

@@ -13,7 +13,24 @@ state ``I_p^2`` reaches the trip level ``(k I_B)^2`` after
 (IEC 60255-149, thermal electrical relays; the same law as the older
 IEC 60255-8).  Negative-sequence current heats the rotor far more than its
 magnitude suggests (the rotor sees it at nearly twice supply frequency); it is
-weighted as ``I_eq^2 = I1^2 + K I2^2`` (IEEE C37.96, motor protection guide).
+weighted as ``I_eq^2 = I1^2 + K I2^2`` while the motor runs (IEEE C37.96, motor
+protection guide; ``K = 175 / I_LR^2`` is a rule of thumb there, recalled from
+memory, no clause cited).  At standstill (a stalled rotor, slip 1) the rotor
+sees the positive- and the negative-sequence field alike at supply frequency,
+with the same locked-rotor resistance, so both sequences heat it equally:
+``I_eq^2 = I1^2 + I2^2`` (K = 1; the reason K exceeds 1 while running is the
+difference between the rotor's resistance at slip frequency and at about twice
+supply frequency, which vanishes at slip 1).
+
+The initial state is taken from the capture when it begins with the motor
+running at a steady load (steady state at that pre-event current, the motor
+assumed to have run so for several time constants); cold or hot only when
+asked.  De-energised, the motor cools with a slower time constant than it heats
+while running (no fan air): `STANDSTILL_COOLING_RATIO` times the heating
+constant, common practice (2 to 4 x), no source.  Past the end of the capture
+the models are projected at the last steady heating current, and the verdict's
+sensitivity to the assumed time constant, K and locked-rotor current is
+reported.
 
 Everything here takes arrays (per-cycle values) and returns arrays or
 DataFrames; nothing reads files or prints.
@@ -63,6 +80,36 @@ RELAY_PICKUP_PU = 1.125
 
 #: Multiple of the setting at which the trip class is defined (IEC 60947-4-1).
 CLASS_TEST_MULTIPLE = 7.2
+
+#: Cooling time constant of a stopped (de-energised) motor, in multiples of its heating
+#: time constant while running: no fan air at standstill.  Common practice puts it at
+#: 2 to 4 x; 3 chosen (common practice, no source).
+STANDSTILL_COOLING_RATIO = 3.0
+
+#: A cycle whose largest line current is below this share of FLA carries no motor
+#: current: the motor is taken as stopped and cooling (our choice, no source).
+DEENERGISED_PU = 0.05
+
+#: Stretch at each end of the capture read for the pre-event load and the last steady
+#: current [s] (our choice, no source).
+EDGE_WINDOW_S = 1.0
+
+#: The heating current of an edge stretch counts as steady when its largest and smallest
+#: per-cycle values differ by at most this factor (our choice, no source).
+STEADY_RATIO = 1.15
+
+#: A pre-event heating current above this multiple of the service-factor current is not
+#: a running load (a start or a stall under way): the initial state is then cold
+#: (our choice, no source).
+PRE_EVENT_MAX_PU = 1.5
+
+INITIAL_STATES = ("capture", "cold", "hot")
+
+#: Positive-sequence impedance V1/I1, per unit of the rated impedance, above which the rotor is
+#: taken as running near its rated slip (full K): a motor drawing more than 2 x FLA of
+#: positive-sequence current at rated voltage is not (our choice, no source).  Between the
+#: locked-rotor impedance FLA / I_LR and this value the weight goes linearly from 1 to K.
+RUNNING_Z1_PU = 0.5
 
 
 def trip_time_s(i_pu: np.ndarray | float, tau_s: float, k: float = 1.05, ip_pu: np.ndarray | float = 0.0) -> np.ndarray:
@@ -178,6 +225,48 @@ def first_order_state(
     return y
 
 
+def first_order_state_varying(
+    u: np.ndarray, dt_s: float, tau_s: np.ndarray, theta0: float = 0.0
+) -> np.ndarray:
+    """`first_order_state` with a time constant per step (``tau_s`` an array of ``u``'s length) [s].
+
+    Solved exactly, stretch by stretch of constant ``tau_s`` (one `scipy.signal.lfilter`
+    call per stretch; the stretches are the motor's state changes, few).
+
+    References
+    ----------
+    .. [1] IEC 60255-149:2013, clause 5 (first-order thermal model).
+    """
+    u = np.asarray(u, dtype=float)
+    tau = np.broadcast_to(np.asarray(tau_s, dtype=float), u.shape)
+    if u.size == 0:
+        return u.copy()
+    change = np.flatnonzero(np.r_[True, tau[1:] != tau[:-1]])
+    ends = np.r_[change[1:], u.size]
+    out = np.empty_like(u)
+    th = float(theta0)
+    for a, b in zip(change, ends, strict=True):
+        out[a:b] = first_order_state(u[a:b], dt_s, float(tau[a]), th)
+        th = float(out[b - 1])
+    return out
+
+
+def time_to_level_s(u: float, theta: float, tau_s: float, level: float) -> float | None:
+    """Time [s] for the state to go from ``theta`` to ``level`` at constant input ``u``.
+
+    0 when already there; None when ``u`` never takes it there (``u <= level``).
+
+    References
+    ----------
+    .. [1] IEC 60255-149:2013, clause 5: t = tau ln((u - theta) / (u - level)).
+    """
+    if theta >= level:
+        return 0.0
+    if not u > level:
+        return None
+    return float(tau_s * math.log((u - theta) / (u - level)))  # IEC 60255-149 cl. 5
+
+
 def crossing_time_s(
     t_end_s: np.ndarray, u: np.ndarray, theta: np.ndarray, dt_s: float, tau_s: float, level: float, theta0: float = 0.0
 ) -> float | None:
@@ -197,17 +286,19 @@ def crossing_time_s(
     return float(t_end_s[n] - dt_s + min(dt_in, dt_s))
 
 
-def class_tau_s(trip_class: str, pickup_pu: float = RELAY_PICKUP_PU) -> float:
+def class_tau_s(trip_class: str, pickup_pu: float = RELAY_PICKUP_PU, trip_at_7_2x_s: float | None = None) -> float:
     """Time constant [s] of our model relay of an IEC 60947-4-1 trip class.
 
     Chosen so that the cold trip time at 7.2 x setting equals
-    `TRIP_CLASS_TARGET_S` (inside the class band, IEC 60947-4-1).
+    `TRIP_CLASS_TARGET_S` (inside the class band, IEC 60947-4-1), or
+    ``trip_at_7_2x_s`` when given (a relay elsewhere in the band).
     """
     if trip_class not in TRIP_CLASS_TARGET_S:
         raise InvalidParameterError(f"{trip_class=} must be one of {list(TRIP_CLASS_TARGET_S)}")
     m2 = CLASS_TEST_MULTIPLE**2
+    t72 = TRIP_CLASS_TARGET_S[trip_class] if trip_at_7_2x_s is None else float(trip_at_7_2x_s)
     # invert IEC 60255-149 cl. 5 with Ip = 0: tau = t / ln(I^2 / (I^2 - k^2))
-    return TRIP_CLASS_TARGET_S[trip_class] / math.log(m2 / (m2 - pickup_pu**2))
+    return t72 / math.log(m2 / (m2 - pickup_pu**2))
 
 
 @dataclasses.dataclass(frozen=True)
@@ -227,6 +318,13 @@ class ThermalParams:
         IEC 60947-4-1 classes to evaluate.
     hot_start : bool
         Start the models from the state of steady rated current (1 pu) rather than cold.
+    initial_state : {"capture", "cold", "hot"}
+        ``"capture"``: steady state at the pre-event running current when the
+        capture begins with the motor running at a steady load, else cold (said
+        in the notes); ``hot_start`` true means ``"hot"``.
+    standstill_cooling_ratio : float
+        Cooling time constant of the stopped motor over its heating time constant
+        (common practice 2-4, no source).
     """
 
     motor_tau_s: float = setting(
@@ -241,9 +339,22 @@ class ThermalParams:
     trip_classes: tuple[str, ...] = setting(
         ("10", "20", "30"), "IEC 60947-4-1 trip classes to evaluate", choices=tuple(TRIP_CLASS_TARGET_S))
     hot_start: bool = setting(False, "start the thermal models from steady rated current (1 pu) rather than cold")
+    initial_state: str = setting(
+        "capture", "initial thermal state: 'capture' (steady state at the capture's pre-event running current when it "
+        "begins with the motor running, else cold), 'cold' or 'hot' (hot_start = true also means hot)", choices=INITIAL_STATES)
+    standstill_cooling_ratio: float = setting(
+        STANDSTILL_COOLING_RATIO, "cooling time constant of the stopped motor over its running heating time constant [-]; "
+        "3 is common practice (2-4), no source", minimum=1.0)
 
     def __post_init__(self) -> None:
         check_fields(self)  # one bound per field, written above; met by the library, recipes and CLI alike
+        if self.hot_start and self.initial_state == "cold":
+            raise InvalidParameterError("hot_start = true contradicts initial_state = 'cold'")
+
+    @property
+    def start_state(self) -> str:
+        """The initial state in effect: ``"hot"`` when ``hot_start``, else ``initial_state``."""
+        return "hot" if self.hot_start else self.initial_state
 
 
 @dataclasses.dataclass(frozen=True)
@@ -251,15 +362,71 @@ class ThermalResult:
     """Outcome of `assess_thermal`.
 
     ``track`` has one row per cycle: ``t_s``, ``i_max_line_a`` (largest line
-    RMS), ``i1_a``, ``i2_a``, ``i_eq_pu`` (per unit FLA), ``i_winding_max_pu``
-    (hottest winding, per unit of its rated current), ``heating_pu`` (the
-    model's input: the larger of the two), ``theta_motor_pct`` (thermal
-    capacity used, 100 % = steady state at service-factor current) and one
-    ``theta_class<N>_pct`` per relay class (100 % = trip).
+    RMS), ``i1_a``, ``i2_a``, ``i_eq_pu`` (per unit FLA; K applied while
+    running, 1 at standstill), ``i_winding_max_pu`` (hottest winding, per unit
+    of its rated current), ``heating_pu`` (the model's input: the larger of the
+    two), ``standstill`` (rotor not turning: stalled or de-energised),
+    ``theta_motor_pct`` (thermal capacity used, 100 % = steady state at
+    service-factor current) and one ``theta_class<N>_pct`` per relay class
+    (100 % = trip).
     """
 
     track: pd.DataFrame
     summary: dict
+
+
+def _edge_heating(u: np.ndarray, t_s: np.ndarray, first: bool, stop: np.ndarray | None = None) -> tuple[float | None, str]:
+    """Median of ``u`` over the first (or last) `EDGE_WINDOW_S` and whether it is steady; None with the reason when not."""
+    if u.size == 0:
+        return None, "no cycles"
+    if first:
+        sel = t_s <= t_s[0] + EDGE_WINDOW_S
+        if stop is not None and stop.any():
+            sel &= np.arange(u.size) < int(np.argmax(stop))  # before the first standstill
+    else:
+        sel = t_s >= t_s[-1] - EDGE_WINDOW_S
+    v = u[sel]
+    if v.size == 0:
+        return None, "no running stretch"
+    lo, hi = float(np.min(v)), float(np.max(v))
+    if lo <= 0 or hi > STEADY_RATIO**2 * lo:  # u is a current squared
+        return None, "the current is not steady there"
+    return float(np.median(v)), ""
+
+
+def _models(
+    u_motor: np.ndarray, u_relay: np.ndarray, off: np.ndarray, t_end: np.ndarray, dt: float, *, motor_tau_s: float,
+    cooling_ratio: float, sf: float, theta0_motor: float, theta0_relay: float, relay_taus: dict[str, float],
+) -> dict:
+    """Run the motor model and the relay models over the capture and project them past its end."""
+    tau_m = np.where(off, motor_tau_s * cooling_ratio, motor_tau_s)
+    theta_m = first_order_state_varying(u_motor, dt, tau_m, theta0_motor)
+    level_m = sf**2
+    out: dict = {"theta_motor": theta_m, "relays": {}}
+    hit = np.flatnonzero(theta_m >= level_m)
+    out["motor_100pct_s"] = float(t_end[hit[0]]) if hit.size else None
+    level = RELAY_PICKUP_PU**2
+    for cls, tau_c in relay_taus.items():
+        th = first_order_state(u_relay, dt, tau_c, theta0_relay)
+        out["relays"][cls] = {"theta": th, "trip_s": crossing_time_s(t_end, u_relay, th, dt, tau_c, level, theta0_relay)}
+    return out
+
+
+def _project(models: dict, u_motor_end: float | None, u_relay_end: float | None, t_last: float, *, motor_tau_s: float, sf: float,
+             relay_taus: dict[str, float]) -> dict:
+    """Times past the end of the capture [s, capture axis] at the last steady heating (None = never at that current)."""
+    out: dict = {"motor_100pct_s": None, "relays": {}}
+    if u_motor_end is not None and models["motor_100pct_s"] is None:
+        dt_m = time_to_level_s(u_motor_end, float(models["theta_motor"][-1]), motor_tau_s, sf**2)
+        out["motor_100pct_s"] = None if dt_m is None else t_last + dt_m
+    for cls, tau_c in relay_taus.items():
+        r = models["relays"][cls]
+        if u_relay_end is None or r["trip_s"] is not None:
+            out["relays"][cls] = None
+            continue
+        dt_r = time_to_level_s(u_relay_end, float(r["theta"][-1]), tau_c, RELAY_PICKUP_PU**2)
+        out["relays"][cls] = None if dt_r is None else t_last + dt_r
+    return out
 
 
 def assess_thermal(
@@ -269,6 +436,9 @@ def assess_thermal(
     locked_rotor_a: float | None = None,
     connection: str = "star",
     params: ThermalParams | None = None,
+    standstill: np.ndarray | None = None,
+    locked_rotor_range_a: tuple[float, float] | None = None,
+    rated_voltage_v: float | None = None,
 ) -> ThermalResult:
     """Thermal stress from the per-cycle table: heating current, capacity used, relay trips.
 
@@ -285,6 +455,18 @@ def assess_thermal(
         Locked-rotor current [A] (for the default K).
     connection : {"star", "delta"}
     params : ThermalParams
+    standstill : ndarray of bool, optional
+        Per cycle: the rotor stands still while energised (a stall, from the
+        detectors).  There the negative-sequence weight is 1, not K.  Absent:
+        K is applied to every energised cycle (said in the notes).
+    locked_rotor_range_a : (float, float), optional
+        The range the locked-rotor current may lie in (NEMA code letter) [A],
+        for the sensitivity of K.
+    rated_voltage_v : float, optional
+        Rated line-to-line voltage [V].  With it and a ``V1`` column the
+        weight goes from K to 1 as the positive-sequence impedance V1/I1 falls
+        from `RUNNING_Z1_PU` to the locked-rotor impedance FLA / I_LR (a
+        decelerating rotor, before a stall is detected).
 
     Returns
     -------
@@ -303,27 +485,39 @@ def assess_thermal(
     if not lines or len(cycles) == 0:
         raise InvalidParameterError("thermal assessment needs line-current RMS columns (Ia_rms, Ib_rms, Ic_rms)")
     notes: list[str] = []
-    t_end = cycles["t_end_s"].to_numpy(float) if "t_end_s" in cycles else cycles["t_s"].to_numpy(float)
+    t_s = cycles["t_s"].to_numpy(float)
+    t_end = cycles["t_end_s"].to_numpy(float) if "t_end_s" in cycles else t_s
     dur = np.diff(cycles[["t_start_s", "t_end_s"]].to_numpy(float), axis=1)[:, 0] if "t_start_s" in cycles else np.diff(t_end, prepend=t_end[0])
     dt = float(np.nanmedian(dur)) if dur.size and np.isfinite(np.nanmedian(dur)) and np.nanmedian(dur) > 0 else 0.02
     i_rms = cycles[lines].to_numpy(float)
     i_max = np.nanmax(np.where(np.isfinite(i_rms), i_rms, -np.inf), axis=1)
     i_max = np.where(np.isfinite(i_max), i_max, np.nan)
+    off = ~(np.nan_to_num(i_max, nan=0.0) >= DEENERGISED_PU * fla_a)  # no motor current: stopped, cooling
+    still = np.zeros(len(cycles), bool) if standstill is None else np.asarray(standstill, bool).copy()
+    if still.shape != (len(cycles),):
+        raise InvalidParameterError(f"standstill has shape {still.shape}, expected ({len(cycles)},) (one value per cycle)")
+    still &= ~off
+    if standstill is None:
+        notes.append("no standstill information (no stall detection): the running negative-sequence weight K applied to every cycle")
 
     lr_pu = (locked_rotor_a / fla_a) if locked_rotor_a else 6.0
     if params.k_neg is None:
         k_neg = negative_sequence_k(lr_pu)
-        notes.append(f"negative-sequence weight K = 175 / {lr_pu:.2f}^2 = {k_neg:.2f} (IEEE C37.96, from memory)")
+        notes.append(f"negative-sequence weight K = 175 / {lr_pu:.2f}^2 = {k_neg:.2f} while running: a rule of thumb "
+                     "(IEEE C37.96 motor protection guide, from memory; no clause cited)")
     else:
         k_neg = float(params.k_neg)
-    if "I1" in cycles and "I2" in cycles:
+    if still.any():
+        notes.append("at standstill (stalled, energised) the rotor sees the positive- and negative-sequence fields alike at "
+                     "supply frequency, with the same locked-rotor resistance: heating I1^2 + I2^2 there (K = 1), "
+                     "not the running weight")
+    have_seq = "I1" in cycles and "I2" in cycles
+    if have_seq:
         i1 = cycles["I1"].to_numpy(float)
         i2 = cycles["I2"].to_numpy(float)
-        i_eq_pu = equivalent_heating_current(i1, i2, k_neg) / fla_a
     else:
         i1 = np.full(len(cycles), np.nan)
         i2 = np.full(len(cycles), np.nan)
-        i_eq_pu = i_max / fla_a
         notes.append("no sequence currents: heating taken from the largest line RMS current")
 
     i_wind_pu = i_max / fla_a
@@ -337,43 +531,162 @@ def assess_thermal(
             notes.append("delta connection: hottest winding current from line phasors (no circulating current assumed)")
         else:
             notes.append("delta connection but no line-current phasors: winding currents not resolved")
-    heating = np.fmax(np.nan_to_num(i_eq_pu, nan=0.0), np.nan_to_num(i_wind_pu, nan=0.0))
+
+    run_w = np.where(still, 0.0, 1.0)  # 1 = running near rated slip (full K), 0 = standstill (K = 1)
+    if have_seq and rated_voltage_v and "V1" in cycles and lr_pu > 1.0 / RUNNING_Z1_PU:
+        with np.errstate(divide="ignore", invalid="ignore"):
+            z1 = (cycles["V1"].to_numpy(float) / (float(rated_voltage_v) / math.sqrt(3.0))) / (i1 / fla_a)
+        z_lr = 1.0 / lr_pu
+        w = np.clip((z1 - z_lr) / (RUNNING_Z1_PU - z_lr), 0.0, 1.0)
+        run_w = np.where(np.isfinite(w), np.minimum(run_w, w), run_w)
+        if (run_w[~still & ~off] < 1.0).any():
+            notes.append(f"where the positive-sequence impedance V1/I1 fell below {RUNNING_Z1_PU:g} pu (the rotor slowing towards "
+                         f"standstill, locked rotor at {z_lr:.3f} pu) the negative-sequence weight is taken between K and 1, "
+                         "linearly in V1/I1 (our choice, no source)")
+
+    def heating_sq(k: float) -> tuple[np.ndarray, np.ndarray]:
+        if have_seq:
+            k_cyc = 1.0 + (k - 1.0) * run_w  # standstill: both sequences heat alike, K = 1 (module docstring)
+            ieq_pu = np.sqrt(i1**2 + k_cyc * i2**2) / fla_a  # I_eq^2 = I1^2 + K I2^2 (IEEE C37.96, from memory)
+        else:
+            ieq_pu = i_max / fla_a
+        h = np.fmax(np.nan_to_num(ieq_pu, nan=0.0), np.nan_to_num(i_wind_pu, nan=0.0))
+        return ieq_pu, h
+
+    i_eq_pu, heating = heating_sq(k_neg)
     u = heating**2
-    theta0 = 1.0 if params.hot_start else 0.0
+    setting_a = params.relay_setting_a or fla_a
+    # the relays see the largest line current (an overload relay measures line current)
+    u_relay = np.nan_to_num(i_max / setting_a, nan=0.0) ** 2
+    sf = float(service_factor)
+
+    # -- initial state ---------------------------------------------------------------
+    start = params.start_state
+    initial: dict = {"mode": start}
+    if start == "hot":
+        th0_m = th0_r = 1.0
+        initial["basis"] = "hot: steady state at rated current (1 pu), as asked"
+    elif start == "cold":
+        th0_m = th0_r = 0.0
+        initial["basis"] = "cold: motor at ambient, as asked"
+    else:
+        th0_m = th0_r = 0.0
+        u0, why = _edge_heating(np.where(off, 0.0, u), t_s, True, still | off)
+        if off[0]:
+            initial["basis"] = ("cold: the capture begins with the motor de-energised (how long it had been stopped is not "
+                                "known; cold is the least heat it can hold)")
+        elif u0 is None:
+            initial["basis"] = f"cold: no steady pre-event running stretch in the first {EDGE_WINDOW_S:g} s ({why})"
+        elif math.sqrt(u0) > PRE_EVENT_MAX_PU * sf:
+            initial["basis"] = (f"cold: the capture begins at {math.sqrt(u0):.2f} x FLA heating current, not a running load "
+                                "(a start or stall under way)")
+        else:
+            u0r, _ = _edge_heating(np.where(off, 0.0, u_relay), t_s, True, still | off)
+            th0_m, th0_r = u0, (u0r if u0r is not None else u0)
+            initial["basis"] = (f"from the capture: steady state at the pre-event running heating current {math.sqrt(u0):.2f} x FLA "
+                                f"(median of the first {EDGE_WINDOW_S:g} s; the motor assumed to have run at that load for "
+                                "several time constants before the capture)")
+            initial["pre_event_heating_pu"] = math.sqrt(u0)
+    initial["theta_motor_pct"] = 100.0 * th0_m / sf**2
+    notes.append(f"initial thermal state {initial['basis']}")
+    if off.any():
+        notes.append(f"de-energised cycles cool with {params.standstill_cooling_ratio:g} x the heating time constant "
+                     "(no fan air at standstill; common practice 2-4 x, no source)")
+
+    relay_taus = {cls: class_tau_s(cls) for cls in params.trip_classes}
+    kw = dict(motor_tau_s=params.motor_tau_s, cooling_ratio=params.standstill_cooling_ratio, sf=sf,
+              theta0_motor=th0_m, theta0_relay=th0_r)
+    base = _models(u, u_relay, off, t_end, dt, relay_taus=relay_taus, **kw)
+
+    # -- projection past the end of the capture -----------------------------------------
+    t_last = float(t_end[-1])
+    if off[-1]:
+        u_end = ur_end = None
+        proj_basis = "none: the motor was de-energised at the end of the capture"
+    else:
+        u_end, why = _edge_heating(u, t_s, False)
+        ur_end, _ = _edge_heating(u_relay, t_s, False)
+        proj_basis = (f"at the last steady heating current {math.sqrt(u_end):.2f} x FLA (median of the last {EDGE_WINDOW_S:g} s), "
+                      "held constant after the capture" if u_end is not None else f"none: {why} in the last {EDGE_WINDOW_S:g} s")
+    proj = _project(base, u_end, ur_end, t_last, relay_taus=relay_taus, motor_tau_s=params.motor_tau_s, sf=sf)
+    projection = {
+        "basis": proj_basis, "heating_pu": None if u_end is None else math.sqrt(u_end),
+        "relay_current_pu": None if ur_end is None else math.sqrt(ur_end),
+        "motor_100pct_s": proj["motor_100pct_s"],
+        "motor_steady_state_pct": None if u_end is None else 100.0 * u_end / sf**2,
+        "relays": {cls: proj["relays"][cls] for cls in relay_taus},
+    }
+
+    # -- sensitivity to the assumptions -----------------------------------------------------
+    def motor_case(name: str, value: float, u_case: np.ndarray, tau: float) -> dict:
+        m = _models(u_case, u_relay, off, t_end, dt, relay_taus={}, **dict(kw, motor_tau_s=tau))
+        p_ = _project(m, None if u_end is None else float(np.median(u_case[t_s >= t_s[-1] - EDGE_WINDOW_S])), None, t_last,
+                      relay_taus={}, motor_tau_s=tau, sf=sf)
+        return {"parameter": name, "value": value, "capacity_used_pct": float(100.0 * np.max(m["theta_motor"]) / sf**2),
+                "motor_100pct_s": m["motor_100pct_s"], "motor_100pct_projected_s": p_["motor_100pct_s"]}
+
+    sens: list[dict] = []
+    for f in (0.5, 2.0):
+        sens.append(motor_case("motor_tau_s", params.motor_tau_s * f, u, params.motor_tau_s * f))
+    if have_seq:
+        ks = [("k_neg", k_neg * f) for f in (0.5, 2.0)]
+        if params.k_neg is None and locked_rotor_range_a is not None:
+            lo, hi = (float(x) for x in locked_rotor_range_a)
+            if math.isfinite(hi) and hi > lo > fla_a:
+                ks += [("locked_rotor_a", lo), ("locked_rotor_a", hi)]
+        for name, val in ks:
+            k_case = val if name == "k_neg" else negative_sequence_k(val / fla_a)
+            sens.append(motor_case(name, val, heating_sq(k_case)[1] ** 2, params.motor_tau_s))
+    for cls in relay_taus:
+        band = TRIP_CLASS_BAND_S.get(cls)
+        if band is None:
+            continue
+        for edge in band:
+            tau_e = class_tau_s(cls, trip_at_7_2x_s=edge)
+            m = _models(u, u_relay, off, t_end, dt, relay_taus={cls: tau_e}, **kw)
+            p_ = _project(m, None, ur_end, t_last, relay_taus={cls: tau_e}, motor_tau_s=params.motor_tau_s, sf=sf)
+            sens.append({"parameter": f"class{cls}_trip_at_7_2x_s", "value": float(edge), "trip_s": m["relays"][cls]["trip_s"],
+                         "trip_projected_s": p_["relays"][cls]})
 
     track = pd.DataFrame({
-        "t_s": cycles["t_s"].to_numpy(float), "i_max_line_a": i_max, "i1_a": i1, "i2_a": i2,
-        "i_eq_pu": i_eq_pu, "i_winding_max_pu": i_wind_pu, "heating_pu": heating,
+        "t_s": t_s, "i_max_line_a": i_max, "i1_a": i1, "i2_a": i2,
+        "i_eq_pu": i_eq_pu, "i_winding_max_pu": i_wind_pu, "heating_pu": heating, "standstill": still | off,
     })
-    sf = float(service_factor)
-    theta_m = first_order_state(u, dt, params.motor_tau_s, theta0)
-    track["theta_motor_pct"] = 100.0 * theta_m / sf**2
-    setting = params.relay_setting_a or fla_a
-    # the relays see the largest line current (an overload relay measures line current)
-    u_relay = np.nan_to_num(i_max / setting, nan=0.0) ** 2
+    track["theta_motor_pct"] = 100.0 * base["theta_motor"] / sf**2
     relays = {}
-    for cls in params.trip_classes:
-        tau_c = class_tau_s(cls)
-        th = first_order_state(u_relay, dt, tau_c, theta0)
-        level = RELAY_PICKUP_PU**2
-        track[f"theta_class{cls}_pct"] = 100.0 * th / level
-        t_trip = crossing_time_s(t_end, u_relay, th, dt, tau_c, level, theta0)
+    for cls, tau_c in relay_taus.items():
+        track[f"theta_class{cls}_pct"] = 100.0 * base["relays"][cls]["theta"] / RELAY_PICKUP_PU**2
         relays[cls] = {
-            "tau_s": tau_c, "trip_s": t_trip, "pickup_pu": RELAY_PICKUP_PU,
+            "tau_s": tau_c, "trip_s": base["relays"][cls]["trip_s"], "pickup_pu": RELAY_PICKUP_PU,
             "trip_at_7_2x_cold_s": float(trip_time_s(CLASS_TEST_MULTIPLE, tau_c, RELAY_PICKUP_PU)),
             "band_at_7_2x_s": list(TRIP_CLASS_BAND_S[cls]) if cls in TRIP_CLASS_BAND_S else None,
+            "trip_projected_s": projection["relays"][cls],
         }
     valid = np.isfinite(i_max)
+    per_line = {}
+    for col in lines:
+        v = cycles[col].to_numpy(float)
+        ok = np.isfinite(v)
+        per_line[col[1].upper()] = {
+            "max_current_pu": float(np.max(v[ok]) / fla_a) if ok.any() else None,
+            "time_above_fla_s": float(np.sum(dur[ok & (np.nan_to_num(v) > fla_a)])),
+        }
     summary = {
         "fla_a": fla_a, "service_factor": sf, "connection": connection, "k_neg": k_neg,
-        "motor_tau_s": params.motor_tau_s, "relay_setting_a": setting, "hot_start": params.hot_start,
+        "motor_tau_s": params.motor_tau_s, "relay_setting_a": setting_a, "hot_start": params.hot_start,
+        "initial_state": initial, "standstill_cooling_ratio": params.standstill_cooling_ratio,
+        "standstill_s": float(np.sum(dur[still])), "deenergised_s": float(np.sum(dur[off])),
         "time_above_fla_s": float(np.sum(dur[valid & (i_max > fla_a)])),
         "time_above_sf_current_s": float(np.sum(dur[valid & (i_max > fla_a * sf)])),
         "max_current_pu": float(np.nanmax(i_max) / fla_a) if valid.any() else None,
         "max_heating_pu": float(np.max(heating)) if heating.size else None,
         "thermal_capacity_used_pct": float(np.max(track["theta_motor_pct"])) if len(track) else None,
         "thermal_capacity_end_pct": float(track["theta_motor_pct"].iloc[-1]) if len(track) else None,
+        "motor_100pct_s": base["motor_100pct_s"],
+        "lines": per_line,
         "relays": relays,
+        "projection": projection,
+        "sensitivity": sens,
         "notes": notes,
     }
     return ThermalResult(track=track, summary=summary)

@@ -111,9 +111,13 @@ TEMPLATE = r"""<!DOCTYPE html>
  <tr><th>time above FLA</th><td class="num">{{ thermal.above_fla }}</td><th>time above service-factor current</th><td class="num">{{ thermal.above_sf }}</td></tr>
  <tr><th>thermal capacity used (max)</th><td class="num">{{ thermal.used }}</td><th>negative-sequence weight K</th><td class="num">{{ thermal.k }}</td></tr>
  </tbody></table>
- <table><thead><tr><th>overload relay (IEC 60947-4-1 class)</th><th>model time constant [s]</th><th>trip at 7.2 x setting, cold [s]</th><th>would have tripped at</th></tr></thead>
- <tbody>{% for r in thermal.relays %}<tr><td>class {{ r.cls }}</td><td class="num">{{ r.tau }}</td><td class="num">{{ r.t72 }}</td><td>{{ r.trip }}</td></tr>{% endfor %}</tbody></table>
- <p class="lead">Single time-constant model (IEC 60255-149 thermal equation), heating current I_eq&sup2; = I1&sup2; + K I2&sup2;. Relay models are tuned inside the IEC 60947-4-1 class bands; a real relay's curve differs.</p>
+ <p>Initial state: {{ thermal.initial }}</p>
+ <table><thead><tr><th>overload relay (IEC 60947-4-1 class)</th><th>model time constant [s]</th><th>trip at 7.2 x setting, cold [s]</th><th>would have tripped at</th><th>projected past the capture</th></tr></thead>
+ <tbody>{% for r in thermal.relays %}<tr><td>class {{ r.cls }}</td><td class="num">{{ r.tau }}</td><td class="num">{{ r.t72 }}</td><td>{{ r.trip }}</td><td>{{ r.projected }}</td></tr>{% endfor %}</tbody></table>
+ <p>Projection: {{ thermal.projection }}</p>
+ <table><thead><tr><th>assumption varied</th><th>value</th><th>motor capacity used (max)</th><th>motor model at 100 % / relay trip</th></tr></thead>
+ <tbody>{% for r in thermal.sensitivity %}<tr><td>{{ r.parameter }}</td><td class="num">{{ r.value }}</td><td class="num">{{ r.used }}</td><td>{{ r.when }}</td></tr>{% endfor %}</tbody></table>
+ <p class="lead">Single time-constant model (IEC 60255-149 thermal equation), heating current I_eq&sup2; = I1&sup2; + K I2&sup2; while running (K a rule of thumb), I1&sup2; + I2&sup2; at standstill, where the rotor sees both sequences at supply frequency. Relay models are tuned inside the IEC 60947-4-1 class bands; a real relay's curve differs.</p>
  {% else %}<p>Not assessed (no nameplate or no line currents).</p>{% endif %}
 </section>
 
@@ -172,6 +176,24 @@ def render(res: AnalysisResult, doc: dict[str, Any], figures: dict[str, str | No
                         "trip": "not within the capture" if v["trip_s"] is None else f"{v['trip_s']:.2f} s ({v['trip_time']})"}
                        for k, v in th["relays"].items()],
         }
+        thermal["initial"] = (th.get("initial_state") or {}).get("basis", "cold" if not th.get("hot_start") else "hot")
+        pj = th.get("projection") or {}
+        thermal["projection"] = pj.get("basis", "none")
+        for r, (k, v) in zip(thermal["relays"], th["relays"].items(), strict=True):
+            t = v.get("trip_projected_s")
+            r["projected"] = "" if v["trip_s"] is not None else ("never at that current" if t is None else f"about {t:.0f} s from the capture start")
+        if pj.get("motor_100pct_s") is not None:
+            thermal["projection"] += f"; the motor model reaches 100 % after about {pj['motor_100pct_s']:.0f} s"
+
+        def _when(r: dict) -> str:
+            if "trip_s" in r:
+                t, tp = r["trip_s"], r["trip_projected_s"]
+                return f"trips at {t:.2f} s" if t is not None else (f"trips at about {tp:.0f} s (projected)" if tp is not None else "no trip")
+            t, tp = r["motor_100pct_s"], r["motor_100pct_projected_s"]
+            return f"100 % at {t:.2f} s" if t is not None else (f"100 % at about {tp:.0f} s (projected)" if tp is not None else "stays below 100 %")
+        thermal["sensitivity"] = [{"parameter": r["parameter"], "value": f"{r['value']:.4g}",
+                                   "used": f"{r['capacity_used_pct']:.0f} %" if "capacity_used_pct" in r else "",
+                                   "when": _when(r)} for r in th.get("sensitivity") or []]
     prov = doc["provenance"]
     pc = prov["capture"]
     ch = [f"{c.source_label or c.name} \u2192 {c.label}" for c in cap.channels]

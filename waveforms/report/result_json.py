@@ -151,6 +151,8 @@ def result_dict(res: AnalysisResult, generated_at: _dt.datetime | None = None) -
         },
         "cautions": list(SAFETY_CAUTIONS),
     }
+    if getattr(res, "voltage", None) is not None:  # declared supply voltage and the motor terminal check
+        doc["supply_voltage"] = plain(res.voltage)
     hk = getattr(res, "hookup", None)
     if hk is not None and hk.findings:  # present only when the hook-up check found something (docs/hookup.md)
         doc["hookup"] = hk.to_dict()
