@@ -99,7 +99,7 @@ def test_mapping_with_ct_pt_ratio(tmp_path):
                "capture": {"start_time": "2024-01-01T00:00:00+01:00", "nominal_frequency_hz": 50}}
     cap = read_capture(p, options=ReadOptions(mapping=mapping, mapping_source="m.toml"))
     x = cap.read()
-    # PT 11000:110 -> x100, CT 400:5 -> x80 (IEC 61869-2 rated transformation ratio, from memory)
+    # PT 11000:110 -> x100 (IEC 61869-3), CT 400:5 -> x80 (IEC 61869-2): rated transformation ratio, from memory
     np.testing.assert_allclose(x[0], [100.0, 200.0, 300.0], rtol=1e-15)
     np.testing.assert_allclose(x[1], [40.0, -40.0, 20.0], rtol=1e-15)
     assert cap.provenance.mapping["channels"]["Ia"]["ratio"] == 80.0

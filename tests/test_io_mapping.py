@@ -60,7 +60,7 @@ def test_wrong_unit_for_kind():
 
 
 @pytest.mark.parametrize(("value", "ratio"), [
-    # rated transformation ratio = rated primary / rated secondary (IEC 61869-2, from memory)
+    # rated transformation ratio = rated primary / rated secondary (IEC 61869-2 for CTs, IEC 61869-3 for PTs; from memory)
     ("400:5", 80.0), ("11000:110", 100.0), (80, 80.0), ("2.5", 2.5),
 ])
 def test_ratios(value, ratio):

@@ -241,3 +241,14 @@ class TestDeclaredVoltage:
         assert terminal_voltage_check(460 * 1.04, 460)["iec_60034_1_zone"] == "A"
         assert terminal_voltage_check(460 * 0.93, 460)["iec_60034_1_zone"] == "B"
         assert terminal_voltage_check(460 * 1.11, 460)["iec_60034_1_zone"] == "outside B"
+
+
+def test_single_phased_space_vector_rms_is_sqrt_two_thirds_of_the_line_rms():
+    # Clarke (amplitude-invariant space vector 2/3 (ia + a ib + a^2 ic), common practice): ia = -ib, ic = 0 gives
+    # |i_s| = (2/3) sqrt(3) |ia|, so sqrt(mean |i_s|^2 / 2) = sqrt(2/3) x the line RMS = 0.816 (docs/speed.md)
+    from waveforms.speed.spectrum import space_vector
+
+    t = np.arange(6000) / 6000.0
+    ia = 10.0 * math.sqrt(2.0) * np.sin(2 * np.pi * 60.0 * t)
+    sv = space_vector(ia, -ia, np.zeros_like(ia))
+    assert math.sqrt(np.mean(np.abs(sv) ** 2) / 2.0) == pytest.approx(10.0 * math.sqrt(2.0 / 3.0), rel=1e-9)

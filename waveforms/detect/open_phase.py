@@ -40,9 +40,10 @@ _NEXT = {"A": "B", "B": "C", "C": "A"}
 def _ratio_series(inp: DetectionInput, line: str) -> tuple[np.ndarray, complex] | None:
     """Per-cycle complex ratio of the open line's voltage to a healthy reference, and its ideal value.
 
-    LN: ``V_line / V_ref`` with ``V_ref`` the next line (ideal ratio a^2 for
-    ABC: Vb = a^2 Va, Vc = a Va).  LL: the channel through the open line that
-    starts at it over the channel not touching it (ideal a^2 as well).
+    LN: ``V_line / V_ref`` with ``V_ref`` the next line (ideal ratio a for
+    ABC: Vb = a^2 Va, so Va / Vb = a^-2 = a; a* for ACB).  LL: the channel
+    through the open line that starts at it over the channel not touching it
+    (Vab / Vbc, ideal a as well).
     """
     if len(inp.voltage_channels) != 3:
         return None

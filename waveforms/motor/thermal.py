@@ -69,8 +69,10 @@ TRIP_CLASS_BAND_S: dict[str, tuple[float, float]] = {
 }
 
 #: Trip time [s] at 7.2 x setting, cold, that our model relay of each class is
-#: tuned to: three quarters of the class's upper limit, inside the IEC 60947-4-1
-#: band (our choice, no source: real relays differ; the band is what is certain).
+#: tuned to, inside the IEC 60947-4-1 band: three quarters of the upper limit for
+#: classes 10, 20, 30 (7.5, 15, 22.5 s); 6 s, the middle of the 2-10 s band, for
+#: class 10A (0.6 x its upper limit) (our choice, no source: real relays differ;
+#: the band is what is certain).
 TRIP_CLASS_TARGET_S: dict[str, float] = {"10A": 6.0, "10": 7.5, "20": 15.0, "30": 22.5}
 
 #: Pick-up of the model relays, in per unit of the setting: between the

@@ -563,8 +563,8 @@ def track_speed(
         ``f_component_hz`` (strongest agreeing component), ``i_rms_a``
         (current RMS below the highest searched frequency: with three
         currents ``sqrt(mean |i_s|^2 / 2)`` of the space vector, which is the
-        phase RMS for balanced currents and 2/sqrt(3) x the line RMS for a
-        single-phased pair; else the largest line RMS).  ``slip``/``rpm`` are NaN
+        phase RMS for balanced currents and sqrt(2/3) = 0.816 x the line RMS
+        for a single-phased pair, ia = -ib, ic = 0; else the largest line RMS).  ``slip``/``rpm`` are NaN
         unless ``status == "estimate"``.
 
     References
