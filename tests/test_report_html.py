@@ -32,7 +32,7 @@ needs_chromium = pytest.mark.skipif(CHROMIUM is None, reason="Debian's chromium 
 
 SECTIONS = [
     "Verdict", "Timeline", "Line currents against FLA", "Unbalance: I2/I1 and V2/V1", "Speed track",
-    "Phasors before and after the onset", "Current spectrum with slip components", "Events", "Thermal stress",
+    "Phasors before and after the onset", "Current spectrum with slip components", "Events", "Supply and terminal voltage", "Thermal stress",
     "Data quality", "Provenance", "Safety cautions",
 ]
 HOSTILE = '<script>document.title="owned"</script><img src=x onerror="document.title=1">'

@@ -104,6 +104,11 @@ TEMPLATE = r"""<!DOCTYPE html>
  {% else %}<p>No events found.</p>{% endif %}
 </section>
 
+{% if supply %}<section id="supply-voltage"><h2>Supply and terminal voltage</h2>
+ <p>Declared voltage ({{ supply.source }}): {{ supply.basis }}.</p>
+ {% if supply.terminal %}<p>The {{ supply.terminal }}.</p>{% endif %}
+</section>{% endif %}
+
 <section id="thermal"><h2>Thermal stress</h2>
  {% if thermal %}
  <img alt="thermal capacity used" src="{{ fig.thermal }}">
@@ -209,6 +214,9 @@ def render(res: AnalysisResult, doc: dict[str, Any], figures: dict[str, str | No
         "rate": f"{cap.sample_rate_hz:g} samples/s", "channels": ", ".join(c.label for c in cap.channels),
         "plate_name": None if res.nameplate is None else (res.nameplate.name or None),
         "verdict": doc["verdict"], "fig": figures, "events": events, "thermal": thermal,
+        "supply": None if doc.get("supply_voltage") is None else {
+            "source": doc["supply_voltage"]["declared"]["source"], "basis": doc["supply_voltage"]["declared"]["basis"],
+            "terminal": (doc["supply_voltage"].get("motor_terminal") or {}).get("sentence")},
         "quality": doc["data_quality"], "notes": doc["notes"], "cautions": doc["cautions"],
         "prov": {
             "file": pc.get("source_path") or "(in memory)", "sha256": pc.get("sha256") or "(none: not read from a file)",
