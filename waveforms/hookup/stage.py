@@ -38,8 +38,20 @@ def register_hookup_stage() -> None:
 
 
 def as_labelled(events: list, hookup: HookupResult | None) -> list:
-    """Events with their line named as labelled in the file (after an A-C-B relabelling)."""
-    if hookup is None or not hookup.relabelled:
+    """Events with their line named as labelled in the file (after an A-C-B relabelling).
+
+    After clamps moved one line along were corrected, an event's line is named
+    by the voltage leads and the other reading is added: the same waveforms come
+    from the voltage leads moved the other way, so the line may be the one the
+    clamp labels give ("line A (line B if it is the voltage leads that were moved)").
+    """
+    if hookup is None:
+        return events
+    alt = next((f.evidence["line_if_voltage_leads_moved"] for f in hookup.findings
+                if f.corrects and "line_if_voltage_leads_moved" in f.evidence), None)
+    if alt and not hookup.relabelled:
+        return [_either_line(e, alt) for e in events]
+    if not hookup.relabelled:
         return events
     out = []
     for e in events:
@@ -51,3 +63,13 @@ def as_labelled(events: list, hookup: HookupResult | None) -> list:
         summary = e.summary.replace(f"line {e.phase} ", f"line {lab} ")
         out.append(dataclasses.replace(e, phase=lab, figures=figs, summary=summary))
     return out
+
+
+def _either_line(e: Any, alt: dict[str, str]) -> Any:
+    if e.phase is None or alt.get(e.phase, e.phase) == e.phase:
+        return e
+    other = alt[e.phase]
+    figs = dict(e.figures, line_if_voltage_leads_moved=other)
+    summary = e.summary.replace(f"line {e.phase} ", f"line {e.phase} (line {other} if it is the voltage leads that were "
+                                f"moved, not the clamps) ", 1)
+    return dataclasses.replace(e, figures=figs, summary=summary)
