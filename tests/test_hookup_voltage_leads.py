@@ -145,3 +145,14 @@ def test_open_delta_two_pt_hookup_gives_the_recorded_findings(stem, drop):
     assert _events(res) == _events(base)
     assert abs(_median(res, "V2_V1_pct") - _median(base, "V2_V1_pct")) < 0.3
     assert res.thermal.summary["thermal_capacity_used_pct"] == pytest.approx(base.thermal.summary["thermal_capacity_used_pct"], abs=0.2)
+
+
+@pytest.mark.parametrize("name", ["V dead", "V falls off"])
+def test_dead_voltage_lead_as_recorded_is_still_no_dip(name):
+    # consistency, no external source: analysed as recorded the lead is not derived, but a dip on nothing but the
+    # dead lead is the sensor, and the verdict must not call it a dip or an interruption
+    res = analyze(fault(_cap("healthy_run"), name), speed=False, as_recorded=True)
+    assert res.hookup.as_recorded and not res.hookup.corrected
+    assert res.events == [], [e.summary for e in res.events]
+    assert any("is the dead voltage lead" in n for n in res.notes)
+    assert "a sensor problem, not a dip, interruption or open phase" in res.verdict

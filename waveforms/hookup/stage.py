@@ -73,3 +73,29 @@ def _either_line(e: Any, alt: dict[str, str]) -> Any:
     summary = e.summary.replace(f"line {e.phase} ", f"line {e.phase} (line {other} if it is the voltage leads that were "
                                 f"moved, not the clamps) ", 1)
     return dataclasses.replace(e, figures=figs, summary=summary)
+
+
+def dead_lead_events(events: list, hookup: HookupResult | None) -> tuple[list, list[str]]:
+    """Events without the dips / interruptions that are only a dead voltage lead, and a note for each one left out.
+
+    Only matters when the file is analysed as recorded (corrected, the lead is
+    derived and reads no dip): a dip on nothing but a lead the hook-up check found
+    dead, starting after that lead was last seen live, is the sensor, not the supply.
+    """
+    if hookup is None:
+        return events, []
+    dead = [f for f in hookup.findings if f.check == "dead_sensor" and not f.corrects and f.channels
+            and f.channels[0].startswith("V") and "last_seen_live_s" in f.evidence]
+    if not dead:
+        return events, []
+    out, notes = [], []
+    for e in events:
+        chans = set(e.figures.get("channels") or ())
+        f = next((f for f in dead if e.kind in ("dip", "interruption") and chans and chans <= set(f.channels)
+                  and e.start_s >= f.evidence["last_seen_live_s"]), None)
+        if f is None:
+            out.append(e)
+            continue
+        notes.append(f"hook-up: the {e.kind} on {', '.join(sorted(chans))} from {e.start_s:.3f} s is the dead voltage lead "
+                     "(a sensor problem), not reported as a dip or interruption")
+    return out, notes

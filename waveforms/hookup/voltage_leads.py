@@ -102,10 +102,12 @@ def dead_voltage_leads(names: list[str], reference: str, phasors: dict[str, np.n
                                 False, short="voltage leads dead")]
         live = np.flatnonzero(three_phase & ~dead)
         first = float(t_s[np.flatnonzero(dead)[0]])
+        before = live[live < np.flatnonzero(dead)[0]]
+        last_live = float(t_s[before[-1]]) if before.size else 0.0
         from_start = not (live.size and live[0] < np.flatnonzero(dead)[0])
         a, b = (names[k] for k in o)
         ev = {"windows_dead": int(dead.sum()), "windows_three_phase": int(three_phase.sum()), "first_seen_s": first,
-              "from_start": bool(from_start), "silent_voltage_v": float(np.median(vm[j][dead])),
+              "last_seen_live_s": last_live, "from_start": bool(from_start), "silent_voltage_v": float(np.median(vm[j][dead])),
               "other_voltages_v": [float(np.median(x[dead])) for x in others],
               "silent_over_others": float(np.median(vm[j][dead] / others.mean(axis=0)[dead])),
               "currents": "three-phase (all three lines carry current) and balanced",
