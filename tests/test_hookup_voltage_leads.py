@@ -156,3 +156,15 @@ def test_dead_voltage_lead_as_recorded_is_still_no_dip(name):
     assert res.events == [], [e.summary for e in res.events]
     assert any("is the dead voltage lead" in n for n in res.notes)
     assert "a sensor problem, not a dip, interruption or open phase" in res.verdict
+
+
+def test_one_voltage_at_zero_is_a_large_negative_sequence():
+    # Fortescue 1918 worked by hand: line-to-neutral with Vb = 0 -> V2/V1 = 1/2; line-to-line with Vbc = 0 (so Vca =
+    # -Vab by Kirchhoff's voltage law) -> V2/V1 = 1.  The reason a real zero is never a balanced set (voltage_leads.py)
+    from waveforms.measure.sequence import sequence_components
+
+    a = np.exp(2j * np.pi / 3)
+    _, v1, v2 = sequence_components(np.array([1.0 + 0j]), np.array([0j]), np.array([a]))
+    assert abs(v2[0]) / abs(v1[0]) == pytest.approx(0.5, abs=1e-12)
+    _, v1, v2 = sequence_components(np.array([1.0 + 0j]), np.array([0j]), np.array([-1.0 + 0j]))
+    assert abs(v2[0]) / abs(v1[0]) == pytest.approx(1.0, abs=1e-12)
