@@ -43,7 +43,7 @@ def as_labelled(events: list, hookup: HookupResult | None) -> list:
     After clamps moved one line along were corrected, an event's line is named
     by the voltage leads and the other reading is added: the same waveforms come
     from the voltage leads moved the other way, so the line may be the one the
-    clamp labels give ("line A (line B if it is the voltage leads that were moved)").
+    clamp labels give ("line A (line B if it is the voltage leads, not the clamps, that were moved)").
     """
     if hookup is None:
         return events
@@ -70,8 +70,8 @@ def _either_line(e: Any, alt: dict[str, str]) -> Any:
         return e
     other = alt[e.phase]
     figs = dict(e.figures, line_if_voltage_leads_moved=other)
-    summary = e.summary.replace(f"line {e.phase} ", f"line {e.phase} (line {other} if it is the voltage leads that were "
-                                f"moved, not the clamps) ", 1)
+    summary = e.summary.replace(f"line {e.phase} ", f"line {e.phase} (line {other} if it is the voltage leads, not the "
+                                "clamps, that were moved) ", 1)
     return dataclasses.replace(e, figures=figs, summary=summary)
 
 
