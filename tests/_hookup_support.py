@@ -63,16 +63,34 @@ def fault(cap: Capture, name: str, fs_fall_s: float = 3.0) -> Capture:
     elif name == "V reversed":
         v = "Vb" if "Vb" in d else "Vbc"
         e[v] = -d[v]
+    elif name in ("V dead", "V falls off"):  # voltage lead B (Vb, or Vbc line-to-line) off: 0.5 V of noise
+        v = "Vb" if "Vb" in d else "Vbc"
+        k = 0 if name == "V dead" else int(fs_fall_s * cap.sample_rate_hz)
+        e[v] = d[v].copy()
+        e[v][k:] = 0.5 * rng.standard_normal(d[v].size - k)
+    elif name in ("V moved", "V moved back"):  # the voltage leads moved one line along; the current clamps are right
+        va, vb, vc = voltage_names(cap)
+        if name == "V moved":  # the lead labelled Va is on line B, Vb on C, Vc on A
+            e[va], e[vb], e[vc] = d[vb], d[vc], d[va]
+        else:
+            e[va], e[vb], e[vc] = d[vc], d[va], d[vb]
     else:
         raise KeyError(name)
     return rebuild(cap, e)
 
 
+def voltage_names(cap: Capture) -> tuple[str, str, str]:
+    return ("Va", "Vb", "Vc") if "Va" in cap.channel_names else ("Vab", "Vbc", "Vca")
+
+
 FAULTS = ("Ib negated", "Ia negated", "A-C-B", "moved", "moved back", "Ia/Ib swapped", "dead Ib", "Ib falls off", "two-CT",
-          "V reversed")
+          "V reversed", "V dead", "V falls off", "V moved", "V moved back")
+VOLTAGE_LEAD_FAULTS = ("V reversed", "V dead", "V falls off")
 EXPECTED_CHECK = {"Ib negated": "current_assignment", "Ia negated": "current_assignment", "A-C-B": "phase_sequence",
                   "moved": "current_assignment", "moved back": "current_assignment", "Ia/Ib swapped": "current_assignment",
                   "dead Ib": "dead_sensor", "Ib falls off": "dead_sensor", "two-CT": "missing_channel",
-                  "V reversed": "voltage_polarity"}
+                  "V reversed": "voltage_polarity", "V dead": "dead_sensor", "V falls off": "dead_sensor",
+                  "V moved": "current_assignment", "V moved back": "current_assignment"}
 EXPECTED_CHANNELS = {"Ib negated": {"Ib"}, "Ia negated": {"Ia"}, "moved": {"Ia", "Ib", "Ic"}, "moved back": {"Ia", "Ib", "Ic"},
-                     "Ia/Ib swapped": {"Ia", "Ib"}, "dead Ib": {"Ib"}, "Ib falls off": {"Ib"}, "two-CT": {"Ia", "Ic"}}
+                     "Ia/Ib swapped": {"Ia", "Ib"}, "dead Ib": {"Ib"}, "Ib falls off": {"Ib"}, "two-CT": {"Ia", "Ic"},
+                     "V moved": {"Ia", "Ib", "Ic"}, "V moved back": {"Ia", "Ib", "Ic"}}

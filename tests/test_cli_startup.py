@@ -70,3 +70,18 @@ def test_inspect_loads_no_plotting_or_scipy(name):
             "    except SystemExit as e:\n        assert not e.code, e.code")
     loaded = _loaded_after(code)
     assert "matplotlib" not in loaded and "scipy" not in loaded and "jinja2" not in loaded
+    # a CSV with numeric stamps is parsed by pyarrow alone: pandas (about half a second to import) is left out too
+    assert "pandas" not in loaded
+
+
+def test_csv_columns_read_from_arrow_buffers_keep_nulls_and_offsets():
+    # the numeric CSV path copies Arrow float64 buffers itself (no pandas); pyarrow's own conversion is the
+    # reference (a general reference library, not our code)
+    import numpy as np
+    import pyarrow as pa
+
+    from waveforms.io.delimited import _float_column
+
+    arr = pa.chunked_array([pa.array([9.0, 1.0, None, 3.0, 4.5, 8.0]).slice(1, 4), pa.array([None, -2.0, 7.0])])
+    expected = np.concatenate([c.to_numpy(zero_copy_only=False) for c in arr.chunks])
+    np.testing.assert_array_equal(_float_column(arr), expected)

@@ -221,7 +221,9 @@ def verdict_text(
         end = f.get("ended_by")
         tail = {"phase returned": f"; the line returned at {_t(start, e.end_s)}",
                 "de-energised": f"; the motor was de-energised at {_t(start, e.end_s)}"}.get(end, "; it was still open at the end of the capture")
-        parts.append(f"Line {e.phase} {when}, {where}: {what}{tail}.")
+        alt = f.get("line_if_voltage_leads_moved")  # hook-up: clamps or voltage leads moved, which cannot be told
+        line = f"{e.phase} (line {alt} if it is the voltage leads, not the clamps, that were moved)" if alt else e.phase
+        parts.append(f"Line {line} {when}, {where}: {what}{tail}.")
     if "direction" in timeline:
         told = [o for o in ops if o.figures.get("rotation") == "reverse"]
         for r in timeline[timeline["direction"] == "reverse"].itertuples(index=False):

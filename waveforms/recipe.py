@@ -770,9 +770,11 @@ def _stage_detect(state: RunState, params: dict[str, Any]) -> None:
     state.events, state.states, state.timeline, notes = detect_events(
         state.capture, state.measurements, state.speed, state.nameplate, dparams, choice.detectors)
     if state.hookup is not None:  # lines relabelled for the supply's rotation are named as labelled in the file
-        from .hookup.stage import as_labelled
+        from .hookup.stage import as_labelled, dead_lead_events
 
         state.events = as_labelled(state.events, state.hookup)
+        state.events, dead_notes = dead_lead_events(state.events, state.hookup)  # as recorded: a dead lead is no dip
+        state.notes.extend(dead_notes)
     state.notes.extend(notes)
     from .analysis import orient_rotation  # direction of rotation per speed window and period (issue 12)
 

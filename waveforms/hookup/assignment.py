@@ -49,7 +49,10 @@ def _describe(p: tuple[int, ...], s: tuple[int, ...], names: list[str]) -> tuple
         if p in ((1, 2, 0), (2, 0, 1)):
             # p[k] = recorded index that belongs to line k; recorded names[p[k]] is on line LINES[k]
             moved = ", ".join(f"{names[p[k]]} on line {LINES[k]}" for k in range(3))
-            parts.append(f"current clamps moved one line along ({moved})")
+            # the same waveforms come from the voltage leads moved one line the other way (every current-to-voltage
+            # angle is the same): which set was moved cannot be told, lines are named by the voltage leads
+            parts.append(f"current clamps moved one line along ({moved}), or the voltage leads moved one line the "
+                         "other way (the waveforms cannot tell which; lines named by the voltage leads)")
             chans += names
         else:
             k = [i for i in range(3) if p[i] != i]
@@ -121,7 +124,10 @@ def search(work: dict[str, Terms], names: list[str], v_line: dict[str, np.ndarra
     rule = ", ".join(f"I{LINES[k].lower()} = {'-' if s[k] < 0 else ''}{names[p[k]]}" for k in range(3)
                      if not (p[k] == k and s[k] > 0))
     conf = "high" if cost <= 2 and not regen else "medium"
-    short = words
+    short = words.split(", or the voltage leads")[0]
+    if p in ((1, 2, 0), (2, 0, 1)) and all(n == f"I{c.lower()}" for n, c in zip(names, LINES)):
+        # line as analysed -> the line it is if the clamps were right and the voltage leads were moved
+        ev["line_if_voltage_leads_moved"] = {LINES[k]: LINES[p[k]] for k in range(3)}
     if regen:  # as recorded, a regenerating motor would look the same: the motoring assumption decides
         words += " (as recorded the currents would fit a regenerating motor; motoring assumed)"
         ev["regenerating_alternative"] = True

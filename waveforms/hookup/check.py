@@ -14,6 +14,7 @@ recognised as such (`waveforms.hookup.sensors`) and left to the detectors.
 from __future__ import annotations
 
 import dataclasses
+import itertools
 import math
 from typing import Any
 
@@ -24,11 +25,12 @@ from ..settings import check_fields, setting
 from . import assignment as _assign
 from .finding import Finding, HookupResult
 from .missing import missing_currents, missing_line_voltage
-from .phasor_math import LINES, Terms, combine, polar
+from .phasor_math import LINES, Terms, combine, polar, unbalance
 from .scaling import scaling
 from .sensors import classify, dead_sensors
 from .sequence import line_equivalents, phase_sequence, relabel_voltages, voltage_polarity
 from .transform import ChannelRule, apply_rules
+from .voltage_leads import dead_voltage_leads
 from .windows import window_phasors
 
 AS_RECORDED_ACTION = "none: analysed as recorded (as_recorded)"
@@ -106,6 +108,7 @@ def _check(capture: Capture, nameplate: Any, s: HookupSettings) -> tuple[Capture
         wp = window_phasors(capture, read, f_hz, s.n_windows, s.window_cycles)
     except Exception as e:  # too short: nothing to check
         return capture, HookupResult(windows={"read": 0, "reason": str(e)})
+    ph_rec = dict(wp.phasors)  # as recorded, for the phasor diagram
     ph = dict(wp.phasors)
     for n, t in derived.items():
         if n.startswith("V"):
@@ -124,6 +127,21 @@ def _check(capture: Capture, nameplate: Any, s: HookupSettings) -> tuple[Capture
     on = imax_w[np.isfinite(imax_w)]
     floor = max(0.05 * float(np.median(on[on > 0.02 * on.max()])) if on.size and on.max() > 0 else 0.0, 1e-3)
     three0 = steady & (classify(il, floor)[2] == "three") if have_i else np.zeros(wp.n, dtype=bool)
+    if have_v and have_i and not vextra:
+        # a voltage lead that reads nothing while the motor draws three currents (voltage_leads.py): derived first,
+        # so that every later check sees three voltages
+        # current balance under the clamp polarities that best satisfy the zero sum (a reversed clamp leaves a residual
+        # of twice a line current, Fortescue), so that a reversed clamp does not hide a balanced motor
+        signs = list(itertools.product((1, -1), repeat=3))
+        resid = np.vstack([np.abs(sum(k * x for k, x in zip(sg, il))) for sg in signs])
+        best = np.argmin(np.where(np.isfinite(resid), resid, np.inf), axis=0)
+        i_unbal = np.array([unbalance(*(np.atleast_1d(k * x[w]) for k, x in zip(signs[b], il)))[0]
+                            for w, b in enumerate(best)])
+        vdead, vfound = dead_voltage_leads(v_names, vref, ph, three0, wp.t_s, i_unbal)
+        findings += vfound
+        for n, t in vdead.items():
+            derived[n] = t
+            ph[n] = combine(t, ph)
     if have_v:
         vm = np.vstack([np.abs(ph[n]) for n in v_names])
         vlev = np.nanmax(vm, axis=0)
@@ -236,11 +254,11 @@ def _check(capture: Capture, nameplate: Any, s: HookupSettings) -> tuple[Capture
     if good.size:
         w = int(good[np.argmin(wp.spread[good])])
         ref_name = read[0]
-        ref = ph[ref_name][w]
+        ref = ph_rec[ref_name][w]
         for n in read:
-            rec_ph[n] = polar(ph[n][w], ref)
+            rec_ph[n] = polar(ph_rec[n][w], ref)
         for n, t in out_terms.items():
-            cor_ph[n] = polar(complex(combine(t, {m: ph[m][w:w + 1] for m in t})[0]), ref)
+            cor_ph[n] = polar(complex(combine(t, {m: ph_rec[m][w:w + 1] for m in t})[0]), ref)
     result = HookupResult(
         findings=tuple(findings), rules=tuple(rules), line_map=line_map, sequence=sequence, phasors_recorded=rec_ph,
         phasors_corrected=cor_ph if rules else {},

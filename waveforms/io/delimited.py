@@ -26,10 +26,9 @@ import dataclasses
 import datetime as _dt
 import re
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
-import pandas as pd
 import pyarrow as pa
 import pyarrow.csv as pacsv
 
@@ -43,6 +42,9 @@ from .mapping import (
     TIME_UNITS, UNIT_RE, Mapping, is_time_header, split_unit, mapping_record, parse_mapping, resolve_channels, suggest, time_header_unit, time_unit_factor,
 )
 from .registry import ReadOptions
+
+if TYPE_CHECKING:  # pandas is imported where ISO stamps are parsed: a numeric CSV is read without it
+    import pandas as pd
 
 HEAD_BYTES = 1 << 16
 DELIMITERS = ("\t", ";", ",")
@@ -263,6 +265,8 @@ def _read_table(path: Path, layout: Layout, columns: list[str], types: dict[str,
 
 def _locate_bad_number(path: Path, layout: Layout, column: str) -> tuple[int, str]:
     """First row of ``column`` that is not a number: (file line, text)."""
+    import pandas as pd  # only on this error path: a plain numeric CSV is read without pandas
+
     tbl = _read_table(path, layout, [column], {column: pa.string()})
     s = pd.Series(tbl.column(column).to_numpy(zero_copy_only=False), dtype=object)
     txt = s.where(s.notna(), "").astype(str).str.strip()
@@ -342,12 +346,29 @@ def _parse(path: Path, layout: Layout, columns: list[str], types: dict[str, pa.D
 
 
 def _column_into(out: np.ndarray, col: pa.ChunkedArray) -> None:
-    """Copy a float64 column into ``out`` chunk by chunk (one copy; nulls become NaN)."""
+    """Copy a float64 column into ``out`` chunk by chunk (one copy; nulls become NaN).
+
+    Read from the Arrow buffers directly (values, then the validity bitmap,
+    least significant bit first, as the Arrow columnar format lays them out):
+    ``Array.to_numpy`` imports pandas, which a numeric CSV does not otherwise need.
+    """
     pos = 0
     for chunk in col.chunks:
         n = len(chunk)
-        out[pos : pos + n] = chunk.to_numpy(zero_copy_only=False)
+        validity, data = chunk.buffers()[:2]
+        part = out[pos : pos + n]
+        part[:] = np.frombuffer(data, dtype=np.float64, count=n, offset=8 * chunk.offset)
+        if chunk.null_count:
+            bits = np.unpackbits(np.frombuffer(validity, dtype=np.uint8), bitorder="little")
+            part[~bits[chunk.offset : chunk.offset + n].astype(bool)] = np.nan
         pos += n
+
+
+def _float_column(col: pa.ChunkedArray) -> np.ndarray:
+    """A float64 column as one new array (nulls NaN)."""
+    out = np.empty(len(col))
+    _column_into(out, col)
+    return out
 
 
 def iso_to_ns(s: pd.Series, mapping: Mapping, path: Path, col: str, line_of: Any) -> tuple[np.ndarray, _dt.tzinfo]:
@@ -355,6 +376,8 @@ def iso_to_ns(s: pd.Series, mapping: Mapping, path: Path, col: str, line_of: Any
 
     ``line_of(row) -> int`` gives the file line of a row, for messages.
     """
+    import pandas as pd  # ISO 8601 parsing only: a CSV with numeric stamps is read without pandas
+
     first = str(s.iloc[0]).strip()
     has_offset = bool(_OFFSET_RE.search(first))
     try:
@@ -387,6 +410,8 @@ def ns_to_datetime(ns: int, tz: _dt.tzinfo) -> _dt.datetime:
 
 def _iso_stamps(path: Path, layout: Layout, col: str, arr: pa.ChunkedArray, mapping: Mapping) -> tuple[np.ndarray, _dt.datetime]:
     """ISO 8601 text stamps -> seconds from the first stamp, and the first stamp (tz-aware)."""
+    import pandas as pd
+
     s = pd.Series(arr.to_numpy(zero_copy_only=False), dtype=object)
     ns, tz = iso_to_ns(s, mapping, path, col, lambda r: _line_of_row(path, layout, r))
     t_s = (ns - ns[0]).astype(np.float64) * 1e-9
@@ -553,7 +578,7 @@ def _read_csv(path: Path, options: ReadOptions, mapping: Mapping, digest: concur
                 start = first
             timebase_record["time"] = {"column": time_col, "format": "iso8601"}
         else:
-            raw = arr.to_numpy(zero_copy_only=False).astype(np.float64)
+            raw = _float_column(arr)
             if np.isnan(raw).any():
                 row = int(np.flatnonzero(np.isnan(raw))[0])
                 raise CaptureReadError(path, f"line {_line_of_row(path, layout, row)}, {where_t}", "time stamp missing")

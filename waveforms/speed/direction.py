@@ -102,6 +102,34 @@ def rotation_direction(
         "supply_side_voltage", "single_phased_no_voltage", "inconsistent",
         "no_current", ""), ``rotation`` ("forward", "reverse" or "").
     """
+    return pd.DataFrame(_rotation_arrays(v1, v2, i1, i2, i_line_a, margin=margin, open_frac=open_frac,
+                                         min_current_a=min_current_a, min_voltage_v=min_voltage_v, open_point=open_point))
+
+
+#: Row bases of `rotation_direction`, in the order of its integer codes.
+_ROW_BASES = ("", "no_current", "inconsistent", "three_phase", "regenerated_voltage", "supply_side_voltage",
+              "single_phased_voltage_unverified", "single_phased_no_voltage")
+_SEQUENCES = ("", "ABC", "ACB")
+
+
+def _names(names: tuple[str, ...], code: np.ndarray) -> np.ndarray:
+    """Object array of ``names[code]`` (indexing an object array: no new string per row)."""
+    return np.array(names, dtype=object)[code]
+
+
+def _sequence_code(x1, x2, margin: float) -> np.ndarray:
+    """0 / 1 / 2 for "" / "ABC" / "ACB", as `waveforms.measure.sequence.phase_sequence` decides them."""
+    seq = phase_sequence(np.asarray(x1), np.asarray(x2), margin)
+    return np.select([seq == "ABC", seq == "ACB"], [1, 2], default=0)
+
+
+def _rotation_arrays(v1, v2, i1, i2, i_line_a, *, margin: float, open_frac: float, min_current_a, min_voltage_v,
+                     open_point, codes: bool = False) -> dict[str, np.ndarray]:
+    """`rotation_direction`'s columns as object arrays (with ``codes``: also ``basis_code``, ``seq_code``).
+
+    Decisions are made on small integer codes and turned into strings once at
+    the end (a cycle table has one row per cycle: 180 000 for an hour at 50 Hz).
+    """
     lengths = {np.size(a) for a in (v1, i1) if a is not None}
     if not lengths:
         raise InvalidParameterError("rotation_direction needs voltage (v1, v2) or current (i1, i2) sequence components")
@@ -116,17 +144,16 @@ def rotation_direction(
         if ops.size != n or bad:
             raise InvalidParameterError(f"open_point per row: need {n} values from 'upstream', 'downstream', '', None; "
                                         f"got {ops.size} values{f', including {sorted(map(str, bad))}' if bad else ''}")
-    ops = np.where((ops == "upstream") | (ops == "downstream"), ops, "")
-    blank = np.full(n, "", dtype=object)
+    upstream, downstream = ops == "upstream", ops == "downstream"
+    blank = np.zeros(n, dtype=np.int8)
     have_v = v1 is not None
     if have_v:
         vsum = np.abs(np.asarray(v1)).reshape(n) + np.abs(np.asarray(v2)).reshape(n)
         vmin = 0.05 * np.nanmax(vsum) if min_voltage_v is None else min_voltage_v
-        vs = np.asarray(phase_sequence(np.asarray(v1), np.asarray(v2), margin), dtype=object).reshape(n)
-        vs = np.where(vsum >= vmin, vs, "")
+        vs = np.where(vsum >= vmin, _sequence_code(v1, v2, margin).reshape(n), 0)
     else:
         vs = blank
-    cs = np.asarray(phase_sequence(np.asarray(i1), np.asarray(i2), margin), dtype=object).reshape(n) if i1 is not None else blank
+    cs = _sequence_code(i1, i2, margin).reshape(n) if i1 is not None else blank
     if i_line_a is not None:
         im = np.abs(np.asarray(i_line_a, dtype=float)).reshape(3, n)
         imax = np.nanmax(im, axis=0)
@@ -138,20 +165,24 @@ def rotation_direction(
         no_cur = np.zeros(n, dtype=bool)
     three = (n_open == 0) & ~no_cur
     seq3 = vs if have_v else cs
-    both = (vs != "") & (cs != "")
+    both = (vs != 0) & (cs != 0)
     clash = three & both & (vs != cs)
     single = (n_open == 1) & ~no_cur
-    single_v = single & have_v & (ops != "downstream")
-    seq = np.where(three & ~clash, seq3, np.where(single_v, vs, ""))
-    single_label = np.select([ops == "upstream", ops == "downstream"], ["regenerated_voltage", "supply_side_voltage"],
-                             default="single_phased_voltage_unverified")
+    single_v = single & have_v & ~downstream
+    seq = np.where(three & ~clash, seq3, np.where(single_v, vs, 0))
+    b = _ROW_BASES.index
+    single_label = np.select([upstream, downstream], [b("regenerated_voltage"), b("supply_side_voltage")],
+                             default=b("single_phased_voltage_unverified"))
     basis = np.select(
         [no_cur, clash, three, single & have_v, single],
-        ["no_current", "inconsistent", "three_phase", single_label, "single_phased_no_voltage"],
-        default="",
+        [b("no_current"), b("inconsistent"), b("three_phase"), single_label, b("single_phased_no_voltage")],
+        default=b(""),
     )
-    rot = np.select([seq == "ABC", seq == "ACB"], [ROTATION["ABC"], ROTATION["ACB"]], default="").astype(object)
-    return pd.DataFrame({"v_sequence": vs, "i_sequence": cs, "basis": basis.astype(object), "rotation": rot})
+    out = {"v_sequence": _names(_SEQUENCES, vs), "i_sequence": _names(_SEQUENCES, cs), "basis": _names(_ROW_BASES, basis),
+           "rotation": _names(tuple(ROTATION[q] for q in _SEQUENCES), seq)}
+    if codes:
+        out["basis_code"], out["seq_code"] = basis, seq
+    return out
 
 
 def direction_from_cycles(cycles: pd.DataFrame, **options) -> pd.DataFrame:
@@ -160,19 +191,8 @@ def direction_from_cycles(cycles: pd.DataFrame, **options) -> pd.DataFrame:
     Missing columns are simply not used (see docs/columns.md); ``options`` go
     to `rotation_direction` (``open_point=``, ``min_current_a=`` ...).
     """
-    if "t_s" not in cycles.columns:
-        raise InvalidParameterError(f"cycle table has no column 't_s'; columns are {list(cycles.columns)[:12]}...")
-    get = lambda c: cycles[c].to_numpy(float) if c in cycles.columns else None  # noqa: E731
-    v1, v2, i1, i2 = get("V1"), get("V2"), get("I1"), get("I2")
-    if v1 is None or v2 is None:
-        v1 = v2 = None
-    if i1 is None or i2 is None:
-        i1 = i2 = None
-    mags = [get(f"I{c}_mag") for c in "abc"]
-    il = np.vstack(mags) if all(m is not None for m in mags) else None
-    out = rotation_direction(v1, v2, i1, i2, il, **options)
-    out.insert(0, "t_s", cycles["t_s"].to_numpy(float))
-    return out
+    a = _cycle_arrays(cycles, **options)
+    return pd.DataFrame({k: a[k] for k in ("t_s", "v_sequence", "i_sequence", "basis", "rotation")})
 
 
 def direction_from_waveforms(
@@ -230,9 +250,9 @@ def supply_sequence(rot: pd.DataFrame) -> tuple[str, str]:
     basis ``three_phase`` (else the currents'), ``how`` = ``"measured"``; with no
     such row, ``("ABC", "assumed")`` -- the terminals' A-B-C as labelled.
     """
-    three = rot["basis"].to_numpy(object) == "three_phase"
+    three = np.asarray(rot["basis"], dtype=object) == "three_phase"
     for col in ("v_sequence", "i_sequence"):
-        vals = rot[col].to_numpy(object)[three]
+        vals = np.asarray(rot[col], dtype=object)[three]
         n_abc, n_acb = int(np.sum(vals == "ABC")), int(np.sum(vals == "ACB"))
         if n_abc + n_acb:
             return ("ABC" if n_abc >= n_acb else "ACB"), "measured"
@@ -261,22 +281,41 @@ def cycle_direction(cycles: pd.DataFrame, open_point=None, supply: str | None = 
         (`DIRECTIONS`), ``direction_basis`` (`DIRECTION_BASES`); the supply
         sequence used and how it was found (``"measured"``, ``"assumed"``, ``"given"``).
     """
-    rot = direction_from_cycles(cycles, open_point=open_point, **options)
+    if supply is not None and supply not in ("ABC", "ACB"):
+        raise InvalidParameterError(f"supply={supply!r} must be 'ABC', 'ACB' or None")
+    rot = _cycle_arrays(cycles, open_point=open_point, **options)
     if supply is None:
         sup, how = supply_sequence(rot)
-    elif supply in ("ABC", "ACB"):
-        sup, how = supply, "given"
     else:
-        raise InvalidParameterError(f"supply={supply!r} must be 'ABC', 'ACB' or None")
-    r = rot["rotation"].to_numpy(object)
-    seq = np.select([r == "forward", r == "reverse"], ["ABC", "ACB"], default="").astype(object)
-    direction = np.where(seq == "", "unknown", np.where(seq == sup, "forward", "reverse")).astype(object)
-    rb = rot["basis"].to_numpy(object)
-    basis = np.select([rb == k for k in _BASIS_OF_ROTATION], list(_BASIS_OF_ROTATION.values()), default="no_current").astype(object)
-    basis = np.where((seq == "") & np.isin(basis, ["three_phase_sequence", "regenerated_voltage"]), "no_dominant_sequence", basis)
-    out = pd.DataFrame({"t_s": rot["t_s"].to_numpy(float), "rotor_sequence": seq, "direction": direction,
-                        "direction_basis": basis.astype(object)})
+        sup, how = supply, "given"
+    seq = rot["seq_code"]  # 0 "", 1 "ABC", 2 "ACB"
+    d_code = np.where(seq == 0, 2, np.where(seq == _SEQUENCES.index(sup), 0, 1))  # DIRECTIONS: forward, reverse, unknown
+    mapped = [_BASIS_OF_ROTATION[k] for k in _ROW_BASES]
+    names = tuple(dict.fromkeys(mapped + ["no_dominant_sequence"]))
+    b_code = np.array([names.index(m) for m in mapped])[rot["basis_code"]]
+    turning = np.isin(b_code, [names.index("three_phase_sequence"), names.index("regenerated_voltage")])
+    b_code = np.where((seq == 0) & turning, names.index("no_dominant_sequence"), b_code)
+    out = pd.DataFrame({"t_s": rot["t_s"], "rotor_sequence": _names(_SEQUENCES, seq), "direction": _names(DIRECTIONS, d_code),
+                        "direction_basis": _names(names, b_code)})
     return out, sup, how
+
+
+def _cycle_arrays(cycles: pd.DataFrame, **options) -> dict[str, np.ndarray]:
+    """`direction_from_cycles` as arrays, with the integer codes (see `_rotation_arrays`)."""
+    if "t_s" not in cycles.columns:
+        raise InvalidParameterError(f"cycle table has no column 't_s'; columns are {list(cycles.columns)[:12]}...")
+    get = lambda c: cycles[c].to_numpy(float) if c in cycles.columns else None  # noqa: E731
+    v1, v2, i1, i2 = get("V1"), get("V2"), get("I1"), get("I2")
+    if v1 is None or v2 is None:
+        v1 = v2 = None
+    if i1 is None or i2 is None:
+        i1 = i2 = None
+    mags = [get(f"I{c}_mag") for c in "abc"]
+    il = np.vstack(mags) if all(m is not None for m in mags) else None
+    opts = {"margin": 2.0, "open_frac": 0.05, "min_current_a": None, "min_voltage_v": None, "open_point": None} | options
+    out = _rotation_arrays(v1, v2, i1, i2, il, codes=True, **opts)
+    out["t_s"] = cycles["t_s"].to_numpy(float)
+    return out
 
 
 def interval_direction(per_cycle: pd.DataFrame, t0_s, t1_s, min_share: float = 0.5) -> tuple[np.ndarray, np.ndarray]:
@@ -290,15 +329,16 @@ def interval_direction(per_cycle: pd.DataFrame, t0_s, t1_s, min_share: float = 0
     t0 = np.atleast_1d(np.asarray(t0_s, dtype=float))
     t1 = np.atleast_1d(np.asarray(t1_s, dtype=float))
     t = per_cycle["t_s"].to_numpy(float)
-    d = per_cycle["direction"].to_numpy(object)
-    names, code = np.unique(per_cycle["direction_basis"].to_numpy(object).astype(str), return_inverse=True)
+    d = per_cycle["direction"]  # compared as a column (no conversion of every row to a Python string)
+    code, names = pd.factorize(per_cycle["direction_basis"].astype(str), sort=True)  # hashed, sorted names
+    names = np.asarray(names, dtype=object)
     lo, hi = np.searchsorted(t, t0, side="left"), np.searchsorted(t, t1, side="right")
 
     def count(mask: np.ndarray) -> np.ndarray:
         c = np.concatenate(([0], np.cumsum(mask, dtype=np.int64)))
         return c[hi] - c[lo]
 
-    cls = {"forward": d == "forward", "reverse": d == "reverse", "unknown": d == "unknown"}
+    cls = {k: (d == k).to_numpy(bool) for k in ("forward", "reverse", "unknown")}
     n_f, n_r = count(cls["forward"]), count(cls["reverse"])
     # per interval and basis: cycles of each direction class (a handful of bases, so a loop over them)
     by = {k: np.stack([count(m & (code == j)) for j in range(names.size)], axis=1) if names.size else np.zeros((t0.size, 0), int)
