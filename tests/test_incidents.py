@@ -126,3 +126,31 @@ def test_failed_start_series_and_site_pattern():
     assert r["site"] == "m7" and r["kind"] == "failed_starts" and r["n_events"] == 2 and r["worst_current_x_fla"] == 6.3
     with pytest.raises(InvalidParameterError, match="site_from"):
         build_incidents(s, e, site_from="(")
+
+
+def test_trend_files_give_incidents_within_one_interval(tmp_path):
+    # source: the simulator's truth of the bundled trend log (sample_captures/trend, invented scenario):
+    # line C open 32.0-44.0 s, stall from the rest instant 52.4 s to the end. The log is cut into three
+    # consecutive files with one-row gaps; the incidents must keep the true boundaries within one interval.
+    from waveforms.batch import run
+
+    src = SAMPLES / "trend"
+    truth = json.loads((src / "booster_trend.truth.json").read_text())
+    rows = pd.read_csv(src / "booster_trend.csv")
+    site = tmp_path / "harwick"
+    site.mkdir()
+    for k, (a, b) in enumerate(((0, 35), (36, 50), (51, 60))):
+        rows.iloc[a:b].to_csv(site / f"trend_{k + 1}.csv", index=False)
+    res = run([site], out=tmp_path / "out", jobs=1, motor=SAMPLES / "pump2.nameplate.toml", fresh_workers=False)
+    t0 = dt.datetime.fromisoformat(truth["start_time"])
+    inc = res.incidents.set_index("kind")
+    (op,) = [e for e in truth["events"] if e["kind"] == "open_phase"]
+    got = inc.loc["open_phase"]
+    assert got["line"] == "C" and got["files_spanned"] == 2 and got["resolution_s"] == 1.0
+    assert abs((dt.datetime.fromisoformat(got["first_onset"]) - t0).total_seconds() - op["start_s"]) <= 1.0
+    assert abs((dt.datetime.fromisoformat(got["last_seen"]) - t0).total_seconds() - op["end_s"]) <= 1.0
+    assert got["gap_not_covered_s"] == pytest.approx(1.0)
+    (st,) = [e for e in truth["events"] if e["kind"] == "stall"]
+    got = inc.loc["stall"]
+    assert st["pull_out_s"] - 1.0 <= (dt.datetime.fromisoformat(got["first_onset"]) - t0).total_seconds() <= st["rest_s"] + 1.0
+    assert got["still_present_at_end"] and got["last_file"] == "trend_3.csv"
