@@ -133,6 +133,9 @@ def test_headers_rms_spellings_and_the_waveform_refusal(tmp_path):
     pd.DataFrame({"Time": ["2026-01-01T00:00:00+01:00", "2026-01-01T00:00:01+01:00"], "Irms L1": [1, 2],
                   "Irms L2": [1, 2], "Irms L3": [1, 2], "P [W]": [1000.0, 2000.0]}).to_csv(p, index=False)
     assert is_trend_log(p)
+    both = tmp_path / "both.csv"  # waveform channels beside RMS columns: a waveform capture, not a trend log
+    both.write_text("Time,Va,Vb,Vc,Ia_rms,Ib_rms,Ic_rms\n0,1,1,1,1,1,1\n")
+    assert not is_trend_log(both)
     log = read_trend(p)
     assert log.resolution_s == 1.0 and log.table["P_kW"].tolist() == [1.0, 2.0]
     with pytest.raises(CaptureReadError, match="RMS trend log"):

@@ -85,9 +85,17 @@ def map_columns(headers: list[str]) -> tuple[str | None, dict[str, tuple[str, fl
 
 
 def is_trend_header(headers: list[str]) -> bool:
-    """A time column and the three RMS line currents or the three RMS voltages (LN or LL)."""
+    """A time column, the three RMS line currents or the three RMS voltages (LN or LL), and no waveform channel.
+
+    A file that also holds instantaneous channels (``Va``, ``Ia``) is a waveform capture
+    with extra derived columns, not a trend log.
+    """
+    from .spellings import recognise
+
     t, cols = map_columns(headers)
     if t is None:
+        return False
+    if any(recognise(str(h)) is not None and recognise_rms(str(h)) is None for h in headers if h != t):
         return False
     sets = (("Ia_rms", "Ib_rms", "Ic_rms"), ("Va_rms", "Vb_rms", "Vc_rms"), ("Vab_rms", "Vbc_rms", "Vca_rms"))
     return any(all(c in cols for c in s) for s in sets)
