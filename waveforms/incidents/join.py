@@ -167,7 +167,8 @@ def _chains(pieces: list[_Piece], spans: pd.DataFrame, gap_s: float) -> list[lis
 def _lasting_row(site: str, chain: list[_Piece], spans: pd.DataFrame, gap_s: float) -> dict[str, Any]:
     first, last = chain[0], chain[-1]
     starts, ends, files = list(spans["start"]), list(spans["end"]), list(spans["file"])
-    gap = sum((starts[b.k] - ends[a.k]).total_seconds() for a, b in zip(chain, chain[1:], strict=False))
+    # overlapping files (a clock step) cover their overlap: no negative gap time
+    gap = sum(max(0.0, (starts[b.k] - ends[a.k]).total_seconds()) for a, b in zip(chain, chain[1:], strict=False))
     note = []
     open_began = False
     if first.at_start:

@@ -7,6 +7,18 @@ files), `stages` (the trend recipe's stages).  The importer is
 `waveforms.io.trend`; docs/trends.md describes the whole.
 """
 
-from ..io.trend_log import TrendLog
+from typing import Any
 
-__all__ = ["TrendLog"]
+__all__ = ["TrendLog", "analyze_trend"]
+
+
+def __getattr__(name: str) -> Any:  # lazy: the recipe registry imports this package's stages at start-up
+    if name == "TrendLog":
+        from ..io.trend_log import TrendLog
+
+        return TrendLog
+    if name == "analyze_trend":
+        from .analysis import analyze_trend
+
+        return analyze_trend
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
