@@ -139,6 +139,8 @@ def test_headers_rms_spellings_and_the_waveform_refusal(tmp_path):
     log = read_trend(p)
     assert log.resolution_s == 1.0 and log.table["P_kW"].tolist() == [1.0, 2.0]
     with pytest.raises(CaptureReadError, match="RMS trend log"):
+        read_capture(p, format="trend")
+    with pytest.raises(CaptureReadError, match="trend log"):  # the CSV importer's refusal points to the trend analysis
         read_capture(p)
     bad = tmp_path / "bad.csv"
     bad.write_text("Time,Ia_rms,Ib_rms,Ic_rms\n2026-01-01T00:00:01Z,1,1,1\n2026-01-01T00:00:00Z,1,1,1\n")

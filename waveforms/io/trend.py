@@ -9,9 +9,10 @@ frequency.  `sniff_trend` recognises such a file by its header alone (a time
 column and three RMS currents or three RMS voltages), `read_trend` reads it
 into a `waveforms.io.trend_log.TrendLog`.
 
-A trend log holds no waveform samples: `read_capture` (the registry's reader
-for the ``trend`` format, `refuse_as_capture`) refuses it with a pointer to
-the trend analysis, which `analyze` and `batch` run on it by themselves.
+A trend log holds no waveform samples: `read_capture` refuses it (the CSV and
+Parquet importers refuse its RMS columns, and the registry's reader for the
+``trend`` format, `refuse_as_capture`, says it is a trend log), each time with a
+pointer to the trend analysis, which `analyze` and `batch` run on it by themselves.
 """
 
 from __future__ import annotations
