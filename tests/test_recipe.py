@@ -44,7 +44,8 @@ def test_shipped_recipes_load_and_match_top_level_pipelines_folder():
     for name in shipped:
         rec = load_recipe(name)
         assert rec.name == name
-        assert rec.stage_names[0] == "import"
+        # waveform recipes read a capture first; the trend recipe reads an RMS trend log first (docs/trends.md)
+        assert rec.stage_names[0] == ("trend_import" if name == "trend" else "import")
 
 
 def test_triage_skips_html_report_and_investigate_writes_it():
@@ -89,7 +90,7 @@ def test_recipe_errors_name_file_and_key(tmp_path, text, where, problem):
 
 
 def test_missing_recipe_name_lists_the_shipped_ones():
-    with pytest.raises(RecipeError, match=r"not a shipped recipe name \(\['investigate', 'triage'"):
+    with pytest.raises(RecipeError, match=r"not a shipped recipe name \(\['investigate', 'trend', 'triage'"):
         load_recipe("investgate")
 
 
@@ -120,9 +121,10 @@ def test_every_forwarded_parameter_exists_in_the_wrapped_library():
             continue
         mod, name = st.library.split(":")
         target = getattr(importlib.import_module(mod), name)
-        if st.name in ("speed", "detect", "thermal"):
+        if st.name in ("speed", "detect", "thermal", "trend_detect"):
             settings = {"speed": "waveforms.speed.estimator:SpeedSettings", "detect": "waveforms.detect:DetectParams",
-                        "thermal": "waveforms.motor.thermal:ThermalParams"}[st.name]
+                        "thermal": "waveforms.motor.thermal:ThermalParams",
+                        "trend_detect": "waveforms.detect:DetectParams"}[st.name]
             m2, n2 = settings.split(":")
             accepted = {f.name for f in dataclasses.fields(getattr(importlib.import_module(m2), n2))}
             accepted |= set(inspect.signature(target).parameters)

@@ -530,6 +530,14 @@ def run_recipe(
         importlib.import_module(mod)
     from .capture import Capture
 
+    if not isinstance(capture, Capture) and "import" in rec.stage_names:
+        from .io.trend import is_trend_log
+
+        if is_trend_log(os.fspath(capture)):  # an RMS trend log, recognised by its columns (docs/trends.md)
+            from .trends.stages import trend_recipe_for
+
+            rec = trend_recipe_for(rec)
+
     if isinstance(capture, Capture):
         state = RunState(source=capture.provenance.source_path or "<capture>", capture=capture)
     else:
@@ -872,6 +880,9 @@ def _register_builtin() -> None:
         name="report", description="per-capture outputs: result.json, events.csv, report.html (after detect), the cycle table",
         run=_stage_report, settings=(ReportSettings,), needs=("import",), library="waveforms.report:write_report",
     ))
+    from .trends.stages import register_trend_stages
+
+    register_trend_stages()  # the trend recipe's stages (docs/trends.md)
 
 
 _register_builtin()

@@ -98,7 +98,7 @@ def summary_row(state: Any, file: str, site: str, extra: Mapping[str, Any] | Non
     peak ``theta_motor_pct``.  NaN means "not computed", never zero.
     """
     row: dict[str, Any] = {c: None for c in SUMMARY_COLUMNS}
-    detected = "detect" in state.timings_s
+    detected = "detect" in state.timings_s or "trend_detect" in state.timings_s  # trend logs: waveforms.trends
     ev = events_frame(state.events)
     row.update(file=file, site=site, status="ok", error="", verdict_text=state.verdict,
                verdict=verdict_class(list(ev["kind"]) if detected else None))
@@ -205,8 +205,12 @@ def _csv_safe(frame: pd.DataFrame) -> pd.DataFrame:
     return out
 
 
-def write_summary(frame: pd.DataFrame, out_dir: str | os.PathLike[str], title: str = "Capture summary") -> dict[str, Path]:
-    """Write ``summary.csv``, ``summary.parquet`` and ``index.html`` into ``out_dir``, atomically."""
+def write_summary(frame: pd.DataFrame, out_dir: str | os.PathLike[str], title: str = "Capture summary",
+                  timelines: list[dict[str, Any]] | None = None) -> dict[str, Path]:
+    """Write ``summary.csv``, ``summary.parquet`` and ``index.html`` into ``out_dir``, atomically.
+
+    ``timelines``: per-site figures for the page (`waveforms.incidents.site_timelines`).
+    """
     out = Path(out_dir)
     paths = {"csv": out / "summary.csv", "parquet": out / "summary.parquet", "html": out / "index.html"}
     buf = io.StringIO()
@@ -214,12 +218,12 @@ def write_summary(frame: pd.DataFrame, out_dir: str | os.PathLike[str], title: s
     write_text(paths["csv"], buf.getvalue())
     with atomic_path(paths["parquet"]) as tmp:
         frame.to_parquet(tmp, index=False)
-    write_text(paths["html"], index_html(frame, title))
+    write_text(paths["html"], index_html(frame, title, timelines))
     return paths
 
 
-def index_html(frame: pd.DataFrame, title: str = "Capture summary") -> str:
+def index_html(frame: pd.DataFrame, title: str = "Capture summary", timelines: list[dict[str, Any]] | None = None) -> str:
     """The ``index.html`` page of the summary (built by `waveforms.batch.index_page.index_html`)."""
     from .batch.index_page import index_html as page  # here, not at the top: waveforms.batch imports this module
 
-    return page(frame, title)
+    return page(frame, title, timelines)

@@ -80,8 +80,11 @@ def _cell(rec: dict[str, Any], c: str) -> dict[str, Any]:
             "css": "n" if num else {"verdict": "v", "start": "t"}.get(c, "")}
 
 
-def index_html(frame: pd.DataFrame, title: str = "Capture summary") -> str:
-    """A self-contained HTML table of the summary: sortable columns, a verdict filter, links to reports."""
+def index_html(frame: pd.DataFrame, title: str = "Capture summary", timelines: list[dict[str, Any]] | None = None) -> str:
+    """A self-contained HTML table of the summary: sortable columns, a verdict filter, links to reports.
+
+    ``timelines``: per-site timeline figures (`waveforms.incidents.site_timelines`), drawn below the table.
+    """
     js, csp = _script()
     rows = [{"error": rec.get("status") == "error", "pending": rec.get("status") == "not analysed",
              "verdict": str(rec.get("verdict", "")),
@@ -91,4 +94,4 @@ def index_html(frame: pd.DataFrame, title: str = "Capture summary") -> str:
         title=title, csp=Markup(csp), script=Markup(js), n_rows=len(frame),
         n_errors=int((frame["status"] == "error").sum()) if len(frame) else 0,
         n_pending=int((frame["status"] == "not analysed").sum()) if len(frame) else 0,
-        verdicts=sorted({str(v) for v in frame["verdict"]}), headings=headings, rows=rows)
+        verdicts=sorted({str(v) for v in frame["verdict"]}), headings=headings, rows=rows, timelines=timelines or [])

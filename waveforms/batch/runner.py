@@ -50,7 +50,9 @@ class BatchResult:
         The signal that stopped it (2 SIGINT, 15 SIGTERM), 0 when not interrupted.
     out : Path or None
     files : dict
-        ``summary.csv``, ``summary.parquet``, ``index.html`` paths when written.
+        ``summary.csv``, ``summary.parquet``, ``index.html``, ``incidents_csv``, ``incidents_parquet`` paths when written.
+    incidents : DataFrame
+        Incidents across consecutive captures of each site (`waveforms.incidents`).
     """
 
     summary: pd.DataFrame
@@ -63,6 +65,8 @@ class BatchResult:
     n_pending: int = 0
     signal: int = 0
     files: dict[str, Path] = dataclasses.field(default_factory=dict)
+    #: incidents across consecutive captures of each site (`waveforms.incidents.INCIDENT_COLUMNS`)
+    incidents: pd.DataFrame | None = None
 
     @property
     def ok(self) -> bool:
@@ -110,6 +114,8 @@ def run(
     progress: bool = False,
     on_result: Callable[[dict[str, Any]], None] | None = None,
     fresh_workers: bool = True,
+    site_from: str | None = None,
+    gap_tolerance_s: float | None = None,
 ) -> BatchResult:
     """Run a recipe over an archive of captures.
 
@@ -141,6 +147,12 @@ def run(
         Local runs: a fresh worker process for every capture (nothing carries
         over from one capture to the next).  False reuses each worker for many
         captures: faster (no fork per capture), less isolated.
+    site_from : str, optional
+        Regular expression on the file name giving the site for the incidents
+        across files (group ``site``, else group 1); default the capture's folder site.
+    gap_tolerance_s : float, optional
+        Longest gap between consecutive files of a site across which an incident
+        continues [s]; default `waveforms.incidents.DEFAULT_GAP_TOLERANCE_S`.
 
     Returns
     -------
@@ -153,6 +165,9 @@ def run(
     if n_jobs < 0:
         raise InvalidParameterError(f"jobs={n_jobs} must be 0 (one per core) or more")
     n_jobs = n_jobs or (os.cpu_count() or 1)
+    from ..incidents.captures import compile_site_pattern
+
+    compile_site_pattern(site_from)  # a bad pattern fails before any capture runs
     sched = rec.batch.get("scheduler", "") if scheduler is None else scheduler
 
     if out_path is not None:
@@ -226,9 +241,14 @@ def run(
         summary = summary_frame(rows)
         events = pd.concat(ev_frames, ignore_index=True) if ev_frames else _empty_events()
         written: dict[str, Path] = {}
+        incidents = _incidents(summary, events, site_from, gap_tolerance_s)  # post-run step (waveforms.incidents)
         if out_path is not None:
             try:
-                written = write_summary(summary, out_path, title=f"Capture summary: recipe {rec.name}")
+                from ..incidents import site_timelines, write_incidents
+
+                written = write_summary(summary, out_path, title=f"Capture summary: recipe {rec.name}",
+                                        timelines=site_timelines(summary, incidents, site_from))
+                written.update(write_incidents(incidents, out_path))
                 index = {"format": "motor-waveforms batch manifest", "recipe": rec.name, "recipe_fingerprint": fp,
                          "recipe_source": rec.source, "complete": not interrupted,
                          "captures": [{"file": t.input.name, "path": t.input.path, "key": k, "done": k in entries}
@@ -243,7 +263,7 @@ def run(
         n_pending = int((summary["status"] == PENDING_STATUS).sum()) if len(summary) else 0
         return BatchResult(summary=summary, events=events, n_done=len(new), n_skipped=n_skipped, n_failed=n_failed,
                            interrupted=interrupted, out=out_path, files=written, n_pending=n_pending,
-                           signal=int(stop_signal))
+                           signal=int(stop_signal), incidents=incidents)
 
 
 #: ``status`` of a capture the run did not reach (stopped first).
@@ -301,6 +321,15 @@ def _clear_staging(out: Path) -> None:
     if folder.is_dir():
         for p in folder.glob(f"{STAGING_PREFIX}*"):
             shutil.rmtree(p, ignore_errors=True)
+
+
+def _incidents(summary: pd.DataFrame, events: pd.DataFrame, site_from: str | None,
+               gap_tolerance_s: float | None) -> pd.DataFrame:
+    """The incidents across consecutive captures of each site (`waveforms.incidents.build_incidents`)."""
+    from ..incidents import DEFAULT_GAP_TOLERANCE_S, build_incidents
+
+    gap = DEFAULT_GAP_TOLERANCE_S if gap_tolerance_s is None else gap_tolerance_s
+    return build_incidents(summary, events, site_from=site_from, gap_tolerance_s=gap)
 
 
 def _plan(files: Sequence[InputFile], rec: Recipe, mmap: MotorMap, out_path: Path | None,

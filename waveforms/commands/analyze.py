@@ -116,8 +116,14 @@ def command(capture: str, motor: str | None, out_dir: str, recipe_name: str, no_
         rec = _set(rec, "hookup", {"as_recorded": True}, "--as-recorded")
     fmt, options = _reading(rec, fmt, options)
     from ..io.csv_stream import open_capture
+    from ..io.trend import is_trend_log
 
-    cap = open_capture(capture, fmt, options)  # a large CSV is streamed, not held in memory
+    if fmt is None and is_trend_log(capture):  # an RMS trend log: run_recipe switches to the trend recipe (docs/trends.md)
+        if options.nominal_voltage_v is not None and "import" in rec.stage_names:
+            rec = _set(rec, "import", {"nominal_voltage_v": options.nominal_voltage_v}, "--nominal-voltage")
+        cap = capture
+    else:
+        cap = open_capture(capture, fmt, options)  # a large CSV is streamed, not held in memory
     plate = load_nameplate(motor) if motor else None
     state = run_recipe(rec, cap, nameplate=plate, out_dir=out, nameplate_source=motor or "",
                        threads=threads or default_threads())

@@ -26,11 +26,16 @@ from ..terminal import terminal_text
 @click.option("--retry-errors", is_flag=True, help="Rerun captures that failed last time.")
 @click.option("--reuse-workers", is_flag=True,
               help="Reuse each worker process for many captures (faster; by default every capture gets a fresh process).")
+@click.option("--site-from", "site_from", default=None, metavar="REGEX",
+              help="Regular expression on the file name giving the site for incidents across files "
+                   "(group 'site', else group 1) [the capture's folder].")
+@click.option("--gap-tolerance", "gap_tolerance_s", type=click.FloatRange(min=0), default=None, metavar="SECONDS",
+              help="Longest gap between consecutive files across which an incident continues [60].")
 @click.option("--dry-run", is_flag=True, help="List what would be run or skipped, and stop (nothing is written).")
 @click.option("--quiet", "-q", is_flag=True, help="No progress bar.")
 def command(inputs: tuple[str, ...], out: str, recipe: str | None, jobs: int | None, motor: str | None,
             motors: str | None, scheduler: str | None, force: bool, retry_errors: bool, reuse_workers: bool,
-            dry_run: bool, quiet: bool) -> None:
+            site_from: str | None, gap_tolerance_s: float | None, dry_run: bool, quiet: bool) -> None:
     """Analyse every capture in INPUTS (files, folders, globs, fsspec URLs) with one recipe.
 
     Each capture runs in its own worker process (or on a Dask cluster with
@@ -57,7 +62,8 @@ def command(inputs: tuple[str, ...], out: str, recipe: str | None, jobs: int | N
         return
     try:
         res = run(list(inputs), recipe=recipe, out=out, jobs=jobs, motor=motor, motors=motors, force=force,
-                  retry_errors=retry_errors, scheduler=scheduler, progress=not quiet, fresh_workers=not reuse_workers)
+                  retry_errors=retry_errors, scheduler=scheduler, progress=not quiet, fresh_workers=not reuse_workers,
+                  site_from=site_from, gap_tolerance_s=gap_tolerance_s)
     except KeyboardInterrupt as e:  # before any capture was dispatched (while hashing the inputs)
         click.echo("interrupted before any capture started; nothing was lost", err=True)
         sys.exit(128 + getattr(e, "signum", signal.SIGINT))
@@ -74,6 +80,8 @@ def command(inputs: tuple[str, ...], out: str, recipe: str | None, jobs: int | N
         click.echo(f"  ... and {len(bad) - 20} more (see summary.csv)")
     if res.files:
         click.echo(f"summary: {res.files['csv']}  {res.files['parquet']}  {res.files['html']}")
+    if res.incidents is not None and len(res.incidents):
+        click.echo(f"incidents across files: {len(res.incidents)} ({res.files.get('incidents_csv', '')})")
     if res.interrupted:
         name = signal.Signals(res.signal or signal.SIGINT).name
         click.echo(f"interrupted ({name}): rerun the same command to resume", err=True)

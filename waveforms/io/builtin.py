@@ -44,3 +44,12 @@ register(Importer(
     extensions=(".h5", ".hdf5", ".hdf", ".mat"), sniff=_M + "hdf5_matrix:sniff_hdf5_matrix", read=_M + "hdf5_matrix:read_hdf5_matrix",
     priority=60, magic=HDF5_MAGIC,
 ))
+register(Importer(
+    name="trend",
+    description="RMS trend log (CSV or Parquet): a time column and per-phase RMS columns; analysed by the trend recipe, "
+                "not read as a waveform capture (docs/trends.md)",
+    extensions=(".csv", ".txt", ".tsv", ".parquet", ".pq"), sniff=_M + "trend:sniff_trend", read=_M + "trend:refuse_as_capture",
+    # lowest: the CSV and Parquet importers keep their files (and their own errors); a trend log reaching them is
+    # refused there with a pointer to the trend analysis, which `analyze` / `batch` pick by `io.trend.is_trend_log`
+    priority=0, extensions_only=True,
+))

@@ -237,8 +237,63 @@ def _derived(name: str) -> str | None:
         hit = g.group(0).lstrip("VUI")
     if hit is None:
         return None
-    return (f"looks like a derived value ({hit.lower()}), not an instantaneous waveform sample; export the sampled "
+    trend = ("; a file of per-phase RMS values is an RMS trend log, read by the trend analysis "
+             "(`analyze` and `batch` recognise one by its columns, docs/trends.md)") if hit in ("RMS", "TRMS") else ""
+    return (f"looks like a derived value ({hit.lower()}), not an instantaneous waveform sample{trend}; export the sampled "
             "waveform, or add ignore = [{header!r}] to the mapping (--ignore {header!r})")
+
+
+# -- RMS trend columns ------------------------------------------------------------------
+#: RMS spellings of trend logs, each with the label it gives (the trend importer accepts exactly what
+#: `refusal` turns away from a waveform capture as an RMS value).  Common practice, no source.
+RMS_EXAMPLES: tuple[tuple[str, str], ...] = (
+    ("Va_rms", "Va"), ("Va RMS", "Va"), ("V1 RMS", "Va"), ("Vrms L2", "Vb"), ("U3 rms [V]", "Vc"), ("VL1N_RMS", "Va"),
+    ("Vab_rms", "Vab"), ("U12 RMS", "Vab"), ("Ia_rms", "Ia"), ("Irms L1", "Ia"), ("Irms2", "Ib"), ("IL3 TRMS (A)", "Ic"),
+    ("Current L2 RMS", "Ib"), ("In_rms", "In"),
+)
+_RMS_TOKEN = re.compile(r"^(?:T?RMS)$")
+_RMS_LEAD = re.compile(r"^([VUI])T?RMS(?=.)")
+_RMS_TAIL = re.compile(r"(?<=.)T?RMS$")
+
+
+def rms_base_name(name: str) -> str | None:
+    """The channel name inside an RMS spelling (``"Irms L1"`` -> ``"I L1"``), None when no RMS mark is in it.
+
+    Examples
+    --------
+    >>> rms_base_name("Va_rms"), rms_base_name("Irms2"), rms_base_name("Va")
+    ('VA', 'I2', None)
+    """
+    toks = _tokens(name)
+    out, marked = [], False
+    for t in toks:
+        if _RMS_TOKEN.match(t):
+            marked = True
+            continue
+        t2 = _RMS_TAIL.sub("", _RMS_LEAD.sub(r"\1", t))
+        marked = marked or t2 != t
+        out.append(t2)
+    return " ".join(out) if marked and out else None
+
+
+def recognise_rms(header: str) -> Recognised | None:
+    """The channel an RMS trend column gives (``Va_rms``, ``V1 RMS``, ``Irms L1``, ``Ia [Arms]``), else None.
+
+    The name less its RMS mark must be a channel of `SPELLINGS` and carry no
+    other derived mark (``Va_rms_max`` is not an RMS value).  A plain channel name
+    whose unit says RMS (``Ia [Arms]``, ``Va (Vrms)``) counts too.
+    """
+    name, unit = split_unit(header)
+    base = rms_base_name(name)
+    if base is None:
+        if unit is None or "RMS" not in unit.upper():
+            return None
+        base = name
+    if _derived(base) is not None:
+        return None
+    unit_txt = None if unit is None else re.sub(r"(?i)t?rms", "", unit) or None
+    out = match(base if unit_txt is None else f"{base} [{unit_txt}]")
+    return out if isinstance(out, Recognised) else None
 
 
 def match(header: str) -> Recognised | str | None:
