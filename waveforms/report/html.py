@@ -1,6 +1,6 @@
 """``report.html``: one self-contained page (figures embedded as data: PNG, no scripts).
 
-Rendered with jinja2 with autoescaping on, so every string that comes from
+Rendered with jinja2 from ``templates/capture_report.html.j2`` with autoescaping on, so every string that comes from
 the capture (file name, channel headers, metadata, nameplate name) is escaped;
 a Content-Security-Policy that allows no script and no outside resource makes
 the page inert even if something slipped through.
@@ -9,148 +9,18 @@ the page inert even if something slipped through.
 from __future__ import annotations
 
 import json
+from pathlib import Path
 from typing import Any
 
 import jinja2
 
 from ..analysis import AnalysisResult
 
-TEMPLATE = r"""<!DOCTYPE html>
-<html lang="en">
-<head>
-<meta charset="utf-8">
-<meta http-equiv="Content-Security-Policy" content="default-src 'none'; img-src data:; style-src 'unsafe-inline'">
-<meta name="viewport" content="width=device-width, initial-scale=1">
-<title>Motor capture analysis: {{ file_name }}</title>
-<style>
- body { font-family: "DejaVu Sans", Arial, sans-serif; color: #1d1d1d; margin: 0; background: #f4f4f1; }
- main { max-width: 1020px; margin: 0 auto; padding: 18px 26px 40px; background: #ffffff; }
- header { border-bottom: 3px solid #0072B2; padding-bottom: 8px; margin-bottom: 10px; }
- h1 { font-size: 21px; margin: 4px 0; font-weight: 600; }
- h2 { font-size: 16px; margin: 26px 0 6px; color: #0b3d5c; border-bottom: 1px solid #d9d9d9; padding-bottom: 3px; }
- .meta { font-size: 12.5px; color: #444; }
- .verdict { font-size: 15px; line-height: 1.5; background: #fbf7e9; border-left: 5px solid #E69F00; padding: 10px 14px; }
- .lead { font-size: 12px; color: #555; margin: 2px 0 6px; }
- img { max-width: 100%; display: block; margin: 4px 0; }
- table { border-collapse: collapse; font-size: 12px; width: 100%; }
- th, td { border: 1px solid #d4d4d4; padding: 3px 6px; text-align: left; vertical-align: top; }
- th { background: #eef3f7; }
- td.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
- .sev-warning { color: #a34400; font-weight: 600; }
- .caution { background: #fdeeee; border: 1px solid #e2b4b4; padding: 8px 14px; font-size: 13px; }
- code, pre { font-size: 11px; background: #f3f3f3; }
- pre { padding: 6px; overflow-x: auto; white-space: pre-wrap; }
- ul { margin: 4px 0; }
- #quality li { font-size: 13px; }
-</style>
-</head>
-<body><main>
-<header>
- <h1>Motor capture analysis</h1>
- <div class="meta">File <b>{{ file_name }}</b> &middot; start {{ start_time }} &middot; {{ duration }} &middot;
- {{ rate }} &middot; {{ channels }}{% if plate_name %} &middot; motor <b>{{ plate_name }}</b>{% endif %}</div>
-</header>
+#: The page's template, in ``waveforms/report/templates/`` beside the archive index's.
+TEMPLATE = "capture_report.html.j2"
+TEMPLATES = Path(__file__).resolve().parent / "templates"
 
-<section id="verdict"><h2>Verdict</h2>
- <p class="verdict">{{ verdict }}</p>
- <p class="lead">Findings from recorded waveforms only; to be confirmed by qualified people (see the cautions at the end).</p>
-</section>
-
-{% if hookup %}<section id="hookup"><h2>Logger hook-up</h2>
- <p class="lead">{% if hookup.as_recorded %}Analysed exactly as recorded (as_recorded): nothing was corrected.{% elif hookup.corrected %}Corrected before the analysis: {{ hookup.correction }}.{% else %}Nothing corrected.{% endif %}</p>
- <table><thead><tr><th>check</th><th>finding</th><th>channels</th><th>confidence</th><th>action</th></tr></thead>
- <tbody>{% for f in hookup.findings %}<tr><td>{{ f.check }}</td><td>{{ f.what }}</td><td>{{ f.channels|join(", ") }}</td><td>{{ f.confidence }}</td><td>{{ f.action }}</td></tr>{% endfor %}</tbody></table>
- <details><summary>Evidence</summary>{% for f in hookup.findings %}<p><b>{{ f.check }}</b></p><pre>{{ f.evidence_json }}</pre>{% endfor %}</details>
- {% if fig.hookup %}<img src="{{ fig.hookup }}" alt="phasors as recorded and as corrected">{% endif %}
-</section>
-{% endif %}
-<section id="timeline"><h2>Timeline</h2>
- <p class="lead">Motor state per cycle: three-phase, single-phased, stalled, de-energised; events beneath.</p>
- <img alt="timeline of motor states and events" src="{{ fig.timeline }}">
-</section>
-
-<section id="currents"><h2>Line currents against FLA</h2>
- <img alt="per-line RMS current against full-load current" src="{{ fig.currents }}">
-</section>
-
-<section id="sequence"><h2>Unbalance: I2/I1 and V2/V1</h2>
- <img alt="negative to positive sequence ratios" src="{{ fig.sequence }}">
-</section>
-
-<section id="speed"><h2>Speed track</h2>
- <p class="lead">Rotor speed from the current spectrum (no tachometer). Windows without an estimate are marked with the reason; no number is made up.</p>
- <img alt="rotor speed track" src="{{ fig.speed }}">
-</section>
-
-<section id="phasors"><h2>Phasors before and after the onset</h2>
- <p class="lead">{{ fig.phasors_caption }}</p>
- <img alt="phasor diagrams" src="{{ fig.phasors }}">
-</section>
-
-<section id="spectrum"><h2>Current spectrum with slip components</h2>
- {% if fig.spectrum %}<p class="lead">{{ fig.spectrum_caption }}</p>
- <img alt="current spectrum with the slip components marked" src="{{ fig.spectrum }}">
- {% else %}<p class="lead">Not available: {{ fig.spectrum_caption }}.</p>{% endif %}
-</section>
-
-<section id="events"><h2>Events</h2>
- {% if events %}
- <table><thead><tr><th>#</th><th>kind</th><th>line</th><th>start [s]</th><th>start time</th><th>end [s]</th><th>duration [s]</th><th>what was found</th></tr></thead>
- <tbody>{% for e in events %}
- <tr><td class="num">{{ loop.index }}</td><td>{{ e.kind }}</td><td>{{ e.phase or "" }}</td><td class="num">{{ e.start }}</td>
- <td>{{ e.start_time }}</td><td class="num">{{ e.end }}</td><td class="num">{{ e.duration }}</td><td>{{ e.summary }}</td></tr>
- {% endfor %}</tbody></table>
- <details><summary>Supporting figures</summary>{% for e in events %}<p><b>#{{ loop.index }} {{ e.kind }}</b></p><pre>{{ e.figures }}</pre>{% endfor %}</details>
- {% else %}<p>No events found.</p>{% endif %}
-</section>
-
-{% if supply %}<section id="supply-voltage"><h2>Supply and terminal voltage</h2>
- <p>Declared voltage ({{ supply.source }}): {{ supply.basis }}.</p>
- {% if supply.terminal %}<p>The {{ supply.terminal }}.</p>{% endif %}
-</section>{% endif %}
-
-<section id="thermal"><h2>Thermal stress</h2>
- {% if thermal %}
- <img alt="thermal capacity used" src="{{ fig.thermal }}">
- <table><tbody>
- <tr><th>time above FLA</th><td class="num">{{ thermal.above_fla }}</td><th>time above service-factor current</th><td class="num">{{ thermal.above_sf }}</td></tr>
- <tr><th>thermal capacity used (max)</th><td class="num">{{ thermal.used }}</td><th>negative-sequence weight K</th><td class="num">{{ thermal.k }}</td></tr>
- </tbody></table>
- <p>Initial state: {{ thermal.initial }}</p>
- <table><thead><tr><th>overload relay (IEC 60947-4-1 class)</th><th>model time constant [s]</th><th>trip at 7.2 x setting, cold [s]</th><th>would have tripped at</th><th>projected past the capture</th></tr></thead>
- <tbody>{% for r in thermal.relays %}<tr><td>class {{ r.cls }}</td><td class="num">{{ r.tau }}</td><td class="num">{{ r.t72 }}</td><td>{{ r.trip }}</td><td>{{ r.projected }}</td></tr>{% endfor %}</tbody></table>
- <p>Projection: {{ thermal.projection }}</p>
- <table><thead><tr><th>assumption varied</th><th>value</th><th>motor capacity used (max)</th><th>motor model at 100 % / relay trip</th></tr></thead>
- <tbody>{% for r in thermal.sensitivity %}<tr><td>{{ r.parameter }}</td><td class="num">{{ r.value }}</td><td class="num">{{ r.used }}</td><td>{{ r.when }}</td></tr>{% endfor %}</tbody></table>
- <p class="lead">Single time-constant model (IEC 60255-149 thermal equation), heating current I_eq&sup2; = I1&sup2; + K I2&sup2; while running (K a rule of thumb), I1&sup2; + I2&sup2; at standstill, where the rotor sees both sequences at supply frequency. Relay models are tuned inside the IEC 60947-4-1 class bands; a real relay's curve differs.</p>
- {% else %}<p>Not assessed (no nameplate or no line currents).</p>{% endif %}
-</section>
-
-<section id="quality"><h2>Data quality</h2>
- {% if quality %}<ul>{% for q in quality %}<li><span class="sev-{{ q.severity }}">{{ q.severity }}</span>: {{ q.message }}</li>{% endfor %}</ul>
- {% else %}<p>No data-quality findings.</p>{% endif %}
- {% if notes %}<p class="lead">Assumptions and limits of this analysis:</p><ul>{% for n in notes %}<li>{{ n }}</li>{% endfor %}</ul>{% endif %}
-</section>
-
-<section id="provenance"><h2>Provenance</h2>
- <table><tbody>
- <tr><th>file</th><td>{{ prov.file }}</td></tr>
- <tr><th>SHA-256</th><td><code>{{ prov.sha256 }}</code></td></tr>
- <tr><th>importer</th><td>{{ prov.importer }}</td></tr>
- <tr><th>channels (file header &rarr; label)</th><td>{{ prov.mapping }}</td></tr>
- <tr><th>processing history</th><td>{{ prov.history }}</td></tr>
- <tr><th>software</th><td>{{ prov.versions }}</td></tr>
- <tr><th>parameters (digest {{ prov.digest }})</th><td><details><summary>show all parameters</summary><pre>{{ prov.parameters }}</pre></details></td></tr>
- </tbody></table>
-</section>
-
-<section id="cautions"><h2>Safety cautions</h2>
- <div class="caution"><ul>{% for c in cautions %}<li>{{ c }}</li>{% endfor %}</ul></div>
-</section>
-</main></body></html>
-"""
-
-_ENV = jinja2.Environment(autoescape=True, undefined=jinja2.StrictUndefined)
+_ENV = jinja2.Environment(loader=jinja2.FileSystemLoader(TEMPLATES), autoescape=True, undefined=jinja2.StrictUndefined)
 
 
 def _fmt(x: Any, nd: int = 4) -> str:
@@ -225,4 +95,4 @@ def render(res: AnalysisResult, doc: dict[str, Any], figures: dict[str, str | No
             "parameters": json.dumps(prov["parameters"], indent=1, ensure_ascii=False),
         },
     }
-    return _ENV.from_string(TEMPLATE).render(**ctx)
+    return _ENV.get_template(TEMPLATE).render(**ctx)
