@@ -45,6 +45,21 @@ def cycle_phasors(x, sample_rate_hz: float, f1_hz: float, window_cycles: int = 1
     t_s : ndarray (n_windows,)
         Window centres [s].
     phasors : ndarray (n_rows, n_windows), complex
+
+    Examples
+    --------
+    Two seconds of a balanced 230 V A-B-C set at 50 Hz, 2 kS/s: ten-cycle
+    windows give RMS phasors 120 degrees apart:
+
+    >>> import numpy as np
+    >>> fs = 2000.0
+    >>> t = np.arange(4000) / fs
+    >>> v = 230 * np.sqrt(2) * np.cos(2 * np.pi * (50 * t - np.arange(3)[:, None] / 3))
+    >>> i = 10 * np.sqrt(2) * np.cos(2 * np.pi * (50 * t - np.arange(3)[:, None] / 3) - 0.5)
+
+    >>> t_s, ph = cycle_phasors(v, fs, 50.0)
+    >>> print(t_s[:3], np.abs(ph[:, 0]).round(3), np.angle(ph[:, 0], deg=True).round(1) + 0.0)
+    [0.1 0.3 0.5] [230. 230. 230.] [   0. -120.  120.]
     """
     x = np.atleast_2d(np.asarray(x, dtype=float))
     if not (f1_hz > 0 and sample_rate_hz > 2 * f1_hz):
@@ -101,6 +116,15 @@ def rotation_direction(
         ("three_phase", "regenerated_voltage", "single_phased_voltage_unverified",
         "supply_side_voltage", "single_phased_no_voltage", "inconsistent",
         "no_current", ""), ``rotation`` ("forward", "reverse" or "").
+
+    Examples
+    --------
+    Positive sequence dominant in both voltages and currents (Fortescue 1918):
+    the field, and the rotor with it, turns A-B-C, forward:
+
+    >>> print(rotation_direction(v1=[230.0], v2=[1.0], i1=[10.0], i2=[0.5]).to_string())
+      v_sequence i_sequence        basis rotation
+    0        ABC        ABC  three_phase  forward
     """
     return pd.DataFrame(_rotation_arrays(v1, v2, i1, i2, i_line_a, margin=margin, open_frac=open_frac,
                                          min_current_a=min_current_a, min_voltage_v=min_voltage_v, open_point=open_point))
@@ -190,6 +214,15 @@ def direction_from_cycles(cycles: pd.DataFrame, **options) -> pd.DataFrame:
 
     Missing columns are simply not used (see docs/columns.md); ``options`` go
     to `rotation_direction` (``open_point=``, ``min_current_a=`` ...).
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> cyc = pd.DataFrame({"t_s": [0.01, 0.03, 0.05], "V1": [230.0] * 3, "V2": [0.5] * 3, "I1": [10.0] * 3,
+    ...                     "I2": [0.2] * 3, "Ia_mag": [10.0] * 3, "Ib_mag": [10.0] * 3, "Ic_mag": [10.0] * 3})
+
+    >>> print(direction_from_cycles(cyc)[["v_sequence", "basis", "rotation"]].iloc[0].tolist())
+    ['ABC', 'three_phase', 'forward']
     """
     a = _cycle_arrays(cycles, **options)
     return pd.DataFrame({k: a[k] for k in ("t_s", "v_sequence", "i_sequence", "basis", "rotation")})
@@ -203,6 +236,21 @@ def direction_from_waveforms(
     Phasors from `cycle_phasors`, sequence components from Fortescue (via
     `waveforms.measure.sequence.sequence_components`); ``options`` go to
     `rotation_direction`.
+
+    Examples
+    --------
+    The same waveforms with B and C swapped are an A-C-B set, which turns the
+    other way:
+
+    >>> import numpy as np
+    >>> fs = 2000.0
+    >>> t = np.arange(4000) / fs
+    >>> v = 230 * np.sqrt(2) * np.cos(2 * np.pi * (50 * t - np.arange(3)[:, None] / 3))
+    >>> i = 10 * np.sqrt(2) * np.cos(2 * np.pi * (50 * t - np.arange(3)[:, None] / 3) - 0.5)
+
+    >>> print(direction_from_waveforms(v, i, sample_rate_hz=fs, f1_hz=50.0)["rotation"].iloc[0],
+    ...       direction_from_waveforms(v[[0, 2, 1]], i[[0, 2, 1]], sample_rate_hz=fs, f1_hz=50.0)["rotation"].iloc[0])
+    forward reverse
     """
     if v_abc is None and i_abc is None:
         raise InvalidParameterError("give voltages, currents or both")
@@ -249,6 +297,17 @@ def supply_sequence(rot: pd.DataFrame) -> tuple[str, str]:
     Returns ``(sequence, how)``: the voltages' majority sequence over rows with
     basis ``three_phase`` (else the currents'), ``how`` = ``"measured"``; with no
     such row, ``("ABC", "assumed")`` -- the terminals' A-B-C as labelled.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> fs = 2000.0
+    >>> t = np.arange(4000) / fs
+    >>> v = 230 * np.sqrt(2) * np.cos(2 * np.pi * (50 * t - np.arange(3)[:, None] / 3))
+    >>> i = 10 * np.sqrt(2) * np.cos(2 * np.pi * (50 * t - np.arange(3)[:, None] / 3) - 0.5)
+
+    >>> supply_sequence(direction_from_waveforms(v[[0, 2, 1]], sample_rate_hz=fs, f1_hz=50.0))
+    ('ACB', 'measured')
     """
     three = np.asarray(rot["basis"], dtype=object) == "three_phase"
     for col in ("v_sequence", "i_sequence"):
@@ -280,6 +339,16 @@ def cycle_direction(cycles: pd.DataFrame, open_point=None, supply: str | None = 
         Columns ``t_s``, ``rotor_sequence`` ("ABC", "ACB", ""), ``direction``
         (`DIRECTIONS`), ``direction_basis`` (`DIRECTION_BASES`); the supply
         sequence used and how it was found (``"measured"``, ``"assumed"``, ``"given"``).
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> cyc = pd.DataFrame({"t_s": [0.01, 0.03, 0.05], "V1": [230.0] * 3, "V2": [0.5] * 3, "I1": [10.0] * 3,
+    ...                     "I2": [0.2] * 3, "Ia_mag": [10.0] * 3, "Ib_mag": [10.0] * 3, "Ic_mag": [10.0] * 3})
+
+    >>> per_cycle, supply, how = cycle_direction(cyc)
+    >>> print(per_cycle["direction"].tolist(), supply, how)
+    ['forward', 'forward', 'forward'] ABC measured
     """
     if supply is not None and supply not in ("ABC", "ACB"):
         raise InvalidParameterError(f"supply={supply!r} must be 'ABC', 'ACB' or None")
@@ -325,6 +394,17 @@ def interval_direction(per_cycle: pd.DataFrame, t0_s, t1_s, min_share: float = 0
     they are at least ``min_share`` of its cycles carrying current; forward and
     reverse cycles together give ``unknown`` / ``changed_within_window``; otherwise
     ``unknown`` with the most frequent reason among its cycles (our rule, no source).
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> cyc = pd.DataFrame({"t_s": [0.01, 0.03, 0.05], "V1": [230.0] * 3, "V2": [0.5] * 3, "I1": [10.0] * 3,
+    ...                     "I2": [0.2] * 3, "Ia_mag": [10.0] * 3, "Ib_mag": [10.0] * 3, "Ic_mag": [10.0] * 3})
+
+    >>> per_cycle, supply, how = cycle_direction(cyc)
+    >>> d, basis = interval_direction(per_cycle, [0.0], [0.06])
+    >>> print(d.tolist(), basis.tolist())
+    ['forward'] ['three_phase_sequence']
     """
     t0 = np.atleast_1d(np.asarray(t0_s, dtype=float))
     t1 = np.atleast_1d(np.asarray(t1_s, dtype=float))
@@ -383,6 +463,15 @@ def sideband_direction(fundamental_side_db, component_side_db, supply: str, marg
     -------
     ndarray of str
         `DIRECTIONS` relative to ``supply``.
+
+    Examples
+    --------
+    Fundamental and speed component both on the positive-frequency side: an
+    A-B-C field; both on the negative side: A-C-B; a symmetric spectrum (one
+    real current, single phasing) tells nothing:
+
+    >>> sideband_direction([20.0, -20.0, 0.0], [15.0, -15.0, 0.0], "ABC").tolist()
+    ['forward', 'reverse', 'unknown']
     """
     fs_ = np.asarray(fundamental_side_db, dtype=float)
     cs_ = np.asarray(component_side_db, dtype=float)
@@ -400,6 +489,18 @@ def orient_track(track: pd.DataFrame, per_cycle: pd.DataFrame, supply: str) -> p
     ``rpm`` and ``f_rotor_hz`` become negative for ``reverse``; ``slip`` is
     unchanged: it is relative to the rotor's own running direction (the
     field it follows), ``s = 1 - |n| / n_s``.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> cyc = pd.DataFrame({"t_s": [0.01, 0.03, 0.05], "V1": [230.0] * 3, "V2": [0.5] * 3, "I1": [10.0] * 3,
+    ...                     "I2": [0.2] * 3, "Ia_mag": [10.0] * 3, "Ib_mag": [10.0] * 3, "Ic_mag": [10.0] * 3})
+
+    >>> per_cycle, supply, how = cycle_direction(cyc)
+    >>> track = pd.DataFrame({"t_start_s": [0.0], "t_end_s": [0.06], "rpm": [1470.0], "f_rotor_hz": [24.5], "slip": [0.02]})
+    >>> out = orient_track(track, per_cycle, supply)
+    >>> print(float(out["rpm"].iloc[0]), out["direction"].iloc[0])
+    1470.0 forward
     """
     out = track.copy()
     if len(out) == 0:
