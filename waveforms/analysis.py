@@ -580,6 +580,27 @@ def open_points_per_cycle(t_s: np.ndarray, events: list[Event], cycle_s: float =
     return out
 
 
+def window_states(speed: pd.DataFrame, timeline: pd.DataFrame) -> pd.DataFrame:
+    """The speed track with a ``state`` column: the timeline state the window lies wholly inside, else "".
+
+    A window that straddles a change of state (running, then stalled) mixes two
+    speeds; it belongs to neither state and is not used for either (issue 18).
+    """
+    out = speed.copy()
+    st = np.full(len(out), "", dtype=object)
+    if len(out) and len(timeline) and "t_start_s" in out and "t_end_s" in out:
+        a, b = out["t_start_s"].to_numpy(float), out["t_end_s"].to_numpy(float)
+        tol = 1.0 / 120.0  # the timeline's periods start and end on cycle boundaries: half a 60 Hz cycle of slack
+        n = len(timeline)
+        for k, r in enumerate(timeline.itertuples(index=False)):
+            lo = -np.inf if k == 0 else float(r.start_s) - tol  # the first and last periods reach the capture's ends
+            hi = np.inf if k == n - 1 else float(r.end_s) + tol
+            inside = (a >= lo) & (b <= hi)
+            st[inside & (st == "")] = r.state
+    out["state"] = st
+    return out
+
+
 def orient_rotation(
     cycles: pd.DataFrame, speed: pd.DataFrame | None, events: list[Event], timeline: pd.DataFrame,
 ) -> tuple[pd.DataFrame | None, pd.DataFrame, list[str]]:
@@ -622,6 +643,7 @@ def orient_rotation(
         tl["direction_basis"] = pd.Series(dtype=object)
     if speed is not None:
         speed = orient_track(speed, per, sup)
+        speed = window_states(speed, tl)
         rev = speed[(speed["direction"] == "reverse")]
         if len(rev):
             notes.append(f"direction: {len(rev)} speed window(s) running in reverse ({DIRECTION_BASES[str(rev['direction_basis'].iloc[0])]})")

@@ -81,6 +81,15 @@ def current_gate_a(cycles: pd.DataFrame, fla_a: float | None) -> tuple[float, st
                                                      "largest I1 (no nameplate)")
 
 
+def _blank(frame: pd.DataFrame, columns: tuple[str, ...], mask: np.ndarray) -> None:
+    """Set ``columns`` (those present) of ``frame`` to NaN where ``mask`` (in place, one array per column)."""
+    for c in columns:
+        if c in frame:
+            arr = frame[c].to_numpy(float, copy=True)
+            arr[mask] = np.nan
+            frame[c] = arr
+
+
 def gate_cycles(cycles: pd.DataFrame, declared_ll_v: float | None = None,
                 fla_a: float | None = None) -> tuple[pd.DataFrame, list[str]]:
     """The cycle table with ratio columns absent (NaN) below the level gates, and a ``level_gate`` reason column.
@@ -119,9 +128,7 @@ def gate_cycles(cycles: pd.DataFrame, declared_ll_v: float | None = None,
         low = ~(mag >= gate)  # NaN magnitude counts as below the gate
         if not low.any():
             continue
-        for c in (*cols, *POWER_RATIO_COLUMNS):
-            if c in out:
-                out.loc[low, c] = np.nan
+        _blank(out, (*cols, *POWER_RATIO_COLUMNS), low)
         reason[low] = np.where(reason[low] == "", why, reason[low] + "; " + why)
         notes.append(f"level gate: {kind} ratio and unbalance columns absent in {int(low.sum())} of {n} cycles "
                      f"({why}, gate {gate:.3g} {'V' if kind == 'voltage' else 'A'})")
@@ -131,9 +138,7 @@ def gate_cycles(cycles: pd.DataFrame, declared_ll_v: float | None = None,
         loose = ~np.isfinite(out["frequency_hz"].to_numpy(float))
         if loose.any():
             why = "frequency not tracked (fundamental outside the tracked band, or a partial cycle)"
-            for c in (*VOLTAGE_RATIO_COLUMNS, *CURRENT_RATIO_COLUMNS, *POWER_RATIO_COLUMNS):
-                if c in out:
-                    out.loc[loose, c] = np.nan
+            _blank(out, (*VOLTAGE_RATIO_COLUMNS, *CURRENT_RATIO_COLUMNS, *POWER_RATIO_COLUMNS), loose)
             reason[loose] = np.where(reason[loose] == "", why, reason[loose] + "; " + why)
     out["level_gate"] = reason.astype(str)
     return out, notes

@@ -69,8 +69,8 @@ TEMPLATE = r"""<!DOCTYPE html>
  <img alt="timeline of motor states and events" src="{{ fig.timeline }}">
 </section>
 
-<section id="currents"><h2>Line currents against FLA</h2>
- <img alt="per-line RMS current against full-load current" src="{{ fig.currents }}">
+<section id="currents"><h2>{% if has_fla %}Line currents against FLA{% else %}Line currents (no nameplate: not judged against FLA){% endif %}</h2>
+ <img alt="per-line RMS current{% if has_fla %} against full-load current{% endif %}" src="{{ fig.currents }}">
 </section>
 
 <section id="sequence"><h2>Unbalance: I2/I1 and V2/V1</h2>
@@ -213,6 +213,7 @@ def render(res: AnalysisResult, doc: dict[str, Any], figures: dict[str, str | No
         "start_time": doc["capture"]["start_time"], "duration": f"{cap.duration_s:.3f} s",
         "rate": f"{cap.sample_rate_hz:g} samples/s", "channels": ", ".join(c.label for c in cap.channels),
         "plate_name": None if res.nameplate is None else (res.nameplate.name or None),
+        "has_fla": res.nameplate is not None,
         "verdict": doc["verdict"], "fig": figures, "events": events, "thermal": thermal,
         "supply": None if doc.get("supply_voltage") is None else {
             "source": doc["supply_voltage"]["declared"]["source"], "basis": doc["supply_voltage"]["declared"]["basis"],

@@ -108,6 +108,7 @@ def _speed_part(res: AnalysisResult) -> dict[str, Any]:
             "f_supply_hz": _num(r.get("f_supply_hz")), "component": str(r.get("component") or ""),
             "status": str(r.get("status") or ""),
             "direction": str(r.get("direction") or "unknown"), "direction_basis": str(r.get("direction_basis") or "") or None,
+            "state": str(r.get("state") or "") or None,
         })
     return {"available": True, "track": track}
 
