@@ -337,12 +337,12 @@ def measure_capture(capture: Capture, options: dict[str, Any] | None = None) -> 
 def gate_measurements(capture: Capture, measurements: Any, nameplate: Nameplate | None) -> list[str]:
     """Blank the ratio and unbalance columns of ``measurements.cycles`` below the level gates (in place); its notes.
 
-    The declared voltage is the one the detectors use (`detection_input`);
+    The declared voltage is the supply's by the one rule (`declared_supply_voltage`, default parameters);
     see `waveforms.measure.gate` for the gates and their sources.
     """
     from .measure.gate import gate_cycles
 
-    declared = capture.nominal_voltage_v or (None if nameplate is None else float(nameplate.rated_voltage_v))
+    declared = declared_supply_voltage(capture, measurements).ll_v  # never the motor's rating (issue 18 item 3)
     measurements.cycles, notes = gate_cycles(measurements.cycles, declared, None if nameplate is None else float(nameplate.fla_a))
     return notes
 
