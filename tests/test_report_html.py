@@ -59,7 +59,7 @@ def test_outputs_written_and_schema_valid(report_dir):
     assert set(paths) == {"result.json", "events.csv", "report.html"}
     doc = json.loads(paths["result.json"].read_text())
     validate(doc)
-    assert doc["schema_version"] == "1.0"
+    assert doc["schema_version"] == "1.1"
     assert doc["capture"]["sha256"] == res.capture.provenance.sha256 and len(doc["capture"]["sha256"]) == 64
     for e in doc["events"]:
         assert re.match(r"\d{4}-\d\d-\d\dT\d\d:\d\d:\d\d\.\d{6}[+-]\d\d:\d\d$", e["start_time"])  # ISO 8601 with offset

@@ -39,7 +39,7 @@ def test_eccentricity_10s_windows(slip):
     # rpm and rotor frequency follow from the slip: n = 60 f1 (1-s)/p (common practice, no source)
     np.testing.assert_allclose(tr.rpm, 60 * tr.f_supply_hz * (1 - tr.slip) / 2, rtol=1e-12)
     np.testing.assert_allclose(tr.f_rotor_hz, tr.rpm / 60, rtol=1e-12)
-    assert (tr.confidence_db > 30).all()
+    assert (tr.prominence_db > 30).all()
 
 
 def test_eccentricity_2s_windows():

@@ -207,14 +207,18 @@ def verdict_text(
         else:
             when = f"was lost at {_t(start, e.start_s)}"
         state = f.get("motor_state", "")
+        lr = "at locked-rotor current" if "live_line_current_pu_fla" in f else "with its current held at the inrush level"
         if state == "stalled" and f.get("present_at_energisation"):
-            what = "the motor could not start (no starting torque single-phased) and sat at locked-rotor current"
+            what = f"the motor could not start (no starting torque single-phased) and sat {lr}"
         elif state == "stalled":
-            what = "the motor stalled at locked-rotor current"
+            what = f"the motor stalled {lr}"
         elif state == "ran single-phased, then stalled":
             what = f"the motor kept running single-phased, then stalled at {_t(start, f.get('stalled_at_s'))}"
+        elif "live_line_current_pu_fla" in f:
+            what = f"the motor kept running single-phased, drawing {f['live_line_current_pu_fla']:.1f} x FLA on the other two lines"
         else:
-            what = f"the motor kept running single-phased, drawing {f.get('live_line_current_pu_fla', float('nan')):.1f} x FLA on the other two lines"
+            what = (f"the motor kept running single-phased, drawing {f.get('live_line_current_a', float('nan')):.0f} A on the "
+                    "other two lines (no nameplate: not judged against FLA)")
         if f.get("rotation") == "reverse":
             what += ", running in reverse (against the supply's phase sequence, from the regenerated voltage's sequence)" \
                 if f.get("rotation_basis") == "regenerated_voltage" else ", running in reverse (against the supply's phase sequence)"
@@ -234,10 +238,20 @@ def verdict_text(
         if any(e.overlaps(o.start_s, o.end_s) for o in ops):
             continue  # told with the open phase
         f = e.figures
-        cause = "failed to start and stayed at locked-rotor current" if f.get("from_energisation") else "stalled (locked rotor) on a healthy three-phase supply"
+        rated = "i_max_median_pu_fla" in f
+        cause = (("failed to start and stayed at locked-rotor current" if rated else "failed to start: its current stayed at the inrush level")
+                 if f.get("from_energisation") else "stalled (locked rotor) on a healthy three-phase supply")
         until = {"de-energised": " when it was de-energised", "current fell, motor still energised": " when the current fell back (the rotor turned again)"}.get(f.get("ended_by", ""), "")
-        parts.append(f"The motor {cause} from {_t(start, e.start_s)} to {_t(start, e.end_s)}{until}, "
-                     f"drawing {f.get('i_max_median_pu_fla', float('nan')):.1f} x FLA.")
+        if rated:
+            drawing = f"drawing {f['i_max_median_pu_fla']:.1f} x FLA"
+        elif f.get("i_over_running"):
+            drawing = (f"drawing {f.get('i_max_median_a', float('nan')):.0f} A, {f['i_over_running']:.1f} x its running current "
+                       "before (no nameplate)")
+        elif f.get("i_over_inrush"):
+            drawing = f"drawing {f.get('i_max_median_a', float('nan')):.0f} A, {100 * f['i_over_inrush']:.0f} % of its inrush (no nameplate)"
+        else:
+            drawing = f"drawing {f.get('i_max_median_a', float('nan')):.0f} A (no nameplate)"
+        parts.append(f"The motor {cause} from {_t(start, e.start_s)} to {_t(start, e.end_s)}{until}, {drawing}.")
     ok_starts = [e for e in starts if e.figures.get("success")]
     if ok_starts:
         times = "; ".join(f"at {_t(start, e.start_s)}, acceleration time {e.figures.get('acceleration_time_s', float('nan')):.2f} s"
@@ -318,6 +332,78 @@ def measure_capture(capture: Capture, options: dict[str, Any] | None = None) -> 
     if len(m.cycles) == 0:
         raise InvalidParameterError(f"{capture.provenance.source_path or 'capture'}: no complete fundamental cycle could be measured")
     return m
+
+
+def gate_measurements(capture: Capture, measurements: Any, nameplate: Nameplate | None) -> list[str]:
+    """Blank the ratio and unbalance columns of ``measurements.cycles`` below the level gates (in place); its notes.
+
+    The declared voltage is the supply's by the one rule (`declared_supply_voltage`, default parameters);
+    see `waveforms.measure.gate` for the gates and their sources.
+    """
+    from .measure.gate import gate_cycles
+
+    declared = declared_supply_voltage(capture, measurements).ll_v  # never the motor's rating (issue 18 item 3)
+    measurements.cycles, notes = gate_cycles(measurements.cycles, declared, None if nameplate is None else float(nameplate.fla_a))
+    return notes
+
+
+#: Measured fundamental this far from the nominal is a data-quality warning [Hz] (the +/-5 Hz off-nominal range of
+#: IEC/IEEE 60255-118-1 M class, from memory)
+FREQUENCY_OFF_NOMINAL_HZ = 5.0
+
+
+def frequency_checks(capture: Capture, measurements: Any, nameplate: Nameplate | None) -> tuple[Capture, list[dict], list[str]]:
+    """One nominal frequency for every stage, and the warnings about it: (capture, data-quality entries, notes).
+
+    The nominal frequency is the declared one, else the one the measurement
+    inferred (`waveforms.measure.frequency.nominal_from_measured`); it is
+    written into the capture so that the speed stage uses the same value.
+    Warnings: most cycles without a tracked frequency (the fundamental outside
+    the tracked band); the measured frequency more than
+    `FREQUENCY_OFF_NOMINAL_HZ` from the nominal; the nameplate's rated
+    frequency differing from the capture's.
+    """
+    from .measure.frequency import tracked_band_hz
+
+    info = getattr(measurements, "info", {}) or {}
+    f_nom = float(info.get("nominal_frequency_hz") or capture.nominal_frequency_hz or 0.0)
+    quality: list[dict] = []
+    notes: list[str] = []
+    if not f_nom:
+        return capture, quality, notes
+    if capture.nominal_frequency_hz is None:
+        capture = capture.replace(nominal_frequency_hz=f_nom)
+        notes.append(f"nominal frequency {f_nom:g} Hz inferred from the capture (nearest of 50/60 Hz) and used by every stage")
+    cyc = measurements.cycles
+    f = cyc["frequency_hz"].to_numpy(float) if "frequency_hz" in cyc else np.full(len(cyc), np.nan)
+    # cycles with a live voltage (above the level gate) but no tracked frequency
+    gate = cyc["level_gate"].astype(str).str.contains("V1 below").to_numpy() if "level_gate" in cyc else np.zeros(len(cyc), bool)
+    live = ~gate
+    untracked = live & ~np.isfinite(f)
+    lo, hi = tracked_band_hz(f_nom)
+    f_zc = info.get("zero_crossing_frequency_hz")
+    if live.sum() >= 5 and untracked.sum() > 0.5 * live.sum():
+        zc = "" if f_zc is None else f"; the zero-crossing rate says {f_zc:.2f} Hz"
+        quality.append({"check": "frequency_band", "channel": None, "severity": "warning",
+                        "message": (f"the fundamental is outside the tracked band ({lo:.1f}-{hi:.1f} Hz for a {f_nom:g} Hz "
+                                    f"system) in {int(untracked.sum())} of {int(live.sum())} live cycles{zc}: their "
+                                    "per-cycle values are not valid (ratio columns absent); check the declared nominal frequency"),
+                        "untracked_cycles": int(untracked.sum()), "live_cycles": int(live.sum()),
+                        "band_hz": [lo, hi], "zero_crossing_frequency_hz": f_zc})
+    measured = float(np.nanmedian(f)) if np.isfinite(f).any() else (None if f_zc is None else float(f_zc))
+    if measured is not None and abs(measured - f_nom) > FREQUENCY_OFF_NOMINAL_HZ:
+        quality.append({"check": "frequency_off_nominal", "channel": None, "severity": "warning",
+                        "message": f"measured fundamental {measured:.2f} Hz is more than {FREQUENCY_OFF_NOMINAL_HZ:g} Hz "
+                                   f"from the nominal {f_nom:g} Hz: check the declared nominal frequency",
+                        "measured_frequency_hz": measured, "nominal_frequency_hz": f_nom})
+    if nameplate is not None and measured is not None:
+        rated = float(nameplate.rated_frequency_hz)
+        if abs(rated - measured) > FREQUENCY_OFF_NOMINAL_HZ:
+            quality.append({"check": "nameplate_frequency", "channel": None, "severity": "warning",
+                            "message": (f"the nameplate is for a {rated:g} Hz motor but the capture's supply is "
+                                        f"{measured:.1f} Hz: wrong nameplate? FLA, slip and thermal figures use it"),
+                            "rated_frequency_hz": rated, "measured_frequency_hz": measured})
+    return capture, quality, notes
 
 
 def default_speed_window_s(duration_s: float) -> float:
@@ -494,6 +580,27 @@ def open_points_per_cycle(t_s: np.ndarray, events: list[Event], cycle_s: float =
     return out
 
 
+def window_states(speed: pd.DataFrame, timeline: pd.DataFrame) -> pd.DataFrame:
+    """The speed track with a ``state`` column: the timeline state the window lies wholly inside, else "".
+
+    A window that straddles a change of state (running, then stalled) mixes two
+    speeds; it belongs to neither state and is not used for either (issue 18).
+    """
+    out = speed.copy()
+    st = np.full(len(out), "", dtype=object)
+    if len(out) and len(timeline) and "t_start_s" in out and "t_end_s" in out:
+        a, b = out["t_start_s"].to_numpy(float), out["t_end_s"].to_numpy(float)
+        tol = 1.0 / 120.0  # the timeline's periods start and end on cycle boundaries: half a 60 Hz cycle of slack
+        n = len(timeline)
+        for k, r in enumerate(timeline.itertuples(index=False)):
+            lo = -np.inf if k == 0 else float(r.start_s) - tol  # the first and last periods reach the capture's ends
+            hi = np.inf if k == n - 1 else float(r.end_s) + tol
+            inside = (a >= lo) & (b <= hi)
+            st[inside & (st == "")] = r.state
+    out["state"] = st
+    return out
+
+
 def orient_rotation(
     cycles: pd.DataFrame, speed: pd.DataFrame | None, events: list[Event], timeline: pd.DataFrame,
 ) -> tuple[pd.DataFrame | None, pd.DataFrame, list[str]]:
@@ -536,6 +643,7 @@ def orient_rotation(
         tl["direction_basis"] = pd.Series(dtype=object)
     if speed is not None:
         speed = orient_track(speed, per, sup)
+        speed = window_states(speed, tl)
         rev = speed[(speed["direction"] == "reverse")]
         if len(rev):
             notes.append(f"direction: {len(rev)} speed window(s) running in reverse ({DIRECTION_BASES[str(rev['direction_basis'].iloc[0])]})")

@@ -692,6 +692,13 @@ def _stage_measure(state: RunState, params: dict[str, Any]) -> None:
     if dec is not None:
         run_kw["decimator"] = dec
     state.measurements = measure_capture(state.capture, run_kw)
+    from .analysis import gate_measurements
+
+    state.notes.extend(gate_measurements(state.capture, state.measurements, state.nameplate))  # issue 18: level gate
+    from .analysis import frequency_checks
+
+    state.capture, fq_quality, fq_notes = frequency_checks(state.capture, state.measurements, state.nameplate)
+    state.notes.extend(fq_notes)
     if dec is not None and state.measurements.decimated is not None:
         from .speed.estimator import DecimatedCurrent
 
@@ -705,6 +712,7 @@ def _stage_measure(state: RunState, params: dict[str, Any]) -> None:
         state.quality = [*quality_notes(state.capture, acc.records()), *state.quality]
         state.pending_quality = None
         state.timings_s["quality"] = time.perf_counter() - t0  # the notes only: the survey rode on the measure pass
+    state.quality = [*state.quality, *fq_quality]  # issue 18: frequency band, off-nominal, nameplate frequency
 
 
 def _speed_decimator(state: RunState) -> Any:

@@ -121,7 +121,9 @@ def summary_row(state: Any, file: str, site: str, extra: Mapping[str, Any] | Non
         cycles = cycles[np.isfinite(cycles["frequency_hz"].to_numpy(float))]
     if cycles is not None and len(cycles):
         if "I2_I1_pct" in cycles:
-            row["worst_i2_i1_pct"] = _finite_max(cycles["I2_I1_pct"])
+            i2i1 = cycles["I2_I1_pct"].to_numpy(float)  # NaN below the level gate (waveforms.measure.gate)
+            # above 100 % the negative sequence dominates (reversed rotation or labels): not an unbalance
+            row["worst_i2_i1_pct"] = _finite_max(i2i1[~(i2i1 > 101.0)])  # 1 point of noise tolerance (our choice)
         lines = [f"I{c}_rms" for c in "abc" if f"I{c}_rms" in cycles]
         if lines and state.nameplate is not None:
             row["max_current_x_fla"] = _finite_max(cycles[lines].to_numpy(float)) / float(state.nameplate.fla_a)

@@ -43,6 +43,12 @@ class DetectParams:
     stall_frac_lr: float = setting(0.5, "stall region: largest line current above this fraction of the locked-rotor current "
                                    "scaled by the supply voltage [-]", minimum=0.0)
     min_stall_s: float = setting(1.0, "shortest stall reported [s]", minimum=0.0)
+    stall_ratio_running: float = setting(3.0, "no nameplate: a running motor is in the locked-rotor region when its largest line "
+                                         "current exceeds this multiple of the capture's running current [-] (locked-rotor "
+                                         "current is 5-8 x FLA, a running motor draws at most about 1.15 x FLA; from memory, "
+                                         "margin our choice)", minimum=1.0)
+    start_frac_inrush: float = setting(0.5, "no nameplate: a start leaves the locked-rotor region when the current falls below "
+                                       "this fraction of its initial inrush [-] (as stall_frac_lr; our choice)", minimum=0.0, maximum=1.0)
     standstill_tol_3ph: float = setting(0.015, "the stall begins when the apparent impedance stays within this relative distance "
                                         "of its standstill value, three-phase [-] (about 5 % of synchronous speed)", minimum=0.0)
     standstill_tol_1ph: float = setting(0.0015, "the same, single-phased [-]", minimum=0.0)
@@ -149,7 +155,7 @@ class DetectionInput:
 
     @functools.cached_property
     def cycle_s(self) -> float:
-        if "frequency_hz" in self.cycles:
+        if "frequency_hz" in self.cycles and np.isfinite(self.cycles["frequency_hz"].to_numpy(float)).any():
             f = float(np.nanmedian(self.cycles["frequency_hz"].to_numpy(float)))
             if math.isfinite(f) and f > 0:
                 return 1.0 / f
@@ -208,12 +214,39 @@ class DetectionInput:
         on = m[m > 0.05 * np.max(m)]
         return float(np.median(on)) if on.size else math.nan
 
+    @property
+    def rated(self) -> bool:
+        """True when the nameplate gives an FLA: currents may be judged in multiples of it."""
+        return bool(self.fla_a)
+
     @functools.cached_property
     def locked_rotor_ref_a(self) -> float:
-        """The locked-rotor current, or (none given) 6 x `current_ref_a` [A]."""
+        """The locked-rotor current, or (nameplate without one) 6 x FLA [A]; NaN without a nameplate.
+
+        Never derived from the capture itself: without a rating a stall is
+        judged from current ratios (`running_ref_a`, the start's inrush) instead.
+        """
         if self.locked_rotor_a:
             return float(self.locked_rotor_a)
-        return 6.0 * self.current_ref_a
+        return 6.0 * float(self.fla_a) if self.fla_a else math.nan
+
+    @functools.cached_property
+    def running_ref_a(self) -> float:
+        """No nameplate: the capture's running current [A], the low end of its steady energised levels.
+
+        The 10th percentile of the one-second rolling median of the largest
+        line current over the energised cycles (a start's inrush and a stall
+        are short or high; the running level is the low, steady one).  It is a
+        reference for ratios only, never reported as a rating.  NaN without
+        energised cycles.
+        """
+        m = self.i_max[self.energised]
+        m = m[np.isfinite(m)]
+        if m.size == 0:
+            return math.nan
+        w = max(1, int(round(1.0 / self.cycle_s)))
+        med = pd.Series(m).rolling(min(w, m.size), min_periods=1, center=True).median().to_numpy()
+        return float(np.quantile(med, 0.10))
 
     def reference_notes(self, locked_rotor: bool = False) -> tuple[str, ...]:
         """What `current_ref_a` (and, with ``locked_rotor``, `locked_rotor_ref_a`) assumed.
@@ -224,10 +257,14 @@ class DetectionInput:
         if not np.isfinite(self.i_max).any():
             return ()
         out = []
-        if locked_rotor and not self.locked_rotor_a:
-            out.append("no locked-rotor current: 6 x the reference current assumed")
+        if locked_rotor and not self.locked_rotor_a and self.fla_a:
+            out.append("no locked-rotor current on the nameplate: 6 x FLA assumed")
         if not self.fla_a:
-            out.append("no nameplate FLA: current thresholds scaled to the capture's median running current")
+            out.append("no nameplate FLA: currents are not judged against a rating; 'carries current' is 5 % of the capture's median current")
+            if locked_rotor:
+                out.append(f"no nameplate: locked rotor judged from current ratios (above "
+                           f"{self.params.stall_ratio_running:g} x the capture's running current, or a start's current not "
+                           f"falling below {self.params.start_frac_inrush:g} x its initial inrush), not from a rating")
         return tuple(out)
 
     @functools.cached_property
@@ -341,6 +378,9 @@ def schmitt(set_mask: np.ndarray, reset_mask: np.ndarray) -> np.ndarray:
 def speed_summary(speed: pd.DataFrame | None, t0_s: float, t1_s: float | None) -> dict[str, Any]:
     """What the speed track says between two instants: windows, estimates, median slip and rpm.
 
+    Only windows wholly inside ``[t0_s, t1_s]`` count (by their ``t_start_s`` and
+    ``t_end_s``; by the centre ``t_s`` when the track has no window bounds).
+
     Examples
     --------
     >>> import numpy as np
@@ -353,8 +393,13 @@ def speed_summary(speed: pd.DataFrame | None, t0_s: float, t1_s: float | None) -
     if speed is None or len(speed) == 0 or "t_s" not in speed:
         return {"speed_windows": 0}
     t1 = math.inf if t1_s is None else t1_s
-    t = speed["t_s"].to_numpy(float)
-    sel = speed[(t >= t0_s) & (t <= t1)]
+    if "t_start_s" in speed and "t_end_s" in speed:
+        # only windows lying wholly inside [t0, t1]: a window straddling a change of state mixes two speeds (issue 18)
+        inside = (speed["t_start_s"].to_numpy(float) >= t0_s - 1e-9) & (speed["t_end_s"].to_numpy(float) <= t1 + 1e-9)
+    else:
+        t = speed["t_s"].to_numpy(float)
+        inside = (t >= t0_s) & (t <= t1)
+    sel = speed[inside]
     out: dict[str, Any] = {"speed_windows": int(len(sel))}
     if len(sel) == 0:
         return out

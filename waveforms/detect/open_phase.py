@@ -183,7 +183,9 @@ def _location(inp: DetectionInput, line: str, a: int, b: int, onset_s: float | N
             figs["v2_v1_pct_before"] = float(np.nanmedian(v2_pre))
         if v2_post.size and np.isfinite(v2_post).any():
             figs["v2_v1_pct_after"] = float(np.nanmedian(v2_post))
-    dv2 = figs.get("v2_v1_pct_after", 0.0) - figs.get("v2_v1_pct_before", 0.0)
+    # no V2/V1 before (below the level gate: no voltage) -> no rise to judge (issue 18)
+    dv2 = figs["v2_v1_pct_after"] - figs["v2_v1_pct_before"] if "v2_v1_pct_before" in figs and "v2_v1_pct_after" in figs else 0.0
+    dv2_txt = f"V2/V1 rose {dv2:.1f} points" if "v2_v1_pct_before" in figs else "V2/V1 before undefined (no voltage)"
     moved = abs(change - 1.0)
     figs["open_line_voltage_change_pu"] = moved
     corr = None
@@ -202,7 +204,7 @@ def _location(inp: DetectionInput, line: str, a: int, b: int, onset_s: float | N
     else:
         upstream = moved > p.upstream_mag_tol or abs(figs["open_line_voltage_angle_shift_deg"]) > p.upstream_angle_tol_deg or dv2 > p.upstream_v2_rise_pct
         figs["location_reason"] = (
-            f"open terminal's voltage moved by {100 * moved:.0f} % ({basis}), V2/V1 rose {dv2:.1f} points"
+            f"open terminal's voltage moved by {100 * moved:.0f} % ({basis}), {dv2_txt}"
             if upstream else f"voltages stayed normal (change {100 * moved:.1f} %, V2/V1 +{dv2:.1f} points) while the current died"
         )
     figs["location"] = "upstream" if upstream else "downstream"
@@ -266,9 +268,10 @@ def regenerated_voltage(inp: DetectionInput, line: str, a: int, b: int, location
 
 def _motor_after(inp: DetectionInput, stall_events: tuple[Event, ...], start_s: float, end_s: float | None) -> dict:
     stalls = [e for e in stall_events if e.kind == "stall" and e.overlaps(start_s, end_s)]
-    figs: dict = speed_summary(inp.speed, start_s + 0.2, end_s)
-    if stalls:
-        s0 = min(e.start_s for e in stalls)
+    s0 = min(e.start_s for e in stalls) if stalls else None
+    # the running speed from the windows wholly inside the single-phased running part only (issue 18)
+    figs: dict = speed_summary(inp.speed, start_s + 0.2, s0 if s0 is not None and s0 > start_s + 0.5 else end_s)
+    if s0 is not None:
         if s0 <= start_s + 0.5:
             figs["motor_state"] = "stalled"
         else:
@@ -324,7 +327,8 @@ def detect_open_phase(inp: DetectionInput, prior: dict) -> Findings:
             seg = inp.i_mag[a:b]
             figs["dead_line_current_a"] = float(np.nanmedian(seg[:, j]))
             figs["live_line_current_a"] = float(np.nanmedian(np.nanmax(seg[:, live], axis=1)))
-            figs["live_line_current_pu_fla"] = figs["live_line_current_a"] / inp.current_ref_a
+            if inp.rated:  # no "x FLA" without an FLA
+                figs["live_line_current_pu_fla"] = figs["live_line_current_a"] / float(inp.fla_a)
             i2i1 = inp.col("I2_I1_pct")
             if i2i1 is not None and np.isfinite(i2i1[a:b]).any():
                 figs["i2_i1_pct"] = float(np.nanmedian(i2i1[a:b]))

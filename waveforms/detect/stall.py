@@ -30,11 +30,37 @@ from .event import Event
 from .registry import Findings, register
 
 
+def energisations(inp: DetectionInput) -> list[tuple[int, int]]:
+    """Energised stretches ``[a, b)`` that began inside the capture after at least three cycles without current."""
+    on = inp.energised
+    return [(a, b) for a, b in runs(on, min_len=2, max_gap=2) if a > 0 and not on[max(0, a - 3) : a].any()]
+
+
 def high_current_mask(inp: DetectionInput) -> tuple[np.ndarray, np.ndarray]:
-    """(mask, threshold_a): cycles whose largest line current is in the locked-rotor region."""
-    v = np.clip(inp.v_ll_max_ratio, 0.3, 1.2)
-    thr = inp.params.stall_frac_lr * inp.locked_rotor_ref_a * v
-    return np.isfinite(inp.i_max) & (inp.i_max > thr), thr
+    """(mask, threshold_a): cycles whose largest line current is in the locked-rotor region.
+
+    With a nameplate: above ``stall_frac_lr`` x the locked-rotor current scaled
+    by the supply voltage.  Without one (no rating is derived from the
+    capture): above ``stall_ratio_running`` x the capture's running current
+    (`DetectionInput.running_ref_a`), and, from each energisation, until the
+    current first falls below ``start_frac_inrush`` x that start's inrush
+    (its largest one-cycle current in the first five cycles).
+    """
+    i = inp.i_max
+    if inp.rated:
+        v = np.clip(inp.v_ll_max_ratio, 0.3, 1.2)
+        thr = inp.params.stall_frac_lr * inp.locked_rotor_ref_a * v
+        return np.isfinite(i) & (i > thr), thr
+    p = inp.params
+    thr = np.full(inp.n, p.stall_ratio_running * inp.running_ref_a)
+    for a, b in energisations(inp):
+        k = a + int(np.nanargmax(i[a : min(b, a + 5)]))  # the first cycle may be a partial one
+        inrush = float(i[k])
+        below = np.flatnonzero(~(i[k:b] >= p.start_frac_inrush * inrush))
+        stop = k + int(below[0]) if below.size else b
+        thr[a:stop] = np.fmin(thr[a:stop], p.start_frac_inrush * inrush)
+    with np.errstate(invalid="ignore"):
+        return np.isfinite(i) & (i > thr), thr
 
 
 def off_before(inp: DetectionInput, a: int, cycles: int = 3) -> bool:
@@ -153,6 +179,18 @@ def pull_out_index(inp: DetectionInput, a: int, rise_frac: float = 0.02, lookbac
     return lo + int(low[-1]) + 1 if low.size else None
 
 
+def _running_before(inp: DetectionInput, a: int) -> float | None:
+    """Median largest line current over the energised, same-state cycles before ``a`` (at most 10 s) [A], or None."""
+    lo = max(0, a - int(round(10.0 / inp.cycle_s)))
+    same = inp.energised[lo:a] & (inp.dead_line[lo:a] == inp.dead_line[a]).all(axis=1)
+    bad = np.flatnonzero(~same)
+    if bad.size:
+        lo = lo + int(bad[-1]) + 1
+    seg = inp.i_max[lo:a]
+    seg = seg[np.isfinite(seg)]
+    return float(np.median(seg)) if seg.size >= 3 else None
+
+
 def _dip_just_before(inp: DetectionInput, a: int) -> bool:
     v = inp.v_ll_max_ratio[max(0, a - int(round(2.0 / inp.cycle_s))) : a + 2]
     return bool(v.size and np.nanmin(v) < 0.9)
@@ -162,8 +200,10 @@ def _dip_just_before(inp: DetectionInput, a: int) -> bool:
 def detect_stall(inp: DetectionInput, prior: dict) -> Findings:
     """Stalls (locked rotor) on a healthy or single-phased supply."""
     notes = inp.reference_notes(locked_rotor=True)
-    if not np.isfinite(inp.i_max).any() or not np.isfinite(inp.locked_rotor_ref_a):
+    if not np.isfinite(inp.i_max).any():
         return Findings(notes=(*notes, "no line currents: stall not assessed"))
+    if not inp.rated and not np.isfinite(inp.running_ref_a):
+        return Findings(notes=(*notes, "no nameplate and no running current: stall not assessed"))
     p = inp.params
     high, thr = high_current_mask(inp)
     out: list[Event] = []
@@ -199,11 +239,19 @@ def detect_stall(inp: DetectionInput, prior: dict) -> Findings:
             t_off = refine_onset_s(inp.capture, ch, (float(inp.t_start_s[max(0, b - 2)]), float(inp.t_end_s[min(inp.n - 1, b)])), 1.0 / inp.cycle_s, amp)
             if t_off is not None:
                 end_s = t_off
+        i_med = float(np.nanmedian(seg))
+        if inp.rated:
+            scale = {"i_max_median_pu_fla": i_med / float(inp.fla_a), "i_over_locked_rotor": i_med / inp.locked_rotor_ref_a,
+                     "locked_rotor_a": inp.locked_rotor_ref_a}
+        elif started:  # no rating: against the start's own inrush
+            inrush = float(np.nanmax(inp.i_max[a : min(b, a + 5)]))
+            scale = {"inrush_a": inrush, "i_over_inrush": i_med / inrush, "basis": "no nameplate: current against the start's inrush"}
+        else:  # no rating: against the running current before the event
+            run_a = _running_before(inp, a)
+            scale = {"running_current_a": run_a, "i_over_running": i_med / run_a if run_a else None,
+                     "basis": "no nameplate: current against the running current before the event"}
         figs = {
-            "i_max_median_a": float(np.nanmedian(seg)),
-            "i_max_median_pu_fla": float(np.nanmedian(seg) / inp.current_ref_a),
-            "i_over_locked_rotor": float(np.nanmedian(seg) / inp.locked_rotor_ref_a),
-            "locked_rotor_a": inp.locked_rotor_ref_a, "threshold_a_median": float(np.median(thr[a:b])),
+            "i_max_median_a": i_med, **scale, "threshold_a_median": float(np.median(thr[a:b])),
             "single_phased": single, "from_energisation": started,
             "high_current_from_s": float(inp.t_start_s[a]), "stall_onset_basis": basis,
             # issue 12: the two instants of a stall; start_s is the rest instant
@@ -219,10 +267,16 @@ def detect_stall(inp: DetectionInput, prior: dict) -> Findings:
         cause = "failed to start (locked rotor from energisation)" if started else "stalled while running"
         dur = end_x - stall_s
         dur_txt = f"{dur:.2f} s" + (" (still stalled at the end of the capture)" if end_s is None else "")
+        if inp.rated:
+            level = f"{figs['i_max_median_pu_fla']:.1f} x FLA ({100 * figs['i_over_locked_rotor']:.0f} % of locked-rotor current)"
+        elif started:
+            level = f"{i_med:.0f} A, {100 * figs['i_over_inrush']:.0f} % of its initial inrush (no nameplate)"
+        else:
+            level = (f"{i_med:.0f} A, {figs['i_over_running']:.1f} x the running current before it (no nameplate)"
+                     if figs.get("i_over_running") else f"{i_med:.0f} A (no nameplate)")
         out.append(Event(
             kind="stall", phase=None, start_s=stall_s, end_s=end_s, detector="stall",
-            summary=(f"motor {cause} {how}: {figs['i_max_median_pu_fla']:.1f} x FLA "
-                     f"({100 * figs['i_over_locked_rotor']:.0f} % of locked-rotor current) for {dur_txt}"),
+            summary=f"motor {cause} {how}: {level} for {dur_txt}",
             figures=figs,
         ))
     return Findings(tuple(out), notes)

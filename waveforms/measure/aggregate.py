@@ -7,12 +7,17 @@
   ``n_cycles`` shows it.
 
 Magnitudes (``_rms``, ``_mag``, sequence components, unbalance ratios) are
-aggregated as the square root of the mean of squares; power, power factor and
-frequency as arithmetic means; angles and the phase sequence are not
-aggregated.  An interval is flagged ``dip`` when any Urms(1/2) of a phase
-voltage inside it falls below 90 % of the declared voltage, ``interruption``
-when all phase voltages fall below 10 % at the same half cycle; ``flagged`` is
-either.  The declared voltage follows the one rule of
+aggregated as the square root of the mean of squares; power and frequency as
+arithmetic means; power factors as the ratio of the aggregated powers
+(``PF = sum P / sum S``, ``PFa = sum Pa / sum Sa``, ``DPF = sum P1 / |sum P1 +
+j sum Q1|``: the power factor of the energy over the interval, IEEE 1459-2010
+definitions applied to the interval's average powers), never as a mean of
+per-cycle ratios; angles and the phase sequence are not aggregated.  An
+interval is flagged ``dip`` when any Urms(1/2) of a phase voltage inside it
+falls below 90 % of the declared voltage, ``swell`` when any rises above
+110 %, ``interruption`` when all phase voltages fall below 10 % at the same
+half cycle; ``flagged`` is any of the three (IEC 61000-4-30 4.7 flags
+intervals during dips, swells and interruptions).  The declared voltage follows the one rule of
 `waveforms.measure.declared` (line-to-line; divided by sqrt 3 for
 line-to-neutral channels): ``capture.nominal_voltage_v`` when known, else the
 standard nominal system voltage nearest the measured median (an inference),
@@ -37,6 +42,7 @@ from ..errors import InvalidParameterError
 
 DIP_THRESHOLD = 0.90           # IEC 61000-4-30 5.4.2: dip below 90 % of declared (from memory)
 INTERRUPTION_THRESHOLD = 0.10  # IEC 61000-4-30 5.4.4: interruption below 10 % (from memory)
+SWELL_THRESHOLD = 1.10         # IEC 61000-4-30 5.4.3: swell above 110 % of declared (from memory; as DetectParams)
 KINDS = ("basic", "3s", "10min")
 
 _MEAN_SUFFIXES = ("_w", "_var", "_va", "frequency_hz")
@@ -133,23 +139,43 @@ def aggregate(cycles: pd.DataFrame, half_cycles: pd.DataFrame, kind: str, info: 
         out = pd.concat([out, np.sqrt(sqm).reset_index(drop=True)], axis=1)
     if mean_cols:
         out = pd.concat([out, cycles[mean_cols].groupby(key).mean().reset_index(drop=True)], axis=1)
-    dip, intr = _flags(out, half_cycles, info)
+    _power_factors(out)
+    dip, intr, swell = _flags(out, half_cycles, info)
     out.insert(3, "dip", dip)
     out.insert(4, "interruption", intr)
-    out.insert(5, "flagged", dip | intr)
+    out.insert(5, "swell", swell)
+    out.insert(6, "flagged", dip | intr | swell)
     return out
 
 
-def _flags(out: pd.DataFrame, half: pd.DataFrame, info: dict[str, Any]) -> tuple[np.ndarray, np.ndarray]:
+def _power_factors(out: pd.DataFrame) -> None:
+    """Power factors of the interval from its aggregated (mean) powers, in place: sum P / sum S, not a mean of ratios.
+
+    References
+    ----------
+    .. [1] IEEE 1459-2010, 3.1.2.x / 3.2.2.x (PF = P / S; PF1+ = P1+ / S1+), applied to the powers over the interval.
+    """
+    with np.errstate(all="ignore"):
+        for pf, p, sva in [("PF", "P_w", "S_va")] + [(f"PF{x}", f"P{x}_w", f"S{x}_va") for x in "abc"]:
+            if pf in out and p in out and sva in out:
+                s_ = out[sva].to_numpy(float)
+                out[pf] = np.where(s_ > 0, out[p].to_numpy(float) / np.where(s_ > 0, s_, 1.0), np.nan)
+        if "DPF" in out and "P1_w" in out and "Q1_var" in out:
+            s1 = np.hypot(out["P1_w"].to_numpy(float), out["Q1_var"].to_numpy(float))
+            out["DPF"] = np.where(s1 > 0, out["P1_w"].to_numpy(float) / np.where(s1 > 0, s1, 1.0), np.nan)
+
+
+def _flags(out: pd.DataFrame, half: pd.DataFrame, info: dict[str, Any]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     decl = declared_voltages(half, info)
     n = len(out)
     if not decl or half.empty:
-        return np.zeros(n, bool), np.zeros(n, bool)
+        return np.zeros(n, bool), np.zeros(n, bool), np.zeros(n, bool)
     cols = [f"{lab}_rms_half" for lab in decl]
     v = half[cols].to_numpy() / np.array([decl[lab] for lab in decl])[None, :]
     low = np.nan_to_num(v, nan=np.inf)
     any_dip = (low < DIP_THRESHOLD).any(axis=1)                    # IEC 61000-4-30: any channel below 90 %
     all_int = (low < INTERRUPTION_THRESHOLD).all(axis=1)           # all channels below 10 %
+    any_swell = (np.nan_to_num(v, nan=-np.inf) > SWELL_THRESHOLD).any(axis=1)  # any channel above 110 %
     t = half["t_s"].to_numpy()
     # which interval each half-cycle value belongs to (its window end inside [t_start, t_end])
     pos = np.searchsorted(out["t_start_s"].to_numpy(), t, side="right") - 1
@@ -158,4 +184,6 @@ def _flags(out: pd.DataFrame, half: pd.DataFrame, info: dict[str, Any]) -> tuple
     intr = np.zeros(n, bool)
     np.logical_or.at(dip, pos[inside & any_dip], True)
     np.logical_or.at(intr, pos[inside & all_int], True)
-    return dip, intr
+    swell = np.zeros(n, bool)
+    np.logical_or.at(swell, pos[inside & any_swell], True)
+    return dip, intr, swell

@@ -217,7 +217,7 @@ def prepare(capture: Capture, nominal_frequency_hz: float | None = None,
     if f_nom is None:
         if f_est is None:
             raise InvalidParameterError("nominal frequency unknown and the reference shows no cycles; give nominal_frequency_hz")
-        f_nom = 50.0 if abs(f_est - 50.0) < abs(f_est - 60.0) else 60.0
+        f_nom = fq.nominal_from_measured(f_est)
         notes.append(f"nominal frequency inferred as {f_nom:g} Hz from the zero-crossing rate ({f_est:.2f} Hz)")
     if f_nom not in (50.0, 60.0):
         raise InvalidParameterError(f"nominal_frequency_hz={f_nom!r} must be 50 or 60")
@@ -238,6 +238,7 @@ def prepare(capture: Capture, nominal_frequency_hz: float | None = None,
         "reference": f"{lay.ref_kind} Clarke alpha of phases {''.join(conds)}",
         "reference_level_rms": level,
         "nominal_frequency_hz": float(f_nom),
+        "zero_crossing_frequency_hz": None if f_est is None else float(f_est),
         "harmonic_window_cycles": settings.harmonic_cycles,
         "sample_rate_hz": fs,
         "start_time": capture.start_time.isoformat(),

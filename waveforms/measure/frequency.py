@@ -60,6 +60,33 @@ def reference_coefficients(conductors: list[str]) -> np.ndarray:
     return np.ones(n)
 
 
+def nominal_from_measured(f_hz: float) -> float:
+    """The nominal system frequency of a capture that declares none: 50 or 60 Hz, whichever is nearer ``f_hz``.
+
+    The one rule of the package (issue 18): the declared frequency (capture
+    metadata or the user's ``--nominal-frequency``), else this; never the
+    motor nameplate's rated frequency, which is checked against it instead.
+
+    Examples
+    --------
+    >>> nominal_from_measured(49.7), nominal_from_measured(59.2), nominal_from_measured(56.0)
+    (50.0, 60.0, 60.0)
+    """
+    return 50.0 if abs(f_hz - 50.0) < abs(f_hz - 60.0) else 60.0
+
+
+def tracked_band_hz(f_nom_hz: float) -> tuple[float, float]:
+    """(lowest, highest) fundamental frequency whose cycles are tracked [Hz]: periods 0.7-1.3 x nominal.
+
+    Examples
+    --------
+    >>> [round(x, 1) for x in tracked_band_hz(50.0)]
+    [38.5, 71.4]
+    """
+    lo, hi = PLAUSIBLE_PERIOD_RANGE
+    return f_nom_hz / hi, f_nom_hz / lo
+
+
 def lowpass_sos(fs_hz: float, f_nom_hz: float) -> np.ndarray:
     """2nd-order Butterworth low-pass at twice the nominal frequency (little ringing after abrupt events).
 

@@ -83,6 +83,7 @@ def render(res: AnalysisResult, doc: dict[str, Any], figures: dict[str, str | No
         "start_time": doc["capture"]["start_time"], "duration": f"{cap.duration_s:.3f} s",
         "rate": f"{cap.sample_rate_hz:g} samples/s", "channels": ", ".join(c.label for c in cap.channels),
         "plate_name": None if res.nameplate is None else (res.nameplate.name or None),
+        "has_fla": res.nameplate is not None,
         "verdict": doc["verdict"], "fig": figures, "events": events, "thermal": thermal,
         "supply": None if doc.get("supply_voltage") is None else {
             "source": doc["supply_voltage"]["declared"]["source"], "basis": doc["supply_voltage"]["declared"]["basis"],

@@ -300,9 +300,9 @@ def spectrum_figure(res: AnalysisResult) -> tuple[Figure | None, str]:
     if ops and len(est):
         after = est[est["t_start_s"] >= ops[0].start_s]
         if len(after):
-            pick = after.iloc[int(np.argmax(after["confidence_db"].to_numpy(float)))]
+            pick = after.iloc[int(np.argmax(after["prominence_db"].to_numpy(float)))]
     if pick is None:
-        pick = est.iloc[int(np.argmax(est["confidence_db"].to_numpy(float)))] if len(est) else sp.iloc[len(sp) // 2]
+        pick = est.iloc[int(np.argmax(est["prominence_db"].to_numpy(float)))] if len(est) else sp.iloc[len(sp) // 2]
     import dataclasses
 
     from ..errors import WaveformsError

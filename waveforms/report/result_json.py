@@ -21,7 +21,7 @@ from ..analysis import SAFETY_CAUTIONS, AnalysisResult, iso_at
 from ..detect.event import plain
 
 #: Version of the result.json layout; bumped on any incompatible change.
-SCHEMA_VERSION = "1.0"
+SCHEMA_VERSION = "1.1"  # 1.1: speed.track "confidence"/"confidence_db" renamed "prominence_db" (issue 18)
 SCHEMA_FILE = "result.schema.json"
 
 
@@ -61,6 +61,12 @@ def _capture_part(res: AnalysisResult) -> dict[str, Any]:
     }
 
 
+#: Ratios of the negative to the positive sequence: an unbalance only while at most 100 % (issue 18)
+NEGATIVE_OVER_POSITIVE = ("I2_I1_pct", "V2_V1_pct")
+#: ... with one line open V2/V1 = I2/I1 = 100 % exactly (Fortescue); 1 point of tolerance for noise (our choice)
+NEGATIVE_DOMINANT_PCT = 101.0
+
+
 def _summary_part(res: AnalysisResult) -> dict[str, Any]:
     cyc = res.cycles
     out: dict[str, Any] = {"n_events": {}}
@@ -71,12 +77,18 @@ def _summary_part(res: AnalysisResult) -> dict[str, Any]:
     out["max_line_current_a"] = imax
     fla = None if res.nameplate is None else res.nameplate.fla_a
     out["max_line_current_x_fla"] = None if imax is None or not fla else imax / fla
+    dominant: dict[str, int] = {}
     for col in ("I2_I1_pct", "V2_V1_pct", "V_unbal_nema_pct"):
         if col in cyc:
             v = cyc[col].to_numpy(float)
-            v = v[np.isfinite(v)]
+            v = v[np.isfinite(v)]  # cycles below the level gate are NaN (waveforms.measure.gate): excluded
+            if col in NEGATIVE_OVER_POSITIVE:
+                # above 100 % the negative sequence dominates: a reversed rotation or labelling, not an unbalance
+                dominant[col] = int((v > NEGATIVE_DOMINANT_PCT).sum())
+                v = v[v <= NEGATIVE_DOMINANT_PCT]
             out[f"max_{col}"] = float(v.max()) if v.size else None
             out[f"median_{col}"] = float(np.median(v)) if v.size else None
+    out["cycles_negative_sequence_dominant"] = dominant
     out["states_s"] = {}
     for row in res.timeline.itertuples(index=False):
         out["states_s"][row.state] = out["states_s"].get(row.state, 0.0) + float(row.end_s - row.start_s)
@@ -92,10 +104,11 @@ def _speed_part(res: AnalysisResult) -> dict[str, Any]:
         track.append({
             "t_s": _num(r.get("t_s")), "t_start_s": _num(r.get("t_start_s")), "t_end_s": _num(r.get("t_end_s")),
             "slip": _num(r.get("slip")), "rpm": _num(r.get("rpm")),
-            "confidence": _num(r.get("confidence_db")), "confidence_db": _num(r.get("confidence_db")),
+            "prominence_db": _num(r.get("prominence_db")),
             "f_supply_hz": _num(r.get("f_supply_hz")), "component": str(r.get("component") or ""),
             "status": str(r.get("status") or ""),
             "direction": str(r.get("direction") or "unknown"), "direction_basis": str(r.get("direction_basis") or "") or None,
+            "state": str(r.get("state") or "") or None,
         })
     return {"available": True, "track": track}
 

@@ -2,7 +2,7 @@
 
 Public API:
 
-* `track_speed` -- one row per window: slip, rpm, component used, confidence, status.
+* `track_speed` -- one row per window: slip, rpm, component used, prominence [dB], status.
 * `window_detail` -- the full result of one window (spectrum, bands, peaks), for `plot_spectrum`.
 * `SpeedSettings` -- the search parameters.
 * `acceleration_interval`, `slowdown_interval` -- transient times from the per-cycle RMS current.

@@ -60,7 +60,7 @@ from .spectrum import _window  # the speed spectra's own Blackman-Harris window
 
 TRACK_COLUMNS: tuple[str, ...] = (
     "t_s", "t_start_s", "t_end_s", "f_supply_hz", "slip", "rpm", "f_rotor_hz", "component",
-    "confidence_db", "status", "n_components", "f_component_hz", "i_rms_a",
+    "prominence_db", "status", "n_components", "f_component_hz", "i_rms_a",
     "fundamental_side_db", "component_side_db",
 )
 
@@ -158,7 +158,7 @@ class WindowResult:
     f_supply_hz: float
     slip: float
     component: str
-    confidence_db: float
+    prominence_db: float
     status: str
     spectrum: Spectrum | None
     bands: dict[str, tuple[float, float]]
@@ -558,7 +558,7 @@ def track_speed(
         One row per window with `TRACK_COLUMNS`: ``t_s`` (centre), ``t_start_s``,
         ``t_end_s``, ``f_supply_hz``, ``slip`` [-], ``rpm``, ``f_rotor_hz`` (shaft
         rotation frequency), ``component`` ("slot", "eccentricity" or ""),
-        ``confidence_db`` (prominence of the weakest agreeing component over
+        ``prominence_db`` (prominence of the weakest agreeing component over
         the local median floor), ``status``, ``n_components``,
         ``f_component_hz`` (strongest agreeing component), ``i_rms_a``
         (current RMS below the highest searched frequency: with three
@@ -610,7 +610,7 @@ def track_speed(
     else:
         rows = [one(w) for w in range(n_win)]
     return pd.DataFrame(rows, columns=list(TRACK_COLUMNS)).astype(
-        {"slip": float, "rpm": float, "f_rotor_hz": float, "confidence_db": float, "n_components": int,
+        {"slip": float, "rpm": float, "f_rotor_hz": float, "prominence_db": float, "n_components": int,
          "fundamental_side_db": float, "component_side_db": float}
     )
 
@@ -647,7 +647,7 @@ def _row(r: WindowResult) -> dict[str, Any]:
         "f_supply_hz": r.f_supply_hz, "slip": slip,
         "rpm": float(sg.speed_rpm(slip, r.f_supply_hz, r.pole_pairs)) if est else math.nan,
         "f_rotor_hz": float(sg.rotor_frequency_hz(slip, r.f_supply_hz, r.pole_pairs)) if est else math.nan,
-        "component": r.component if est else "", "confidence_db": r.confidence_db if est else math.nan,
+        "component": r.component if est else "", "prominence_db": r.prominence_db if est else math.nan,
         "status": r.status, "n_components": len(r.used),
         "f_component_hz": best[1] if best else math.nan, "i_rms_a": r.i_rms_a,
         "fundamental_side_db": math.nan, "component_side_db": math.nan,

@@ -109,7 +109,7 @@ def plot_spectrum(result: WindowResult, *, title: str | None = None, width_in: f
     if title is None:
         if result.status == "estimate":
             rpm = float(sg.speed_rpm(result.slip, result.f_supply_hz, result.pole_pairs))
-            outcome = f"slip {result.slip:.4f}, {rpm:.1f} rpm from {result.component}, confidence {result.confidence_db:.0f} dB"
+            outcome = f"slip {result.slip:.4f}, {rpm:.1f} rpm from {result.component}, prominence {result.prominence_db:.0f} dB"
         else:
             outcome = f"no estimate ({result.status})"
         title = f"window {result.t_start_s:.2f}-{result.t_end_s:.2f} s: {outcome}"
