@@ -432,5 +432,7 @@ def open_capture(path: str | os.PathLike[str], format: str | None = None, option
     if not options.resample and p.is_file() and p.stat().st_size >= max(1, stream_min_bytes):
         name = format if format is not None else detect_format(p).name
         if name == "csv":
-            return spooled_capture(p, options)
+            from .masking import mask_broken
+
+            return mask_broken(spooled_capture(p, options), str(p))
     return read_capture(p, format, options)

@@ -300,4 +300,6 @@ def read_capture(
         imp = _REGISTRY[format]
     else:
         imp = detect_format(p)
-    return imp.read(p, options or ReadOptions())
+    from .masking import mask_broken
+
+    return mask_broken(imp.read(p, options or ReadOptions()), str(p))
