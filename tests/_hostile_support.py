@@ -394,7 +394,7 @@ def cases() -> list[Case]:
         Case("csv_stamps_1e9_apart", R, _csv(_rows(_time_col(lambda t: np.arange(t.size) * 1e9)), "stamps1e9.csv"), says="time"),
         Case("csv_stamps_1e18", R, _csv(_rows(_time_col(lambda t: 1e18 + np.arange(t.size) * 2e-4)), "stamps1e18.csv"), says="time"),
         Case("csv_rate_1e9", R, _csv(_rows(_time_col(lambda t: np.arange(t.size) * 1e-9)), "rate1e9.csv"), says="rate"),
-        Case("csv_one_hour_gap", R, _csv(_rows(_time_col(_gap)), "gap.csv"), says="gap"),
+        Case("csv_one_hour_gap", A, _csv(_rows(_time_col(_gap)), "gap.csv"), commands=("inspect", "analyze")),
         Case("csv_1mb_header_cell", R, _csv(lambda m, h, r: (m, h + "," + "x" * 1_000_000, r), "huge_header.csv")),
         Case("csv_5000_columns", R, _csv(_many_columns, "cols5000.csv")),
         Case("csv_control_in_header", R, _csv(lambda m, h, r: (m, h.replace("Ic (A)", "I\x1b[31mc"), r), "ctrl_header.csv")),

@@ -165,3 +165,27 @@ def system_values(options: ReadOptions, mapping: Mapping, meta: dict[str, str], 
     if wiring not in ("3-wire", "4-wire"):
         raise CaptureReadError(src, "wiring", f"{wiring!r} must be '3-wire' or '4-wire'")
     return {"nominal_frequency_hz": fnom, "nominal_voltage_v": vnom, "wiring": wiring}
+
+
+def start_plus(base: _dt.datetime, seconds: float, source: str | Path, where: str) -> _dt.datetime:
+    """``base`` plus the first time stamp ``seconds``, within `START_YEARS`; a `CaptureReadError` when out of range."""
+    try:
+        if not math.isfinite(seconds) or abs(seconds) > 1e10:
+            raise OverflowError
+        t = base + _dt.timedelta(seconds=float(seconds))
+    except (OverflowError, ValueError):
+        raise CaptureReadError(source, where, f"time stamp {seconds:g} s is out of range (more than 300 years from the start)") from None
+    return plausible_start(t, source, where)
+
+
+def checked_capture(file: str | Path, /, **fields: Any) -> Any:
+    """A `waveforms.capture.Capture` whose rate and start are checked first; its own errors name the file."""
+    from ..capture import Capture
+    from ..errors import InvalidParameterError
+
+    fields["sample_rate_hz"] = check_sample_rate(fields["sample_rate_hz"], file, "time base")
+    plausible_start(fields["start_time"], file, "start time")
+    try:
+        return Capture(**fields)
+    except (InvalidParameterError, OverflowError) as e:
+        raise CaptureReadError(file, "", str(e)) from None

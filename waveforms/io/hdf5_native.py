@@ -205,6 +205,11 @@ def read_native(path: Path, options: ReadOptions | None = None) -> Capture:
     `CaptureReadError` naming the attribute or dataset.
     """
     options = options or ReadOptions()
+    if options.mapping and (options.mapping.get("channels") or options.mapping.get("ignore")):
+        names = sorted(options.mapping.get("channels") or {}) + list(options.mapping.get("ignore") or [])
+        raise CaptureReadError(path, f"mapping from {options.mapping_source or 'the options'}",
+                               f"a native capture describes its own channels; --map/--unit/--ratio/--ignore ({', '.join(map(str, names))}) "
+                               "do not apply to it (convert the source file again with the mapping instead)")
     try:
         fh = h5py.File(path, "r")
     except OSError as e:
