@@ -44,6 +44,8 @@ class Case:
     args: dict[str, list[str]] = dataclasses.field(default_factory=dict)
     #: text the one-line message must hold besides the file name (lower case)
     says: str = ""
+    #: why the case is known to fail still (an expected failure, strict: it is flagged once it passes)
+    known_gap: str = ""
 
 
 # -- base files --------------------------------------------------------------------------------
@@ -86,7 +88,7 @@ def _csv_parts(folder: Path) -> tuple[list[str], str, list[str]]:
 def _write_csv(folder: Path, name: str, meta: list[str], header: str, rows: list[str], encoding: str = "utf-8",
                newline: str = "\n") -> Path:
     out = folder / name
-    out.write_bytes(newline.join(meta + [header] + rows).encode(encoding) + newline.encode(encoding))
+    out.write_bytes((newline.join(meta + [header] + rows) + newline).encode(encoding))
     return out
 
 
@@ -394,7 +396,8 @@ def cases() -> list[Case]:
         Case("csv_stamps_1e9_apart", R, _csv(_rows(_time_col(lambda t: np.arange(t.size) * 1e9)), "stamps1e9.csv"), says="time"),
         Case("csv_stamps_1e18", R, _csv(_rows(_time_col(lambda t: 1e18 + np.arange(t.size) * 2e-4)), "stamps1e18.csv"), says="time"),
         Case("csv_rate_1e9", R, _csv(_rows(_time_col(lambda t: np.arange(t.size) * 1e-9)), "rate1e9.csv"), says="rate"),
-        Case("csv_one_hour_gap", A, _csv(_rows(_time_col(_gap)), "gap.csv"), commands=("inspect", "analyze")),
+        Case("csv_one_hour_gap", A, _csv(_rows(_time_col(_gap)), "gap.csv"), commands=("inspect", "analyze"),
+             known_gap="a time-stamp gap does not yet split the analysis: events are still built across it (issue 20 item 2)"),
         Case("csv_1mb_header_cell", R, _csv(lambda m, h, r: (m, h + "," + "x" * 1_000_000, r), "huge_header.csv")),
         Case("csv_5000_columns", R, _csv(_many_columns, "cols5000.csv")),
         Case("csv_control_in_header", R, _csv(lambda m, h, r: (m, h.replace("Ic (A)", "I\x1b[31mc"), r), "ctrl_header.csv")),
@@ -409,7 +412,7 @@ def cases() -> list[Case]:
         Case("csv_1e300", M, _csv(_rows(_cells(2000, 2200, 1, "1e300")), "e300.csv")),
         Case("csv_bom", A, _csv(lambda m, h, r: (m, h, r), "bom.csv", encoding="utf-8-sig")),
         Case("csv_crlf", A, _csv(lambda m, h, r: (m, h, r), "crlf.csv", newline="\r\n")),
-        Case("csv_utf16", A, _csv(lambda m, h, r: (m, h, r), "utf16.csv", encoding="utf-16")),
+        Case("csv_utf16", R, _csv(lambda m, h, r: (m, h, r), "utf16.csv", encoding="utf-16"), says="utf-16"),
         Case("csv_1mb_comment_line", A, _csv(_meta(lambda m: m + ["# note: " + "y" * 1_000_000]), "long_comment.csv")),
         Case("csv_osc_in_metadata", A, _csv(_meta(lambda m: m + ["# site: \x1b]0;owned\x07 yard"]), "osc_meta.csv")),
         # paths
@@ -423,8 +426,8 @@ def cases() -> list[Case]:
         ("opt_nominal_voltage_zero", ["--nominal-voltage", "0"], "nominal"),
         ("opt_nominal_voltage_nan", ["--nominal-voltage", "nan"], "nominal"),
         ("opt_rate_1e15", ["--rate", "1e15"], "rate"),
-        ("opt_unit_unknown", ["--unit", "Va=furlong"], "furlong"),
-        ("opt_map_unknown_column", ["--map", "nope=Va"], "nope"),
+        ("opt_unit_unknown", ["--unit", "Va=furlong"], "do not apply"),
+        ("opt_map_unknown_column", ["--map", "nope=Va"], "do not apply"),
         ("opt_ratio_unknown_channel", ["--ratio", "Iz=400:5"], "iz"),
     ]
     for name, args, says in opt:
@@ -439,10 +442,10 @@ def cases() -> list[Case]:
                              ("opt_stem_separator", ["--stem", "a/b"], "stem")]:
         out.append(Case(name, R, lambda folder: base_h5(folder, "capture.h5"), commands=("measure",), args={"measure": args}, says=says))
     recipes = [
-        ("recipe_dip_threshold_negative", "[recipe]\nstages = [\"import\", \"measure\", \"detect\", \"report\"]\n[detect]\ndip_threshold_pct = -50\n", "dip_threshold_pct"),
-        ("recipe_threshold_db_inf", "[recipe]\nstages = [\"import\", \"measure\", \"speed\", \"report\"]\n[speed]\nthreshold_db = inf\n", "threshold_db"),
-        ("recipe_unknown_stage", "[recipe]\nstages = [\"import\", \"teleport\"]\n", "teleport"),
-        ("recipe_wrong_type", "[recipe]\nstages = \"import\"\n", "stages"),
+        ("recipe_dip_threshold_negative", "[recipe]\nname = \"bad\"\nstages = [\"import\", \"measure\", \"detect\", \"report\"]\n[detect]\ndip_threshold_pct = -50\n", "dip_threshold_pct"),
+        ("recipe_threshold_db_inf", "[recipe]\nname = \"bad\"\nstages = [\"import\", \"measure\", \"speed\", \"detect\", \"report\"]\n[speed]\nthreshold_db = inf\n", "threshold_db"),
+        ("recipe_unknown_stage", "[recipe]\nname = \"bad\"\nstages = [\"import\", \"teleport\"]\n", "teleport"),
+        ("recipe_wrong_type", "[recipe]\nname = \"bad\"\nstages = \"import\"\n", "stages"),
         ("recipe_not_toml", "[recipe\nstages = \n", "toml"),
     ]
     for name, body, says in recipes:

@@ -90,7 +90,8 @@ def base_events(tmp_path_factory) -> dict[str, list[tuple[str, str]]]:
     return found
 
 
-@pytest.mark.parametrize("case", CASES, ids=[c.name for c in CASES])
+@pytest.mark.parametrize("case", [pytest.param(c, marks=pytest.mark.xfail(reason=c.known_gap, strict=True)) if c.known_gap else c
+                                  for c in CASES], ids=[c.name for c in CASES])
 def test_hostile_input(case: Case, tmp_path: Path, base_events) -> None:
     folder = tmp_path / "case"
     folder.mkdir()

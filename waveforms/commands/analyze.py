@@ -53,7 +53,7 @@ def _reading(rec: Recipe, fmt: str | None, options: ReadOptions) -> tuple[str | 
 
 
 @click.command("analyze")
-@click.argument("capture", type=click.Path(dir_okay=False))
+@click.argument("capture", type=click.Path())
 @click.option("--motor", "motor", type=click.Path(dir_okay=False), help="Motor nameplate TOML file (default: the one stored in the capture, if any).")
 @click.option("--out", "out_dir", required=True, type=click.Path(file_okay=False), help="Folder for result.json, events.csv and report.html.")
 @click.option("--recipe", "recipe_name", default=DEFAULT_RECIPE, show_default=True, metavar="NAME|FILE",

@@ -12,7 +12,7 @@ from .readopts import default_threads, options_from, read_options, safe_stem, th
 
 
 @click.command("measure")
-@click.argument("source", type=click.Path(dir_okay=False))
+@click.argument("source", type=click.Path())
 @click.option("--out", "out_dir", required=True, type=click.Path(file_okay=False), help="Folder for the tables.")
 @click.option("--stem", help="File-name stem of the outputs (default: the capture's file name).")
 @click.option("--csv/--no-csv", "csv", default=True, show_default=True, help="Also write CSV beside Parquet.")

@@ -47,6 +47,9 @@ if TYPE_CHECKING:  # pandas is imported where ISO stamps are parsed: a numeric C
     import pandas as pd
 
 HEAD_BYTES = 1 << 16
+#: Lines wanted in the head of a file, and the most bytes read to find them.
+HEAD_LINES = 50
+HEAD_BYTES_MAX = 1 << 24
 DELIMITERS = ("\t", ";", ",")
 _NUM_RE = {
     ".": re.compile(r"^\s*[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?\s*$|^\s*$|^\s*[+-]?(nan|NaN|inf|Inf)\s*$"),
@@ -79,9 +82,17 @@ def _head_text(path: Path, encoding: str | None) -> tuple[str, str, bool]:
     try:
         with open(path, "rb") as fh:
             raw = fh.read(HEAD_BYTES)
+            # a very long line (a 1 MB comment) must not hide the data rows: read on, in bounded steps
+            while raw.count(b"\n") < HEAD_LINES and len(raw) < HEAD_BYTES_MAX:
+                more = fh.read(HEAD_BYTES * 4)
+                if not more:
+                    break
+                raw += more
             whole = len(fh.read(1)) == 0
     except OSError as e:
         raise CaptureReadError(path, "", f"cannot be opened ({e.strerror or e})") from None
+    if raw[:2] in (b"\xff\xfe", b"\xfe\xff"):
+        raise CaptureReadError(path, "", "is UTF-16 text; save it as UTF-8 (or plain ASCII) delimited text and read it again")
     if b"\x00" in raw:
         raise CaptureReadError(path, "", "contains NUL bytes: a binary file, not delimited text (use --format)")
     if not whole:

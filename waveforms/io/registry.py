@@ -288,6 +288,8 @@ def read_capture(
     """
     p = Path(path)
     if not p.exists():
+        if p.is_symlink():
+            raise CaptureReadError(p, "", "a symbolic link that leads nowhere (a loop, or its target is missing)")
         raise CaptureReadError(p, "", "file not found")
     if p.is_dir():
         raise CaptureReadError(p, "", "is a folder, not a capture file")
