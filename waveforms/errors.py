@@ -38,7 +38,7 @@ class CaptureReadError(WaveformsError):
         super().__init__(f"{self.path}{place}: {self.problem}")
 
 
-def _clip(text: str, limit: int = 300) -> str:
+def _clip(text: str, limit: int = 1000) -> str:
     """A message part of at most ``limit`` characters (a 1 MB column name must not become a 1 MB line)."""
     return text if len(text) <= limit else text[: limit - 30] + f"... ({len(text)} characters)"
 
