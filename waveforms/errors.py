@@ -32,10 +32,15 @@ class CaptureReadError(WaveformsError):
     def __init__(self, path: str | PathLike[str], where: str, problem: str) -> None:
         self.path = str(path)
         # one line always: a library's message quoted in ``problem`` may hold line breaks
-        self.where = " | ".join(s.strip() for s in str(where).splitlines() if s.strip())
-        self.problem = " | ".join(s.strip() for s in str(problem).splitlines() if s.strip())
+        self.where = _clip(" | ".join(s.strip() for s in str(where).splitlines() if s.strip()))
+        self.problem = _clip(" | ".join(s.strip() for s in str(problem).splitlines() if s.strip()))
         place = f": {self.where}" if self.where else ""
         super().__init__(f"{self.path}{place}: {self.problem}")
+
+
+def _clip(text: str, limit: int = 1000) -> str:
+    """A message part of at most ``limit`` characters (a 1 MB column name must not become a 1 MB line)."""
+    return text if len(text) <= limit else text[: limit - 30] + f"... ({len(text)} characters)"
 
 
 class MappingError(CaptureReadError):

@@ -107,6 +107,8 @@ def problem_with(kind: str, rule: Rule, value: Any) -> str | None:
     if kind in ("int", "float"):
         if value != value:
             return "NaN is not allowed"
+        if value in (float("inf"), float("-inf")):
+            return f"{value!r} is not allowed: give a finite number"
         if rule.minimum is not None and value < rule.minimum:
             return f"{value!r} is below the minimum {rule.minimum:g}"
         if rule.maximum is not None and value > rule.maximum:

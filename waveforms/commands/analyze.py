@@ -23,7 +23,8 @@ from ..errors import InvalidParameterError
 from ..io.registry import ReadOptions
 from ..motor.nameplate import load_nameplate
 from ..recipe import DEFAULT_RECIPE, Recipe, RecipeError, load_recipe, run_recipe
-from .readopts import default_threads, options_from, read_options, threads_option
+from ..terminal import terminal_text
+from .readopts import default_threads, options_from, positive_option, read_options, threads_option
 
 
 def _set(rec: Recipe, stage: str, values: dict[str, Any], option: str) -> Recipe:
@@ -52,7 +53,7 @@ def _reading(rec: Recipe, fmt: str | None, options: ReadOptions) -> tuple[str | 
 
 
 @click.command("analyze")
-@click.argument("capture", type=click.Path(dir_okay=False))
+@click.argument("capture", type=click.Path())
 @click.option("--motor", "motor", type=click.Path(dir_okay=False), help="Motor nameplate TOML file (default: the one stored in the capture, if any).")
 @click.option("--out", "out_dir", required=True, type=click.Path(file_okay=False), help="Folder for result.json, events.csv and report.html.")
 @click.option("--recipe", "recipe_name", default=DEFAULT_RECIPE, show_default=True, metavar="NAME|FILE",
@@ -88,6 +89,9 @@ def command(capture: str, motor: str | None, out_dir: str, recipe_name: str, no_
     if hot_start and cold_start:
         raise InvalidParameterError("--hot-start and --cold-start: give one of them, not both")
     fmt, options = options_from(kw)
+    for value, opt, unit in ((speed_window_s, "--speed-window", "s"), (motor_tau_s, "--motor-tau", "s"),
+                             (k_neg, "--k-neg", "1"), (relay_setting_a, "--relay-setting", "A")):
+        positive_option(value, opt, unit)
     out = Path(out_dir)
     if out.exists() and not out.is_dir():
         raise InvalidParameterError(f"--out {out}: is a file, not a folder")
@@ -127,9 +131,9 @@ def command(capture: str, motor: str | None, out_dir: str, recipe_name: str, no_
     plate = load_nameplate(motor) if motor else None
     state = run_recipe(rec, cap, nameplate=plate, out_dir=out, nameplate_source=motor or "",
                        threads=threads or default_threads())
-    click.echo(state.verdict)
+    click.echo(terminal_text(state.verdict, keep_newlines=True))
     click.echo("")
     for p in state.outputs.values():
-        click.echo(f"wrote {p}")
+        click.echo(terminal_text(f"wrote {p}"))
     click.echo("")
     click.echo(SAFETY_CAUTIONS[-1])

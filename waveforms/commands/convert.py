@@ -16,7 +16,7 @@ from .readopts import options_from, read_options
 
 
 @click.command("convert")
-@click.argument("source", type=click.Path(dir_okay=False))
+@click.argument("source", type=click.Path())
 @click.argument("target", type=click.Path(dir_okay=False))
 @click.option("--float32", is_flag=True, help="Store samples as float32 in HDF5 (half the size, ~7 significant digits).")
 @click.option("--compression", type=click.Choice(["gzip", "lzf", "none"]), default="gzip", show_default=True, help="HDF5 compression.")

@@ -16,6 +16,7 @@ import click
 from ..errors import WaveformsError
 from ..io.registry import read_capture
 from ..quality import channel_stat_records, quality_notes
+from ..terminal import terminal_text
 from .readopts import options_from, read_options
 
 
@@ -110,11 +111,11 @@ def command(files: tuple[str, ...], as_json: bool, **kw: Any) -> None:
             failed += 1
             results.append({"file": f, "error": str(err)})
             if not as_json:
-                click.echo(f"error: {err}", err=True)
+                click.echo(terminal_text(f"error: {err}"), err=True)
             continue
         results.append(r)
         if not as_json:
-            click.echo(render_text(r) + "\n")
+            click.echo(terminal_text(render_text(r), keep_newlines=True) + "\n")
     if as_json:
         click.echo(json.dumps(_clean(results), indent=2, default=str, allow_nan=False))
     if failed:

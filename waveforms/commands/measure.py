@@ -7,11 +7,12 @@ from typing import Any
 import click
 
 from ..measure.output import write_measurements
-from .readopts import default_threads, options_from, read_options, threads_option
+from ..terminal import terminal_text
+from .readopts import default_threads, options_from, read_options, safe_stem, threads_option
 
 
 @click.command("measure")
-@click.argument("source", type=click.Path(dir_okay=False))
+@click.argument("source", type=click.Path())
 @click.option("--out", "out_dir", required=True, type=click.Path(file_okay=False), help="Folder for the tables.")
 @click.option("--stem", help="File-name stem of the outputs (default: the capture's file name).")
 @click.option("--csv/--no-csv", "csv", default=True, show_default=True, help="Also write CSV beside Parquet.")
@@ -29,6 +30,7 @@ def command(source: str, out_dir: str, stem: str | None, csv: bool, intervals: t
     The figures inform; they do not replace protective devices or a qualified
     person's judgement on site.
     """
+    stem = safe_stem(stem)
     format_name, options = options_from(kw)
     from ..io.csv_stream import open_capture
 
@@ -37,6 +39,6 @@ def command(source: str, out_dir: str, stem: str | None, csv: bool, intervals: t
     res = write_measurements(cap, out_dir, stem=stem, formats=formats, chunk_samples=chunk_samples,
                              intervals=tuple(intervals), threads=threads or default_threads())
     rows = ", ".join(f"{k} {v}" for k, v in res["rows"].items())
-    click.echo(f"measured {source}: {rows} rows; reference {res['info']['reference']}")
+    click.echo(terminal_text(f"measured {source}: {rows} rows; reference {res['info']['reference']}"))
     for f in res["files"]:
-        click.echo(f"wrote {f}")
+        click.echo(terminal_text(f"wrote {f}"))

@@ -9,6 +9,7 @@
 from __future__ import annotations
 
 import datetime as _dt
+import math
 from collections.abc import Callable
 from typing import Any
 
@@ -17,6 +18,30 @@ import click
 from ..errors import InvalidParameterError
 from ..io.mapping import load_mapping_file, merge_mappings, parse_mapping
 from ..io.registry import ReadOptions, importer_names
+
+
+#: Highest sample rate accepted [Hz] (common practice, no source: waveform recorders sample at
+#: kHz to a few MHz; beyond this a value is a mistake in the file or the option).
+MAX_RATE_HZ = 1e8
+
+
+def positive_option(value: float | None, option: str, unit: str) -> float | None:
+    """``value`` when it is a finite positive number (or None), else a one-line error naming the option."""
+    if value is not None and not (math.isfinite(value) and value > 0):
+        raise InvalidParameterError(f"{option} {value!r}: must be a finite positive number [{unit}]")
+    return value
+
+
+def safe_stem(stem: str | None) -> str | None:
+    """A ``--stem`` that stays a file name inside the output folder: no separator, no absolute path, no ``..``."""
+    if stem is None:
+        return None
+    bad = (not stem.strip() or "/" in stem or "\\" in stem or stem in (".", "..") or stem.startswith("~")
+           or any(ord(c) < 32 for c in stem) or ":" in stem)
+    if bad:
+        raise InvalidParameterError(f"--stem {stem!r}: must be a plain file-name stem (no path separator, "
+                                    "no absolute path, no '..'); outputs are always written inside --out")
+    return stem
 
 
 def _pairs(values: tuple[str, ...], option: str) -> list[tuple[str, str]]:
@@ -103,13 +128,16 @@ def options_from(kw: dict[str, Any]) -> tuple[str | None, ReadOptions]:
         if start_time.tzinfo is None:
             raise InvalidParameterError(f"--start {start!r} needs a UTC offset (e.g. +01:00 or Z)")
     rate = kw.pop("rate_hz", None)
-    if rate is not None and not rate > 0:
-        raise InvalidParameterError(f"--rate {rate!r} must be positive")
+    if rate is not None and not (math.isfinite(rate) and 0 < rate <= MAX_RATE_HZ):
+        raise InvalidParameterError(f"--rate {rate!r}: must be a sample rate above 0 and at most {MAX_RATE_HZ:g} Hz")
     fnom = kw.pop("nominal_frequency_hz", None)
+    vnom = kw.pop("nominal_voltage_v", None)
+    if vnom is not None and not (math.isfinite(vnom) and vnom > 0):
+        raise InvalidParameterError(f"--nominal-voltage {vnom!r}: must be a positive line-to-line RMS voltage [V]")
     opts = ReadOptions(
         mapping=mapping, mapping_source=source, sample_rate_hz=rate, start_time=start_time,
         nominal_frequency_hz=None if fnom is None else float(fnom),
-        nominal_voltage_v=kw.pop("nominal_voltage_v", None), wiring=kw.pop("wiring", None),
+        nominal_voltage_v=vnom, wiring=kw.pop("wiring", None),
         resample=bool(kw.pop("resample", False)),
     )
     return kw.pop("format_name", None), opts

@@ -10,6 +10,7 @@ another importer's private ones.
 from __future__ import annotations
 
 import datetime as _dt
+import math
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -73,7 +74,36 @@ def parse_start_time(text: str, source: str, where: str) -> _dt.datetime:
         raise CaptureReadError(source, where, f"{text!r} is not an ISO 8601 time") from None
     if t.tzinfo is None:
         raise CaptureReadError(source, where, f"{text!r} has no UTC offset (write e.g. '+01:00' or 'Z')")
+    return plausible_start(t, source, where)
+
+
+#: Years a capture may start in (common practice, no source: before 1900 or after 2200 a stamp is a broken clock,
+#: and the end of a capture must stay inside the calendar the program computes with).
+START_YEARS = (1900, 2200)
+#: Highest sample rate an importer accepts [Hz] (common practice, no source: waveform recorders sample at kHz to a
+#: few MHz; far beyond, the value is a mistake in the file).
+MAX_SAMPLE_RATE_HZ = 1e8
+
+
+def plausible_start(t: _dt.datetime, source: str | Path, where: str) -> _dt.datetime:
+    """``t`` when its year is within `START_YEARS`, else a `CaptureReadError` naming the place."""
+    if not START_YEARS[0] <= t.year <= START_YEARS[1]:
+        raise CaptureReadError(source, where, f"start time {t.isoformat()} is outside the years "
+                                              f"{START_YEARS[0]}-{START_YEARS[1]} (a logger clock not set?)")
     return t
+
+
+def check_sample_rate(rate: object, source: str | Path, where: str) -> float:
+    """A finite sample rate above 0 and at most `MAX_SAMPLE_RATE_HZ`, else a `CaptureReadError` naming the place."""
+    try:
+        r = float(rate)  # type: ignore[arg-type]
+    except (TypeError, ValueError):
+        raise CaptureReadError(source, where, f"sample rate {rate!r} is not a number") from None
+    if not (math.isfinite(r) and 0 < r <= MAX_SAMPLE_RATE_HZ):
+        raise CaptureReadError(source, where, f"sample rate {r:g} Hz must be above 0 and at most {MAX_SAMPLE_RATE_HZ:g} Hz")
+    if r < 100.0:
+        raise CaptureReadError(source, where, f"sample rate {r:g} Hz is too low for a 50/60 Hz waveform (at least 100 Hz)")
+    return r
 
 
 def infer_nominal_frequency_of(specs: list, values: np.ndarray, rate: float) -> tuple[float | None, str]:
@@ -135,3 +165,27 @@ def system_values(options: ReadOptions, mapping: Mapping, meta: dict[str, str], 
     if wiring not in ("3-wire", "4-wire"):
         raise CaptureReadError(src, "wiring", f"{wiring!r} must be '3-wire' or '4-wire'")
     return {"nominal_frequency_hz": fnom, "nominal_voltage_v": vnom, "wiring": wiring}
+
+
+def start_plus(base: _dt.datetime, seconds: float, source: str | Path, where: str) -> _dt.datetime:
+    """``base`` plus the first time stamp ``seconds``, within `START_YEARS`; a `CaptureReadError` when out of range."""
+    try:
+        if not math.isfinite(seconds) or abs(seconds) > 1e10:
+            raise OverflowError
+        t = base + _dt.timedelta(seconds=float(seconds))
+    except (OverflowError, ValueError):
+        raise CaptureReadError(source, where, f"time stamp {seconds:g} s is out of range (more than 300 years from the start)") from None
+    return plausible_start(t, source, where)
+
+
+def checked_capture(file: str | Path, /, **fields: Any) -> Any:
+    """A `waveforms.capture.Capture` whose rate and start are checked first; its own errors name the file."""
+    from ..capture import Capture
+    from ..errors import InvalidParameterError
+
+    fields["sample_rate_hz"] = check_sample_rate(fields["sample_rate_hz"], file, "time base")
+    plausible_start(fields["start_time"], file, "start time")
+    try:
+        return Capture(**fields)
+    except (InvalidParameterError, OverflowError) as e:
+        raise CaptureReadError(file, "", str(e)) from None

@@ -36,7 +36,7 @@ from ..atomic import same_file
 from ..capture import Capture, Gap, Provenance
 from ..errors import CaptureReadError, InvalidParameterError, WriteError
 from ..hashing import sha256_file
-from .common import EPOCH, system_values
+from .common import EPOCH, checked_capture, start_plus, system_values
 from .delimited import Plan, iso_to_ns, line_of_row, ns_to_datetime, plan_read
 from .hdf5_native import native_header, write_native_blocks
 from .mapping import mapping_record, parse_mapping
@@ -276,10 +276,10 @@ def convert_csv_to_native(
                 unit = state.get("unit")
                 timebase_record["time"] = {"column": plan.time_col, "format": "seconds", "unit": unit or "s"}
                 if plan.start is None:
-                    start = EPOCH + _dt.timedelta(seconds=state["t_first_s"])
+                    start = start_plus(EPOCH, state["t_first_s"], src_path, "first time stamp")
                     notes.append("absolute start time not given; start set to 1970-01-01T00:00:00+00:00 plus the first time stamp (times are relative)")
                 else:
-                    start = plan.start + _dt.timedelta(seconds=state["t_first_s"])
+                    start = start_plus(plan.start, state["t_first_s"], src_path, "first time stamp")
             timebase_record["timebase"] = rep.to_dict()
             if rep.jitter_fraction > 0.01:
                 notes.append(f"time stamps jitter by up to {rep.jitter_max_s * 1e6:.3g} us ({100 * rep.jitter_fraction:.2g} % of a sample period); samples placed on the nearest point of a uniform {rate:g} Hz grid")
@@ -304,8 +304,8 @@ def convert_csv_to_native(
         })
         prov = Provenance(source_path=str(src_path), sha256=digest.result(), importer="csv", mapping=record,
                           notes=tuple(notes), history=tuple(history))
-        cap = Capture(channels=tuple(s.channel() for s in specs), source=_LengthOnly(n_written, n_ch), sample_rate_hz=float(rate),
-                      start_time=start, provenance=prov, gaps=gaps, **system)
+        cap = checked_capture(src_path, channels=tuple(s.channel() for s in specs), source=_LengthOnly(n_written, n_ch),
+                              sample_rate_hz=float(rate), start_time=start, provenance=prov, gaps=gaps, **system)
         state["summary"] = {"n_samples": n_written, "sample_rate_hz": float(rate), "n_channels": n_ch, "gaps": len(gaps),
                             "capture": cap}
         return {k: v for k, v in native_header(cap).items() if k != "n_samples"}
@@ -432,5 +432,7 @@ def open_capture(path: str | os.PathLike[str], format: str | None = None, option
     if not options.resample and p.is_file() and p.stat().st_size >= max(1, stream_min_bytes):
         name = format if format is not None else detect_format(p).name
         if name == "csv":
-            return spooled_capture(p, options)
+            from .masking import mask_broken
+
+            return mask_broken(spooled_capture(p, options), str(p))
     return read_capture(p, format, options)

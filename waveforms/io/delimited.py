@@ -37,7 +37,7 @@ from ..errors import CaptureReadError, MappingError, positive_number
 from ..hashing import sha256_file
 from .. import timebase
 from . import metadata as md
-from .common import EPOCH, one_line, parse_start_time, parse_utc_offset, system_values
+from .common import EPOCH, checked_capture, one_line, parse_start_time, parse_utc_offset, start_plus, system_values
 from .mapping import (
     TIME_UNITS, UNIT_RE, Mapping, is_time_header, split_unit, mapping_record, parse_mapping, resolve_channels, suggest, time_header_unit, time_unit_factor,
 )
@@ -47,6 +47,9 @@ if TYPE_CHECKING:  # pandas is imported where ISO stamps are parsed: a numeric C
     import pandas as pd
 
 HEAD_BYTES = 1 << 16
+#: Lines wanted in the head of a file, and the most bytes read to find them.
+HEAD_LINES = 50
+HEAD_BYTES_MAX = 1 << 24
 DELIMITERS = ("\t", ";", ",")
 _NUM_RE = {
     ".": re.compile(r"^\s*[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?\s*$|^\s*$|^\s*[+-]?(nan|NaN|inf|Inf)\s*$"),
@@ -79,9 +82,17 @@ def _head_text(path: Path, encoding: str | None) -> tuple[str, str, bool]:
     try:
         with open(path, "rb") as fh:
             raw = fh.read(HEAD_BYTES)
+            # a very long line (a 1 MB comment) must not hide the data rows: read on, in bounded steps
+            while raw.count(b"\n") < HEAD_LINES and len(raw) < HEAD_BYTES_MAX:
+                more = fh.read(HEAD_BYTES * 4)
+                if not more:
+                    break
+                raw += more
             whole = len(fh.read(1)) == 0
     except OSError as e:
         raise CaptureReadError(path, "", f"cannot be opened ({e.strerror or e})") from None
+    if raw[:2] in (b"\xff\xfe", b"\xfe\xff"):
+        raise CaptureReadError(path, "", "is UTF-16 text; save it as UTF-8 (or plain ASCII) delimited text and read it again")
     if b"\x00" in raw:
         raise CaptureReadError(path, "", "contains NUL bytes: a binary file, not delimited text (use --format)")
     if not whole:
@@ -586,10 +597,10 @@ def _read_csv(path: Path, options: ReadOptions, mapping: Mapping, digest: concur
             t_s = raw * time_unit_factor(unit, path, f"line {layout.header_index + 1}, {where_t}")
             timebase_record["time"] = {"column": time_col, "format": "seconds", "unit": unit or "s"}
             if start is None:
-                start = EPOCH + _dt.timedelta(seconds=float(t_s[0]))
+                start = start_plus(EPOCH, float(t_s[0]), path, f"line {layout.header_index + 2}, {where_t}")
                 notes.append("absolute start time not given; start set to 1970-01-01T00:00:00+00:00 plus the first time stamp (times are relative)")
             else:
-                start = start + _dt.timedelta(seconds=float(t_s[0]))
+                start = start_plus(start, float(t_s[0]), path, f"line {layout.header_index + 2}, {where_t}")
         if t_s.size < 2:
             raise CaptureReadError(path, f"line {layout.header_index + 2}", "only one data row; cannot find a sample rate")
         rep = timebase.analyse_stamps(t_s)
@@ -637,8 +648,8 @@ def _read_csv(path: Path, options: ReadOptions, mapping: Mapping, digest: concur
     })
     prov = Provenance(source_path=str(path), sha256=digest.result(), importer="csv", mapping=record,
                       notes=tuple(notes), history=tuple(history))
-    return Capture(
-        channels=tuple(s.channel() for s in specs), source=ArraySource(values), sample_rate_hz=float(rate),
+    return checked_capture(
+        path, channels=tuple(s.channel() for s in specs), source=ArraySource(values), sample_rate_hz=float(rate),
         start_time=start, provenance=prov, gaps=tuple(gaps), **capture_meta,
     )
 

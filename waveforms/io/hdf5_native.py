@@ -39,9 +39,10 @@ import numpy as np
 
 from ..atomic import atomic_path, same_file
 from ..capture import Capture, Channel, Gap, Provenance
-from ..errors import CaptureReadError, WriteError
+from ..errors import CaptureReadError, InvalidParameterError, WriteError
 from ..hashing import sha256_file
 from ..motor.nameplate import Nameplate  # a plain record (imports only errors, tomlfile): io may use it
+from .common import check_sample_rate, parse_start_time
 from .registry import ReadOptions
 
 FORMAT_NAME = "motor-waveforms capture"
@@ -128,67 +129,194 @@ def sniff_native(path: Path) -> bool:
         return False
 
 
+def _whole(value: Any, path: Path, where: str) -> int:
+    try:
+        f = float(value)
+    except (TypeError, ValueError):
+        raise CaptureReadError(path, where, f"{value!r} is not a whole number") from None
+    if not (math.isfinite(f) and f == int(f)):
+        raise CaptureReadError(path, where, f"{value!r} is not a whole number")
+    return int(f)
+
+
+def _json_attr(a: Any, key: str, default: str, path: Path, want: type) -> Any:
+    text = _attr_str(a, key, default) or default
+    try:
+        v = json.loads(text)
+    except ValueError as e:
+        raise CaptureReadError(path, f"attribute /{key}", f"not valid JSON ({e})") from None
+    if not isinstance(v, want):
+        raise CaptureReadError(path, f"attribute /{key}", f"must be a JSON {'object' if want is dict else 'list'}")
+    return v
+
+
+def _gaps(raw: list[Any], n: int, path: Path) -> tuple[Gap, ...]:
+    out = []
+    for i, g in enumerate(raw):
+        ok = isinstance(g, list) and len(g) == 3 and all(isinstance(x, int) for x in g[:2]) and 0 <= g[0] < g[1] <= n
+        if not ok:
+            raise CaptureReadError(path, f"attribute /gaps, entry {i}", f"{str(g)[:80]} is not [start, stop, reason] within 0-{n}")
+        out.append(Gap(int(g[0]), int(g[1]), str(g[2])))
+    return tuple(out)
+
+
+def _check_dataset(fh: h5py.File, name: str, path: Path) -> Any:
+    """The dataset /channels/NAME after checking it is a real, 1-D, numeric dataset (links are not followed)."""
+    where = f"dataset /channels/{name}"
+    link = fh["channels"].get(name, getlink=True)
+    if not isinstance(link, h5py.HardLink):
+        raise CaptureReadError(path, where, f"is a {type(link).__name__}; links are not followed (store the samples in the file)")
+    ds = fh["channels"][name]
+    if not isinstance(ds, h5py.Dataset):
+        raise CaptureReadError(path, where, "is a group, not a dataset")
+    if ds.ndim != 1:
+        raise CaptureReadError(path, where, f"must be 1-D, has shape {ds.shape}")
+    if ds.dtype.kind not in "fiu":
+        raise CaptureReadError(path, where, f"holds {ds.dtype} values, not numbers")
+    return ds
+
+
+def _check_stored(ds: Any, n: int, path: Path, name: str) -> None:
+    """Refuse a dataset that declares more samples than the file stores (read back, they would be fill values)."""
+    if n == 0:
+        return
+    where = f"dataset /channels/{name}"
+    try:
+        if ds.chunks is None:
+            stored = ds.id.get_storage_size()
+            if stored < n * ds.dtype.itemsize and ds.compression is None:
+                raise CaptureReadError(path, where, f"declares {n} samples but the file stores only {stored} bytes of them "
+                                                    "(never written, or truncated)")
+        else:
+            needed = -(-n // ds.chunks[0])
+            have = ds.id.get_num_chunks()
+            if have < needed:
+                raise CaptureReadError(path, where, f"declares {n} samples but only {have} of its {needed} chunks are stored "
+                                                    "(never written, or truncated)")
+    except (AttributeError, TypeError):  # an h5py without these calls: not checked
+        return
+
+
 def read_native(path: Path, options: ReadOptions | None = None) -> Capture:
-    """Open a native HDF5 capture lazily (samples stay on disk until read)."""
+    """Open a native HDF5 capture lazily (samples stay on disk until read).
+
+    Every attribute is checked for its type and range, every dataset for being
+    a stored, 1-D, numeric array of the declared length; anything else is a
+    `CaptureReadError` naming the attribute or dataset.
+    """
     options = options or ReadOptions()
+    if options.mapping and (options.mapping.get("channels") or options.mapping.get("ignore")):
+        names = sorted(options.mapping.get("channels") or {}) + list(options.mapping.get("ignore") or [])
+        raise CaptureReadError(path, f"mapping from {options.mapping_source or 'the options'}",
+                               f"a native capture describes its own channels; --map/--unit/--ratio/--ignore ({', '.join(map(str, names))}) "
+                               "do not apply to it (convert the source file again with the mapping instead)")
     try:
         fh = h5py.File(path, "r")
     except OSError as e:
         raise CaptureReadError(path, "", f"not a readable HDF5 file, truncated or damaged? ({e})") from None
-    with fh:
-        a = fh.attrs
-        if _attr_str(a, "format") != FORMAT_NAME:
-            raise CaptureReadError(path, "attribute /format", f"not a {FORMAT_NAME!r} file; for other HDF5 layouts give a mapping file (format 'hdf5-mapped')")
-        version = int(a.get("format_version", -1))
-        if version != FORMAT_VERSION:
-            raise CaptureReadError(path, "attribute /format_version", f"version {version} is not supported (this program reads {FORMAT_VERSION})")
-        if "channels" not in fh or not len(fh["channels"]):
-            raise CaptureReadError(path, "group /channels", "missing or empty")
-        try:
-            rate = float(a["sample_rate_hz"])
-            start = _dt.datetime.fromisoformat(_attr_str(a, "start_time"))
-        except (KeyError, ValueError) as e:
-            raise CaptureReadError(path, "attributes /sample_rate_hz, /start_time", f"missing or malformed ({e})") from None
-        items = sorted(fh["channels"].items(), key=lambda kv: int(kv[1].attrs.get("order", 0)))
-        channels = []
-        paths = []
-        for name, ds in items:
-            at = ds.attrs
-            try:
-                channels.append(
-                    Channel(
-                        name=name, kind=_attr_str(at, "kind"), conductor=_attr_str(at, "conductor"),  # type: ignore[arg-type]
-                        reference=_attr_str(at, "reference"), unit=_attr_str(at, "unit"),  # type: ignore[arg-type]
-                        source_label=_attr_str(at, "source_label"), scale=float(at.get("scale", 1.0)),
-                    )
-                )
-            except Exception as e:
-                raise CaptureReadError(path, f"dataset /channels/{name}", f"bad channel attributes ({e})") from None
-            if ds.ndim != 1:
-                raise CaptureReadError(path, f"dataset /channels/{name}", f"must be 1-D, has shape {ds.shape}")
-            paths.append(f"/channels/{name}")
-        fnom = float(a.get("nominal_frequency_hz", math.nan))
-        vnom = float(a.get("nominal_voltage_v", math.nan))
-        prov = Provenance.from_dict(json.loads(_attr_str(a, "provenance", "{}") or "{}"))
-        gaps = tuple(Gap(int(g[0]), int(g[1]), str(g[2])) for g in json.loads(_attr_str(a, "gaps", "[]") or "[]"))
-        plate_json = _attr_str(a, "nameplate", "")
-        wiring = _attr_str(a, "wiring", "4-wire")
+    try:
+        with fh:
+            meta = _read_meta(fh, path)
+    except CaptureReadError:
+        raise
+    except (OSError, KeyError, RuntimeError, ValueError, TypeError) as e:  # h5py on a damaged structure
+        raise CaptureReadError(path, "", f"damaged HDF5 structure ({type(e).__name__}: {e})") from None
+    channels, paths, rate, start, fnom, vnom, prov, gaps, plate_json, wiring = meta
     nameplate = None
     if plate_json:
-        nameplate = Nameplate.from_dict({k: v for k, v in json.loads(plate_json).items() if k != "warnings"}, f"{path}:/nameplate")
+        plate = json.loads(plate_json)
+        nameplate = Nameplate.from_dict({k: v for k, v in plate.items() if k != "warnings"}, f"{path}:/nameplate")
     source = HDF5Source(path, paths)
     prov = Provenance(
         source_path=str(path), sha256=sha256_file(path), importer="hdf5-native",
         mapping=prov.mapping, notes=prov.notes,
         history=prov.history + ((f"imported from {prov.source_path} ({prov.importer}, sha256 {prov.sha256[:12]}...)",) if prov.source_path else ()),
     )
-    return Capture(
-        channels=tuple(channels), source=source, sample_rate_hz=rate, start_time=start,
-        nominal_frequency_hz=options.nominal_frequency_hz or (None if math.isnan(fnom) else fnom),
-        nominal_voltage_v=options.nominal_voltage_v or (None if math.isnan(vnom) else vnom),
-        wiring=options.wiring or wiring,  # type: ignore[arg-type]
-        provenance=prov, nameplate=nameplate, gaps=gaps,
-    )
+    try:
+        return Capture(
+            channels=tuple(channels), source=source, sample_rate_hz=rate, start_time=start,
+            nominal_frequency_hz=options.nominal_frequency_hz or (None if math.isnan(fnom) else fnom),
+            nominal_voltage_v=options.nominal_voltage_v or (None if math.isnan(vnom) else vnom),
+            wiring=options.wiring or wiring,  # type: ignore[arg-type]
+            provenance=prov, nameplate=nameplate, gaps=gaps,
+        )
+    except InvalidParameterError as e:
+        raise CaptureReadError(path, "file attributes", str(e)) from None
+
+
+def _read_meta(fh: h5py.File, path: Path) -> tuple[Any, ...]:
+    a = fh.attrs
+    if _attr_str(a, "format") != FORMAT_NAME:
+        raise CaptureReadError(path, "attribute /format", f"not a {FORMAT_NAME!r} file; for other HDF5 layouts give a mapping file (format 'hdf5-mapped')")
+    version = _whole(a.get("format_version", -1), path, "attribute /format_version")
+    if version != FORMAT_VERSION:
+        raise CaptureReadError(path, "attribute /format_version", f"version {version} is not supported (this program reads {FORMAT_VERSION})")
+    if "channels" not in fh or not isinstance(fh["channels"], h5py.Group) or not len(fh["channels"]):
+        raise CaptureReadError(path, "group /channels", "missing or empty")
+    if "sample_rate_hz" not in a:
+        raise CaptureReadError(path, "attribute /sample_rate_hz", "missing")
+    rate = check_sample_rate(a["sample_rate_hz"], path, "attribute /sample_rate_hz")
+    start_raw = a.get("start_time", "")
+    if not isinstance(start_raw, (str, bytes)):
+        raise CaptureReadError(path, "attribute /start_time", f"{start_raw} is not an ISO 8601 time text")
+    start = parse_start_time(_attr_str(a, "start_time"), str(path), "attribute /start_time")
+    names = list(fh["channels"].keys())
+    datasets = {name: _check_dataset(fh, name, path) for name in names}
+    order = {name: _whole(ds.attrs.get("order", 0), path, f"attribute order of dataset /channels/{name}") for name, ds in datasets.items()}
+    lengths = {name: int(ds.shape[0]) for name, ds in datasets.items()}
+    if len(set(lengths.values())) > 1:
+        short = min(lengths, key=lengths.get)  # type: ignore[arg-type]
+        raise CaptureReadError(path, f"dataset /channels/{short}", f"has {lengths[short]} samples, the others "
+                                                                   f"{max(lengths.values())}: every channel must have the same length")
+    n = next(iter(lengths.values()))
+    if "n_samples" in a and _whole(a["n_samples"], path, "attribute /n_samples") != n:
+        raise CaptureReadError(path, "attribute /n_samples", f"says {a['n_samples']} but the datasets hold {n} samples")
+    channels = []
+    paths = []
+    for name in sorted(names, key=lambda k: order[k]):
+        ds = datasets[name]
+        _check_stored(ds, n, path, name)
+        at = ds.attrs
+        try:
+            scale = float(at.get("scale", 1.0))
+        except (TypeError, ValueError):
+            raise CaptureReadError(path, f"attribute scale of dataset /channels/{name}", f"{at.get('scale')!r} is not a number") from None
+        if not (math.isfinite(scale) and scale != 0.0):
+            raise CaptureReadError(path, f"attribute scale of dataset /channels/{name}", f"{scale!r} must be a finite, non-zero number")
+        try:
+            channels.append(
+                Channel(
+                    name=name, kind=_attr_str(at, "kind"), conductor=_attr_str(at, "conductor"),  # type: ignore[arg-type]
+                    reference=_attr_str(at, "reference"), unit=_attr_str(at, "unit"),  # type: ignore[arg-type]
+                    source_label=_attr_str(at, "source_label"), scale=scale,
+                )
+            )
+        except Exception as e:
+            raise CaptureReadError(path, f"dataset /channels/{name}", f"bad channel attributes ({e})") from None
+        paths.append(f"/channels/{name}")
+    fnom = _number_attr(a, "nominal_frequency_hz", path)
+    vnom = _number_attr(a, "nominal_voltage_v", path)
+    if not math.isnan(vnom) and not vnom > 0:
+        raise CaptureReadError(path, "attribute /nominal_voltage_v", f"{vnom!r} must be a positive line-to-line voltage [V]")
+    prov_d = _json_attr(a, "provenance", "{}", path, dict)
+    try:
+        prov = Provenance.from_dict(prov_d)
+    except (TypeError, ValueError, AttributeError) as e:
+        raise CaptureReadError(path, "attribute /provenance", f"malformed ({e})") from None
+    gaps = _gaps(_json_attr(a, "gaps", "[]", path, list), n, path)
+    plate_json = _attr_str(a, "nameplate", "")
+    if plate_json:
+        _json_attr(a, "nameplate", "{}", path, dict)
+    wiring = _attr_str(a, "wiring", "4-wire")
+    return channels, paths, rate, start, fnom, vnom, prov, gaps, plate_json, wiring
+
+
+def _number_attr(a: Any, key: str, path: Path) -> float:
+    v = a.get(key, math.nan)
+    try:
+        return float(v)
+    except (TypeError, ValueError):
+        raise CaptureReadError(path, f"attribute /{key}", f"{v!r} is not a number") from None
 
 
 # -- writing ---------------------------------------------------------------------

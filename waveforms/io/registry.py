@@ -288,6 +288,8 @@ def read_capture(
     """
     p = Path(path)
     if not p.exists():
+        if p.is_symlink():
+            raise CaptureReadError(p, "", "a symbolic link that leads nowhere (a loop, or its target is missing)")
         raise CaptureReadError(p, "", "file not found")
     if p.is_dir():
         raise CaptureReadError(p, "", "is a folder, not a capture file")
@@ -300,4 +302,6 @@ def read_capture(
         imp = _REGISTRY[format]
     else:
         imp = detect_format(p)
-    return imp.read(p, options or ReadOptions())
+    from .masking import mask_broken
+
+    return mask_broken(imp.read(p, options or ReadOptions()), str(p))

@@ -22,7 +22,7 @@ import numpy as np
 import pandas as pd
 
 from ..capture import Capture, Channel, Chunk
-from ..errors import InvalidParameterError
+from ..errors import CaptureReadError, InvalidParameterError
 from . import frequency as fq
 from . import harmonics as hm
 from . import phasor as ph
@@ -203,8 +203,12 @@ def prepare(capture: Capture, nominal_frequency_hz: float | None = None,
 
     The 10-cycle harmonic window at 50 Hz is that of IEC 61000-4-7:2002, 4.4.
     """
-    if capture.n_samples < 4:
-        raise InvalidParameterError(f"capture has {capture.n_samples} samples; too short to measure")
+    f_nom = nominal_frequency_hz or capture.nominal_frequency_hz or 50.0
+    need = max(4, int(np.ceil(2.0 * capture.sample_rate_hz / f_nom)))  # two cycles: one full cycle between crossings
+    if capture.n_samples < need:
+        raise CaptureReadError(capture.provenance.source_path or "capture", "",
+                               f"{capture.n_samples} samples ({capture.n_samples / capture.sample_rate_hz:.3g} s) is too short "
+                               f"to measure: at least two cycles ({need} samples) are needed")
     lay = layout_of(capture)
     level, f_est = _survey(capture, lay)
     voltage_level = level if lay.ref_kind == "voltage" else 0.0

@@ -144,10 +144,13 @@ def write_measurements(
     out = Path(out_dir)
     if out.exists() and not out.is_dir():
         raise WriteError(f"{out}: exists and is not a folder")
-    out.mkdir(parents=True, exist_ok=True)
     src = capture.provenance.source_path
     stem = stem or (Path(src).stem if src else "capture")
-    prepared = prepare(capture, nominal_frequency_hz)
+    prepared = prepare(capture, nominal_frequency_hz)  # refuses a capture too short to measure before anything is made
+    try:
+        out.mkdir(parents=True, exist_ok=True)
+    except OSError as e:
+        raise WriteError(f"{out}: cannot create the output folder ({e.strerror or type(e).__name__})") from None
     written: dict[str, Any] = {"files": [], "rows": {}}
     with contextlib.ExitStack() as stack:
         sinks = {}

@@ -172,7 +172,7 @@ def _build(d: dict[str, Any], source: str) -> Nameplate:
     if "rated_power_hp" in d:
         if "rated_power_kw" in d:
             raise CaptureReadError(source, "key rated_power_hp", "give rated_power_kw or rated_power_hp, not both")
-        d["rated_power_kw"] = float(d.pop("rated_power_hp")) * HP_TO_KW
+        d["rated_power_kw"] = positive_number(d.pop("rated_power_hp"), source, "key rated_power_hp") * HP_TO_KW
     for key in _FIELDS_FLOAT:
         if key in d:
             d[key] = positive_number(d[key], source, f"key {key}")
