@@ -78,6 +78,14 @@ def ieee1159_category(kind: str, duration_s: float | None, magnitude_pu: float, 
        interruption below 0.1 pu (momentary 0.5 cycle-3 s); sag 0.1-0.9 pu;
        swell 1.1-1.8 / 1.1-1.4 / 1.1-1.2 pu; undervoltage 0.8-0.9 pu,
        overvoltage 1.1-1.2 pu (the last four partly from memory).
+
+    Examples
+    --------
+    IEEE Std 1159-2019 Table 2 duration classes (from memory): 0.2 s is
+    instantaneous (0.5-30 cycles), 2 s momentary (30 cycles-3 s):
+
+    >>> ieee1159_category("dip", 0.2, 0.7, 0.02), ieee1159_category("interruption", 2.0, 0.05, 0.02)
+    ('instantaneous sag', 'momentary interruption')
     """
     if kind not in ("dip", "swell", "interruption"):
         raise InvalidParameterError(f"{kind=} must be 'dip', 'swell' or 'interruption'")
@@ -134,6 +142,27 @@ def declared_voltage(inp: DetectionInput, urms: np.ndarray, notes: list[str] | N
     ``inp.declared_voltage_ll_v`` with ``inp.declared_voltage_source`` when set
     (`waveforms.analysis.detection_input` applies the rule); otherwise the same
     rule on the Urms(1/2) values here, the basis said in ``notes``.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from waveforms.capture import from_arrays, standard_channels
+    >>> from waveforms.detect import DetectionInput
+    >>> from waveforms.measure import measure
+    >>> fs = 5000.0
+    >>> t = np.arange(15000) / fs
+    >>> ph = np.array([0.0, -2.0, 2.0]) * np.pi / 3
+    >>> v = np.where((t >= 1.0) & (t < 1.2), 0.7 * 230.0, 230.0) * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None])
+    >>> i = 10.0 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None] - 0.5)
+    >>> cap = from_arrays(np.vstack([v, i]), standard_channels(), fs, nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
+    >>> m = measure(cap)
+    >>> inp = DetectionInput(m.cycles, m.half_cycles, fla_a=10.0, locked_rotor_a=60.0, declared_voltage_ll_v=400.0, capture=cap)
+
+    >>> v, source = declared_voltage(inp, m.half_cycles.filter(like="_rms_half").to_numpy().T)
+    >>> print(f"{v:.1f} V", source)
+    230.9 V capture
+
+    The capture's 400 V line-to-line nominal, as line-to-neutral 400 / sqrt(3) V.
     """
     from ..measure.declared import measured_ll_v, resolve_declared_voltage
 
@@ -174,6 +203,28 @@ def motor_terminal_mask(inp: DetectionInput, open_phases: tuple[Event, ...], t: 
     the open line's channel (LN; LL: the two channels through it) carries the
     voltage the turning motor regenerates, not the supply's; a Urms(1/2) value
     whose one-cycle window reaches into that stretch is masked.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from waveforms.capture import from_arrays, standard_channels
+    >>> from waveforms.detect import DetectionInput
+    >>> from waveforms.measure import measure
+    >>> fs = 5000.0
+    >>> t = np.arange(15000) / fs
+    >>> ph = np.array([0.0, -2.0, 2.0]) * np.pi / 3
+    >>> v = np.where((t >= 1.0) & (t < 1.2), 0.7 * 230.0, 230.0) * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None])
+    >>> i = 10.0 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None] - 0.5)
+    >>> cap = from_arrays(np.vstack([v, i]), standard_channels(), fs, nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
+    >>> m = measure(cap)
+    >>> inp = DetectionInput(m.cycles, m.half_cycles, fla_a=10.0, locked_rotor_a=60.0, declared_voltage_ll_v=400.0, capture=cap)
+
+    No open phase, so no channel is masked:
+
+    >>> half = m.half_cycles
+    >>> mask = motor_terminal_mask(inp, (), half["t_s"].to_numpy(), ["Va", "Vb", "Vc"])
+    >>> print(mask.shape, bool(mask.any()))
+    (3, 297) False
     """
     out = np.zeros((len(labels), t.size), dtype=bool)
     nxt = {"A": "B", "B": "C", "C": "A"}
@@ -205,6 +256,33 @@ def detect_dips(inp: DetectionInput, prior: dict) -> Findings:
     """Dips, swells and interruptions (IEC 61000-4-30 5.4, 5.5) with IEEE 1159 categories.
 
     A dip that an upstream open phase explains (``prior["open_phase"]``) is that event's, not reported again.
+
+    Examples
+    --------
+    Three seconds of a 400 V, 50 Hz supply that falls to 70 % on all three
+    phases from 1.0 s to 1.2 s:
+
+    >>> import numpy as np
+    >>> from waveforms.capture import from_arrays, standard_channels
+    >>> from waveforms.detect import DetectionInput
+    >>> from waveforms.measure import measure
+    >>> fs = 5000.0
+    >>> t = np.arange(15000) / fs
+    >>> ph = np.array([0.0, -2.0, 2.0]) * np.pi / 3
+    >>> v = np.where((t >= 1.0) & (t < 1.2), 0.7 * 230.0, 230.0) * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None])
+    >>> i = 10.0 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None] - 0.5)
+    >>> cap = from_arrays(np.vstack([v, i]), standard_channels(), fs, nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
+    >>> m = measure(cap)
+    >>> inp = DetectionInput(m.cycles, m.half_cycles, fla_a=10.0, locked_rotor_a=60.0, declared_voltage_ll_v=400.0, capture=cap)
+
+    >>> e = detect_dips(inp, {"open_phase": ()}).events[0]
+    >>> print(e.kind, round(e.start_s, 3), round(e.end_s, 3), round(e.figures["residual_pct"]), e.figures["ieee1159_category"])
+    dip 1.005 1.225 70 instantaneous sag
+
+    The dip starts at the first Urms(1/2) value below 90 % and ends when every
+    channel is back above 92 % (IEC 61000-4-30:2015, 5.4.2, threshold plus
+    hysteresis); Urms(1/2) is refreshed every half cycle over one cycle, so the
+    times lie within a cycle of the change.
     """
     notes: list[str] = []
     got = _half_cycle_matrix(inp, notes)

@@ -78,6 +78,18 @@ def window_phasors(x: np.ndarray, fs_hz: float, f_hz: float, first: int, n_windo
     Returns
     -------
     ndarray, complex, shape (n_rows, n_windows)
+
+    Examples
+    --------
+    A balanced 230 V set: three one-cycle windows, the same phasors in each
+    (a common frame):
+
+    >>> import numpy as np
+    >>> t = np.arange(300) / 5000.0
+    >>> v = 230 * np.sqrt(2) * np.cos(2 * np.pi * (50 * t[None] - np.arange(3)[:, None] / 3))
+    >>> w = window_phasors(v, 5000.0, 50.0, 0, 3)
+    >>> print(np.abs(w).round(3).tolist()[0], np.angle(w[:, 0], deg=True).round(1).tolist())
+    [230.0, 230.0, 230.0] [-0.0, -120.0, 120.0]
     """
     n_cyc = int(round(fs_hz / f_hz))
     out = np.full((x.shape[0], n_windows), np.nan + 0j)
@@ -106,6 +118,35 @@ def source_corrected_residual(inp: DetectionInput, line: str, onset_s: float) ->
     motor's own voltage.  Phasors come from the samples around the onset
     (`window_phasors`), line-to-line so that the logger's neutral does not
     matter.  (Circuit reasoning, common practice, no source.)
+
+    Examples
+    --------
+    Two seconds of a motor at 10 A (its FLA) on a 400 V, 50 Hz stiff supply whose
+    line A opens at 1.000 s between the logger and the motor: the other two
+    currents rise to 17.3 A (about sqrt 3 times, the single-phasing rise of a
+    loaded motor; common practice, no source) and are in antiphase:
+
+    >>> import numpy as np
+    >>> from waveforms.capture import from_arrays, standard_channels
+    >>> from waveforms.detect import DetectionInput
+    >>> from waveforms.measure import measure
+    >>> fs = 5000.0
+    >>> t = np.arange(10_000) / fs
+    >>> ph = np.array([0.0, -2.0, 2.0]) * np.pi / 3
+    >>> v = 230 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None])
+    >>> i = 10 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None] - 0.5)
+    >>> i_bc = 17.3 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t - np.pi / 2 - 0.5)
+    >>> lost = t >= 1.0
+    >>> i[0, lost], i[1, lost], i[2, lost] = 0.0, i_bc[lost], -i_bc[lost]
+    >>> cap = from_arrays(np.vstack([v, i]), standard_channels(), fs, nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
+    >>> m = measure(cap)
+    >>> inp = DetectionInput(m.cycles, m.half_cycles, fla_a=10.0, declared_voltage_ll_v=400.0, capture=cap)
+
+    On a stiff source nothing moves: the fitted source impedance and the residual are both nil:
+
+    >>> r = source_corrected_residual(inp, "A", 1.0)
+    >>> print(abs(r["open_line_residual_pu"]) < 1e-9, np.abs(r["source_impedance_ohm"]).max() < 1e-9)
+    True True
     """
     cap = inp.capture
     if cap is None or len(inp.voltage_channels) != 3 or len(inp.current_channels) != 3:
@@ -223,6 +264,35 @@ def regenerated_voltage(inp: DetectionInput, line: str, a: int, b: int, location
     line-to-line one), ``terminal_voltage_sequence`` ("ABC", "ACB", "" = none
     dominant), ``rotation`` (forward / reverse with the supply's sequence, or
     unknown) and ``rotation_basis``.  Downstream or unknown: the rotation only.
+
+    Examples
+    --------
+    Two seconds of a motor at 10 A (its FLA) on a 400 V, 50 Hz stiff supply whose
+    line A opens at 1.000 s between the logger and the motor: the other two
+    currents rise to 17.3 A (about sqrt 3 times, the single-phasing rise of a
+    loaded motor; common practice, no source) and are in antiphase:
+
+    >>> import numpy as np
+    >>> from waveforms.capture import from_arrays, standard_channels
+    >>> from waveforms.detect import DetectionInput
+    >>> from waveforms.measure import measure
+    >>> fs = 5000.0
+    >>> t = np.arange(10_000) / fs
+    >>> ph = np.array([0.0, -2.0, 2.0]) * np.pi / 3
+    >>> v = 230 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None])
+    >>> i = 10 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None] - 0.5)
+    >>> i_bc = 17.3 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t - np.pi / 2 - 0.5)
+    >>> lost = t >= 1.0
+    >>> i[0, lost], i[1, lost], i[2, lost] = 0.0, i_bc[lost], -i_bc[lost]
+    >>> cap = from_arrays(np.vstack([v, i]), standard_channels(), fs, nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
+    >>> m = measure(cap)
+    >>> inp = DetectionInput(m.cycles, m.half_cycles, fla_a=10.0, declared_voltage_ll_v=400.0, capture=cap)
+
+    With the open point downstream the logger sees the supply, not the motor's
+    terminal, so the voltages say nothing about the rotation:
+
+    >>> regenerated_voltage(inp, "A", 60, 99, "downstream")
+    {'rotation': 'unknown', 'rotation_basis': 'supply_side_voltage', 'terminal_voltage_sequence': None}
     """
     from ..speed.direction import cycle_direction
 
@@ -284,7 +354,38 @@ def _motor_after(inp: DetectionInput, stall_events: tuple[Event, ...], start_s: 
 
 @register("open_phase", needs=("stall",))
 def detect_open_phase(inp: DetectionInput, prior: dict) -> Findings:
-    """Open phases, one event per line and stretch; the stall events tell what the motor did."""
+    """Open phases, one event per line and stretch; the stall events tell what the motor did.
+
+    Examples
+    --------
+    Two seconds of a motor at 10 A (its FLA) on a 400 V, 50 Hz stiff supply whose
+    line A opens at 1.000 s between the logger and the motor: the other two
+    currents rise to 17.3 A (about sqrt 3 times, the single-phasing rise of a
+    loaded motor; common practice, no source) and are in antiphase:
+
+    >>> import numpy as np
+    >>> from waveforms.capture import from_arrays, standard_channels
+    >>> from waveforms.detect import DetectionInput
+    >>> from waveforms.measure import measure
+    >>> fs = 5000.0
+    >>> t = np.arange(10_000) / fs
+    >>> ph = np.array([0.0, -2.0, 2.0]) * np.pi / 3
+    >>> v = 230 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None])
+    >>> i = 10 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None] - 0.5)
+    >>> i_bc = 17.3 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t - np.pi / 2 - 0.5)
+    >>> lost = t >= 1.0
+    >>> i[0, lost], i[1, lost], i[2, lost] = 0.0, i_bc[lost], -i_bc[lost]
+    >>> cap = from_arrays(np.vstack([v, i]), standard_channels(), fs, nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
+    >>> m = measure(cap)
+    >>> inp = DetectionInput(m.cycles, m.half_cycles, fla_a=10.0, declared_voltage_ll_v=400.0, capture=cap)
+
+    >>> e = detect_open_phase(inp, {"stall": ()}).events[0]
+    >>> print(e.kind, e.phase, round(e.start_s, 3), e.end_s, e.figures["location"])
+    open_phase A 1.0 None downstream
+
+    The supply's voltages do not move at the onset (a stiff source), so the open
+    point is downstream of the logger.
+    """
     if not inp.has_three_currents:
         return Findings(notes=("fewer than three line currents: open phase not assessed",))
     p = inp.params

@@ -31,7 +31,29 @@ from .registry import Findings, register
 
 
 def energisations(inp: DetectionInput) -> list[tuple[int, int]]:
-    """Energised stretches ``[a, b)`` that began inside the capture after at least three cycles without current."""
+    """Energised stretches ``[a, b)`` that began inside the capture after at least three cycles without current.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from waveforms.capture import from_arrays, standard_channels
+    >>> from waveforms.detect import DetectionInput
+    >>> from waveforms.measure import measure
+    >>> fs = 5000.0
+    >>> t = np.arange(15000) / fs
+    >>> ph = np.array([0.0, -2.0, 2.0]) * np.pi / 3
+    >>> v = 230.0 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None])
+    >>> i = np.where(t < 0.2, 0.0, 10 + 50 * np.exp(-np.clip(t - 0.2, 0, None) / 0.4)) * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None] - 0.5)
+    >>> cap = from_arrays(np.vstack([v, i]), standard_channels(), fs, nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
+    >>> m = measure(cap)
+    >>> inp = DetectionInput(m.cycles, m.half_cycles, fla_a=10.0, locked_rotor_a=60.0, declared_voltage_ll_v=400.0, capture=cap)
+
+    The motor draws current from 0.2 s: one energised stretch, from cycle 9 (the
+    cycle holding 0.2 s, 50 Hz) to the end:
+
+    >>> energisations(inp)
+    [(9, 149)]
+    """
     on = inp.energised
     return [(a, b) for a, b in runs(on, min_len=2, max_gap=2) if a > 0 and not on[max(0, a - 3) : a].any()]
 
@@ -45,6 +67,25 @@ def high_current_mask(inp: DetectionInput) -> tuple[np.ndarray, np.ndarray]:
     (`DetectionInput.running_ref_a`), and, from each energisation, until the
     current first falls below ``start_frac_inrush`` x that start's inrush
     (its largest one-cycle current in the first five cycles).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from waveforms.capture import from_arrays, standard_channels
+    >>> from waveforms.detect import DetectionInput
+    >>> from waveforms.measure import measure
+    >>> fs = 5000.0
+    >>> t = np.arange(15000) / fs
+    >>> ph = np.array([0.0, -2.0, 2.0]) * np.pi / 3
+    >>> v = 230.0 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None])
+    >>> i = np.where(t < 1.0, 10.0, 60.0) * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None] - 0.5)
+    >>> cap = from_arrays(np.vstack([v, i]), standard_channels(), fs, nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
+    >>> m = measure(cap)
+    >>> inp = DetectionInput(m.cycles, m.half_cycles, fla_a=10.0, locked_rotor_a=60.0, declared_voltage_ll_v=400.0, capture=cap)
+
+    >>> mask, threshold_a = high_current_mask(inp)
+    >>> print(mask[:3].tolist(), mask[60:63].tolist(), round(float(threshold_a[0]), 1))
+    [False, False, False] [True, True, True] 29.9
     """
     i = inp.i_max
     if inp.rated:
@@ -64,14 +105,54 @@ def high_current_mask(inp: DetectionInput) -> tuple[np.ndarray, np.ndarray]:
 
 
 def off_before(inp: DetectionInput, a: int, cycles: int = 3) -> bool:
-    """True when the motor carried no current in some of the ``cycles`` cycles before index ``a``."""
+    """True when the motor carried no current in some of the ``cycles`` cycles before index ``a``.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from waveforms.capture import from_arrays, standard_channels
+    >>> from waveforms.detect import DetectionInput
+    >>> from waveforms.measure import measure
+    >>> fs = 5000.0
+    >>> t = np.arange(15000) / fs
+    >>> ph = np.array([0.0, -2.0, 2.0]) * np.pi / 3
+    >>> v = 230.0 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None])
+    >>> i = np.where(t < 1.0, 10.0, 60.0) * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None] - 0.5)
+    >>> cap = from_arrays(np.vstack([v, i]), standard_channels(), fs, nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
+    >>> m = measure(cap)
+    >>> inp = DetectionInput(m.cycles, m.half_cycles, fla_a=10.0, locked_rotor_a=60.0, declared_voltage_ll_v=400.0, capture=cap)
+
+    The motor was running before cycle 50, not switched off:
+
+    >>> off_before(inp, 50)
+    False
+    """
     if a == 0:
         return False
     return not bool(inp.energised[max(0, a - cycles) : a].all())
 
 
 def runs_on_after(inp: DetectionInput, b: int, cycles: int = 5) -> bool:
-    """True when the motor is still energised for the cycles after index ``b`` (False at capture end)."""
+    """True when the motor is still energised for the cycles after index ``b`` (False at capture end).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from waveforms.capture import from_arrays, standard_channels
+    >>> from waveforms.detect import DetectionInput
+    >>> from waveforms.measure import measure
+    >>> fs = 5000.0
+    >>> t = np.arange(15000) / fs
+    >>> ph = np.array([0.0, -2.0, 2.0]) * np.pi / 3
+    >>> v = 230.0 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None])
+    >>> i = np.where(t < 1.0, 10.0, 60.0) * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None] - 0.5)
+    >>> cap = from_arrays(np.vstack([v, i]), standard_channels(), fs, nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
+    >>> m = measure(cap)
+    >>> inp = DetectionInput(m.cycles, m.half_cycles, fla_a=10.0, locked_rotor_a=60.0, declared_voltage_ll_v=400.0, capture=cap)
+
+    >>> runs_on_after(inp, 50), runs_on_after(inp, len(inp.cycles))
+    (True, False)
+    """
     if b >= inp.n:
         return False
     return bool(inp.energised[b : b + cycles].all())
@@ -83,6 +164,28 @@ def apparent_impedance(inp: DetectionInput, a: int, b: int) -> np.ndarray | None
     Three-phase: ``V1 / I1`` (positive sequence; angles are referenced to V1).
     Single-phased (line j dead): the live pair's line-to-line voltage over its
     series current, ``(V_k - V_l) / I_k``.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from waveforms.capture import from_arrays, standard_channels
+    >>> from waveforms.detect import DetectionInput
+    >>> from waveforms.measure import measure
+    >>> fs = 5000.0
+    >>> t = np.arange(15000) / fs
+    >>> ph = np.array([0.0, -2.0, 2.0]) * np.pi / 3
+    >>> v = 230.0 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None])
+    >>> i = np.where(t < 1.0, 10.0, 60.0) * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None] - 0.5)
+    >>> cap = from_arrays(np.vstack([v, i]), standard_channels(), fs, nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
+    >>> m = measure(cap)
+    >>> inp = DetectionInput(m.cycles, m.half_cycles, fla_a=10.0, locked_rotor_a=60.0, declared_voltage_ll_v=400.0, capture=cap)
+
+    At locked rotor V/I = 230 V / 60 A = 3.83 ohm at the current's 0.5 rad lag,
+    3.83 (cos 0.5 + j sin 0.5) = 3.36 + 1.84j ohm (Ohm's law):
+
+    >>> z = apparent_impedance(inp, 60, 140)
+    >>> print(np.round(z[0], 2))
+    (3.36+1.84j)
     """
     ph_i = {c: inp.i_phasor(c) for c in LINES}
     if any(v is None for v in ph_i.values()):
@@ -124,6 +227,27 @@ def standstill_index(inp: DetectionInput, a: int, b: int) -> tuple[int, str]:
     impedance moves far less; never below five times the plateau's own
     scatter).  Falls back to the first high-current cycle when there are no
     phasors.  (Equivalent-circuit reasoning, common practice, no source.)
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from waveforms.capture import from_arrays, standard_channels
+    >>> from waveforms.detect import DetectionInput
+    >>> from waveforms.measure import measure
+    >>> fs = 5000.0
+    >>> t = np.arange(15000) / fs
+    >>> ph = np.array([0.0, -2.0, 2.0]) * np.pi / 3
+    >>> v = 230.0 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None])
+    >>> i = np.where(t < 1.0, 10.0, 60.0) * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None] - 0.5)
+    >>> cap = from_arrays(np.vstack([v, i]), standard_channels(), fs, nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
+    >>> m = measure(cap)
+    >>> inp = DetectionInput(m.cycles, m.half_cycles, fla_a=10.0, locked_rotor_a=60.0, declared_voltage_ll_v=400.0, capture=cap)
+
+    The current steps straight to its locked-rotor level, so the impedance is
+    constant from the first high-current cycle:
+
+    >>> standstill_index(inp, 51, 149)
+    (51, 'impedance constant from the first high-current cycle')
     """
     n = b - a
     single = bool(inp.dead_line[a:b].any(axis=1).mean() > 0.5)
@@ -157,6 +281,24 @@ def pull_out_index(inp: DetectionInput, a: int, rise_frac: float = 0.02, lookbac
     of the rise (running level to the current at ``a``) above it.  None when
     the motor was not running before (our rule, like the relays' slowdown
     bounds; common practice, no source).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from waveforms.capture import from_arrays, standard_channels
+    >>> from waveforms.detect import DetectionInput
+    >>> from waveforms.measure import measure
+    >>> fs = 5000.0
+    >>> t = np.arange(15000) / fs
+    >>> ph = np.array([0.0, -2.0, 2.0]) * np.pi / 3
+    >>> v = 230.0 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None])
+    >>> i = np.where(t < 1.0, 10.0, 60.0) * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None] - 0.5)
+    >>> cap = from_arrays(np.vstack([v, i]), standard_channels(), fs, nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
+    >>> m = measure(cap)
+    >>> inp = DetectionInput(m.cycles, m.half_cycles, fla_a=10.0, locked_rotor_a=60.0, declared_voltage_ll_v=400.0, capture=cap)
+
+    >>> pull_out_index(inp, 51)
+    49
     """
     if a <= 0:
         return None
@@ -198,7 +340,30 @@ def _dip_just_before(inp: DetectionInput, a: int) -> bool:
 
 @register("stall")
 def detect_stall(inp: DetectionInput, prior: dict) -> Findings:
-    """Stalls (locked rotor) on a healthy or single-phased supply."""
+    """Stalls (locked rotor) on a healthy or single-phased supply.
+
+    Examples
+    --------
+    A motor at 10 A (its FLA) whose current rises to 60 A, its locked-rotor
+    current, at 1.0 s and stays there:
+
+    >>> import numpy as np
+    >>> from waveforms.capture import from_arrays, standard_channels
+    >>> from waveforms.detect import DetectionInput
+    >>> from waveforms.measure import measure
+    >>> fs = 5000.0
+    >>> t = np.arange(15000) / fs
+    >>> ph = np.array([0.0, -2.0, 2.0]) * np.pi / 3
+    >>> v = 230.0 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None])
+    >>> i = np.where(t < 1.0, 10.0, 60.0) * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None] - 0.5)
+    >>> cap = from_arrays(np.vstack([v, i]), standard_channels(), fs, nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
+    >>> m = measure(cap)
+    >>> inp = DetectionInput(m.cycles, m.half_cycles, fla_a=10.0, locked_rotor_a=60.0, declared_voltage_ll_v=400.0, capture=cap)
+
+    >>> e = detect_stall(inp, {}).events[0]
+    >>> print(e.kind, round(e.start_s, 2), e.end_s, round(e.figures["i_max_median_pu_fla"], 1), round(e.figures["i_over_locked_rotor"], 2))
+    stall 1.01 None 6.0 1.0
+    """
     notes = inp.reference_notes(locked_rotor=True)
     if not np.isfinite(inp.i_max).any():
         return Findings(notes=(*notes, "no line currents: stall not assessed"))
