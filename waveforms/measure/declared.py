@@ -105,7 +105,19 @@ def nearest_standard_voltage(measured_ll_v: float, frequency_hz: float | None) -
 def resolve_declared_voltage(
     user_ll_v: float | None, capture_ll_v: float | None, measured_ll_v: float | None, frequency_hz: float | None,
 ) -> DeclaredVoltage:
-    """The declared line-to-line voltage by the rule of the module docstring (never the motor's rating)."""
+    """The declared line-to-line voltage by the rule of the module docstring (never the motor's rating).
+
+    Examples
+    --------
+    No declared voltage: the standard system voltage nearest the measured
+    508 V is 480 V (ANSI C84.1), marked as an inference; a user's value wins:
+
+    >>> d = resolve_declared_voltage(None, None, 508.0, 60.0)
+    >>> print(d.ll_v, d.source)
+    480.0 inferred
+    >>> print(resolve_declared_voltage(460.0, 480.0, 508.0, 60.0).source)
+    user
+    """
     if user_ll_v:
         return DeclaredVoltage(float(user_ll_v), "user", f"declared voltage {user_ll_v:g} V line-to-line, given by the user")
     if capture_ll_v:
@@ -135,6 +147,13 @@ def measured_ll_v(values_v, reference: str) -> float | None:
     ``reference`` "LN" scales by sqrt(3) (balanced-supply equivalent), "LL" takes the values as
     they are.  Values under `ENERGISED_SHARE` of the 95th percentile are left out.  None when
     there is nothing to measure.
+
+    Examples
+    --------
+    Line-to-neutral values are scaled by sqrt(3): 230 V -> 398.4 V:
+
+    >>> print(round(measured_ll_v([230.0, 231.0, 229.0], "LN"), 1), measured_ll_v([400.0, 401.0, 399.0], "LL"))
+    398.4 400.0
     """
     import numpy as np
 

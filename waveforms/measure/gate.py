@@ -50,7 +50,20 @@ POWER_RATIO_COLUMNS = ("PF", "DPF", "PFa", "PFb", "PFc")
 
 
 def voltage_gate_v(cycles: pd.DataFrame, declared_ll_v: float | None) -> tuple[float, str]:
-    """(gate on ``V1`` [V], where it comes from); NaN when there is no ``V1`` column."""
+    """(gate on ``V1`` [V], where it comes from); NaN when there is no ``V1`` column.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd
+    >>> cyc = pd.DataFrame({"t_s": [0.01, 0.03], "V1": [230.0, 0.5], "V2": [2.3, 0.4], "V2_V1_pct": [1.0, 80.0],
+    ...                     "Va_mag": [230.0, 0.5], "I1": [10.0, 0.0], "I2": [0.1, 0.0], "I2_I1_pct": [1.0, np.nan]})
+
+    10 % of the declared 400 / sqrt(3) V (IEC 61000-4-30:2015, 5.5):
+
+    >>> v, why = voltage_gate_v(cyc, 400.0)
+    >>> print(round(v, 2))
+    23.09
+    """
     if "V1" not in cycles:
         return math.nan, "no voltage sequence"
     ln = "Va_mag" in cycles or "Vb_mag" in cycles  # V1 of line-to-neutral phasors is V_LL / sqrt(3)
@@ -68,7 +81,17 @@ def voltage_gate_v(cycles: pd.DataFrame, declared_ll_v: float | None) -> tuple[f
 
 
 def current_gate_a(cycles: pd.DataFrame, fla_a: float | None) -> tuple[float, str]:
-    """(gate on ``I1`` [A], where it comes from); NaN when there is no ``I1`` column."""
+    """(gate on ``I1`` [A], where it comes from); NaN when there is no ``I1`` column.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd
+    >>> cyc = pd.DataFrame({"t_s": [0.01, 0.03], "V1": [230.0, 0.5], "V2": [2.3, 0.4], "V2_V1_pct": [1.0, 80.0],
+    ...                     "Va_mag": [230.0, 0.5], "I1": [10.0, 0.0], "I2": [0.1, 0.0], "I2_I1_pct": [1.0, np.nan]})
+
+    >>> current_gate_a(cyc, 10.0)
+    (0.5, 'I1 below 5 % of the nameplate FLA')
+    """
     if "I1" not in cycles:
         return math.nan, "no current sequence"
     if fla_a:
@@ -113,6 +136,18 @@ def gate_cycles(cycles: pd.DataFrame, declared_ll_v: float | None = None,
     References
     ----------
     .. [1] IEC 61000-4-30:2015, 5.5 (interruption: voltage below 10 % of the declared voltage).
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd
+    >>> cyc = pd.DataFrame({"t_s": [0.01, 0.03], "V1": [230.0, 0.5], "V2": [2.3, 0.4], "V2_V1_pct": [1.0, 80.0],
+    ...                     "Va_mag": [230.0, 0.5], "I1": [10.0, 0.0], "I2": [0.1, 0.0], "I2_I1_pct": [1.0, np.nan]})
+
+    The second cycle is de-energised: its 80 % "unbalance" of noise is removed:
+
+    >>> g, notes = gate_cycles(cyc, 400.0, 10.0)
+    >>> g["V2_V1_pct"].tolist(), bool(g["level_gate"][1])
+    ([1.0, nan], True)
     """
     out = cycles.copy()
     n = len(out)

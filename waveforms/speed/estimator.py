@@ -170,7 +170,16 @@ class WindowResult:
 
 
 def slip_search_range(settings: SpeedSettings, motor: MotorSpec) -> tuple[float, float]:
-    """``(min_slip, max_slip)`` searched: the configured bound, or ``max_slip_factor`` x rated slip (<= 0.5)."""
+    """``(min_slip, max_slip)`` searched: the configured bound, or ``max_slip_factor`` x rated slip (<= 0.5).
+
+    Examples
+    --------
+    With no bound configured the search goes to `SpeedSettings.max_slip_factor`
+    times the rated slip (never above 0.5):
+
+    >>> slip_search_range(SpeedSettings(), MotorSpec(2, 28, 0.02, 50.0, 10.0))
+    (0.0, 0.1)
+    """
     if settings.max_slip is not None:
         return settings.min_slip, settings.max_slip
     rated = motor.rated_slip if motor.rated_slip is not None else 0.03
@@ -198,7 +207,18 @@ def _families(settings: SpeedSettings, motor: MotorSpec, s_lo: float, s_hi: floa
 
 
 def highest_frequency_hz(settings: SpeedSettings, motor: MotorSpec) -> float:
-    """Highest component frequency searched, with 10 % margin on the supply frequency [Hz]."""
+    """Highest component frequency searched, with 10 % margin on the supply frequency [Hz].
+
+    Examples
+    --------
+    For a 28-bar, four-pole 50 Hz motor the upper slot harmonic at zero slip,
+    f1 (R/p + 1) = 50 x (28/2 + 1) = 750 Hz, on a supply 10 % high (825 Hz), plus
+    ten natural bins of the 10 s window (1 Hz), bounds the search (slot-harmonic
+    formula of Hurst & Habetler 1996):
+
+    >>> print(round(highest_frequency_hz(SpeedSettings(), MotorSpec(2, 28, 0.02, 50.0, 10.0))))
+    826
+    """
     s_lo, s_hi = slip_search_range(settings, motor)
     f1 = 1.1 * motor.nominal_frequency_hz
     top = f1 * 1.1
@@ -283,6 +303,15 @@ def analyse_window(
         Start of the window, for the record [s].
     phase_rms : bool
         ``x`` is a space vector: report the phase RMS ``sqrt(mean |x|^2 / 2)``.
+
+    Examples
+    --------
+    >>> from waveforms.speed.synthetic import synthetic_currents
+    >>> i = synthetic_currents(12.0, 4000.0, 0.02, f1_hz=50.0, pole_pairs=2, rotor_bars=28)
+
+    >>> r = analyse_window(i[:, :40_000], 4000.0, MotorSpec(2, 28, 0.02, 50.0, 10.0), SpeedSettings(), f1_hz=50.0)
+    >>> print(r.status, round(r.slip, 4), r.component)
+    estimate 0.02 slot
     """
     x = np.atleast_2d(x)
     n = x.shape[-1]
@@ -439,7 +468,17 @@ class Decimator:
 
 
 def make_decimator(capture: Capture, names: list[str], q: int, use_sv: bool, n_samples: int | None = None) -> Decimator:
-    """The `Decimator` for channels ``names`` of ``capture`` by ``q`` (samples 0 .. ``n_samples``)."""
+    """The `Decimator` for channels ``names`` of ``capture`` by ``q`` (samples 0 .. ``n_samples``).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from waveforms.capture import from_arrays, standard_channels
+    >>> cap = from_arrays(np.zeros((3, 1000)), standard_channels(voltages=None), 4000.0)
+    >>> d = make_decimator(cap, ["Ia", "Ib", "Ic"], 5, True)
+    >>> print(d.q, d.use_sv, d.rows, d.n_samples)
+    5 True (0, 1, 2) 1000
+    """
     taps = decimation_filter(q) if q > 1 else None
     margin = 0 if q == 1 else int(math.ceil(len(taps) / q)) * q
     return Decimator(tuple(capture.index_of(nm) for nm in names), q, use_sv, taps, margin,
@@ -476,6 +515,23 @@ def speed_decimator(capture: Capture, nameplate: Any = None, *, pole_pairs: int 
 
     None when the track would not cover the whole capture or cannot be made (no pole count,
     no current): the speed stage then reads what it needs itself.
+
+    Examples
+    --------
+    >>> from waveforms.speed.synthetic import synthetic_currents
+    >>> i = synthetic_currents(12.0, 4000.0, 0.02, f1_hz=50.0, pole_pairs=2, rotor_bars=28)
+
+    >>> from waveforms.capture import from_arrays, standard_channels
+    >>> cap = from_arrays(i, standard_channels(voltages=None), 4000.0, nominal_frequency_hz=50.0)
+    >>> d = speed_decimator(cap, pole_pairs=2, rotor_bars=28)
+    >>> print(d.q, d.use_sv)
+    1 True
+
+    At 4 kS/s there is no room to decimate below 4 x 826 Hz; without a pole
+    count there is no track, so no decimator:
+
+    >>> speed_decimator(cap) is None
+    True
     """
     options.pop("supply_hz", None)
     if start_s != 0.0 or stop_s is not None:
@@ -570,6 +626,19 @@ def track_speed(
     References
     ----------
     Hurst & Habetler 1996; Thomson & Fenger 2001 (see module docstring).
+
+    Examples
+    --------
+    >>> from waveforms.speed.synthetic import synthetic_currents
+    >>> i = synthetic_currents(12.0, 4000.0, 0.02, f1_hz=50.0, pole_pairs=2, rotor_bars=28)
+
+    One 10 s window of a four-pole motor at 2 % slip on 50 Hz:
+    (1 - s) 120 f / P = 0.98 x 1500 = 1470 rpm (the synchronous-speed formula):
+
+    >>> tr = track_speed(i, 4000.0, pole_pairs=2, rotor_bars=28, supply_hz=50.0)
+    >>> print(tr[["t_s", "slip", "status"]].round(4).to_string(index=False), round(float(tr.rpm[0]), 1))
+     t_s  slip   status
+     5.0  0.02 estimate 1470.0
     """
     settings, cap, motor, names, use_sv, fs = _prepare(
         currents, sample_rate_hz, nameplate, pole_pairs, rotor_bars, settings, options
@@ -622,6 +691,17 @@ def side_db(x: np.ndarray, sample_rate_hz: float, f_hz) -> np.ndarray:
     ``-f``: positive for a component turning with the positive-sequence field,
     negative against it, near 0 for a pulsating (single-phase) one; NaN for a
     non-finite frequency (common practice, no source).
+
+    Examples
+    --------
+    A positive-sequence 50 Hz vector with 1 % of negative sequence: the +50 Hz
+    line is 10 log10(1 / 0.01^2) = 40 dB above the -50 Hz one:
+
+    >>> import numpy as np
+    >>> t = np.arange(4000) / 4000.0
+    >>> x = np.exp(2j * np.pi * 50 * t) + 0.01 * np.exp(-2j * np.pi * 50 * t)
+    >>> side_db(x, 4000.0, [50.0]).round(1).tolist()
+    [40.0]
     """
     f = np.atleast_1d(np.asarray(f_hz, dtype=float))
     n = x.shape[-1]
@@ -672,6 +752,15 @@ def window_detail(
     With ``decimated`` (the whole capture's decimated current kept by the measurement pass,
     `waveforms.measure.Measurements.decimated`) the window is cut from it and nothing is
     read; the result is the same.
+
+    Examples
+    --------
+    >>> from waveforms.speed.synthetic import synthetic_currents
+    >>> i = synthetic_currents(12.0, 4000.0, 0.02, f1_hz=50.0, pole_pairs=2, rotor_bars=28)
+
+    >>> r = window_detail(i, 0.0, 4000.0, pole_pairs=2, rotor_bars=28, supply_hz=50.0)
+    >>> print(r.status, round(r.slip, 4), sorted(r.bands))
+    estimate 0.02 ['1R+1', '1R-1']
     """
     settings, cap, motor, names, use_sv, fs = _prepare(
         currents, sample_rate_hz, nameplate, pole_pairs, rotor_bars, settings, options
@@ -715,6 +804,17 @@ def track_transient(
     opened to ``max_slip`` (slot harmonics are then ambiguous and ``auto``
     falls back to eccentricity sidebands).  Windows where the sideband moves
     by more than a bin are smeared and usually come back ``no_signature``.
+
+    Examples
+    --------
+    >>> from waveforms.speed.synthetic import synthetic_currents
+    >>> i = synthetic_currents(12.0, 4000.0, 0.02, f1_hz=50.0, pole_pairs=2, rotor_bars=28)
+
+    Short 1 s windows every 0.25 s over the first 4 s:
+
+    >>> tt = track_transient(i, 0.0, 4.0, 4000.0, pole_pairs=2, rotor_bars=28, supply_hz=50.0)
+    >>> print(len(tt), tt["slip"].round(2).unique().tolist())
+    13 [0.02]
     """
     return track_speed(currents, sample_rate_hz, nameplate, start_s=start_s, stop_s=end_s, window_s=window_s,
                        hop_s=hop_s, max_slip=max_slip, **kwargs)
