@@ -22,12 +22,17 @@ from __future__ import annotations
 import math
 
 import numpy as np
+import pandas as pd
 
 from ..measure.sequence import sequence_components
 from .context import LINES, DetectionInput, runs, speed_summary
 from .pointonwave import refine_onset_s
 from .event import Event
 from .registry import Findings, register
+
+#: Span of the following cycles whose median a cycle's impedance is compared with in
+#: `standstill_index` [s] (our choice: long against the scatter, short against a long stall's drift).
+STANDSTILL_AHEAD_S = 0.5
 
 
 def energisations(inp: DetectionInput) -> list[tuple[int, int]]:
@@ -261,7 +266,14 @@ def standstill_index(inp: DetectionInput, a: int, b: int) -> tuple[int, str]:
     if tail.size == 0:
         return a, "high current (impedance undefined)"
     zf = complex(np.median(tail.real), np.median(tail.imag))
-    dev = np.abs(body - zf) / abs(zf)
+    # Each cycle against the median of the cycles that follow it (at most STANDSTILL_AHEAD_S): a
+    # turning rotor moves the impedance by tens of percent within that span, while the slow drift
+    # of a long stall (heating, supply) moves it by far less than the tolerance.  Comparing with the
+    # final value alone put the onset of a 30 s stall 14 s late.
+    w = max(4, int(round(STANDSTILL_AHEAD_S / inp.cycle_s)))
+    ahead = lambda x: pd.Series(x[::-1]).rolling(w, min_periods=1).median().to_numpy()[::-1]  # noqa: E731
+    zl = ahead(body.real) + 1j * ahead(body.imag)
+    dev = np.abs(body - zl) / abs(zf)
     scatter = np.abs(tail - zf) / abs(zf)
     tol = max(tol, 5.0 * float(np.median(scatter)))
     moving = np.flatnonzero(~(dev <= tol))
