@@ -49,7 +49,10 @@ def _warm_modules(recipe: Recipe) -> list[str]:
         if lib:
             with contextlib.suppress(ImportError):
                 importlib.import_module(lib)
-    extras = ["waveforms.analysis", "waveforms.quality", "waveforms.motor.nameplate", "pyarrow.parquet", "threadpoolctl"]
+    extras = ["waveforms.analysis", "waveforms.quality", "waveforms.motor.nameplate", "pyarrow.parquet", "threadpoolctl",
+              # a trend log found among the inputs switches to the trend recipe in the worker
+              "waveforms.io.trend", "waveforms.trends.stages", "waveforms.trends.analysis", "waveforms.trends.detect",
+              "waveforms.trends.result", "waveforms.trends.report"]
     if "report" in recipe.stage_names:
         extras += ["waveforms.report.plots", "waveforms.report.html", "matplotlib.backends.backend_agg"]
     for extra in extras:
