@@ -1,4 +1,4 @@
-"""docs/importing.md stays in step with the importer registry (names and extensions)."""
+"""docs/importing.md stays in step with the importer registry (names and extensions); a consistency check, no external source."""
 
 from __future__ import annotations
 
