@@ -146,19 +146,10 @@ def declared_voltage(inp: DetectionInput, urms: np.ndarray, notes: list[str] | N
     Examples
     --------
     >>> import numpy as np
-    >>> from waveforms.capture import from_arrays, standard_channels
-    >>> from waveforms.detect import DetectionInput
-    >>> from waveforms.measure import measure
-    >>> fs = 5000.0
-    >>> t = np.arange(15000) / fs
-    >>> ph = np.array([0.0, -2.0, 2.0]) * np.pi / 3
-    >>> v = np.where((t >= 1.0) & (t < 1.2), 0.7 * 230.0, 230.0) * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None])
-    >>> i = 10.0 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None] - 0.5)
-    >>> cap = from_arrays(np.vstack([v, i]), standard_channels(), fs, nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
-    >>> m = measure(cap)
-    >>> inp = DetectionInput(m.cycles, m.half_cycles, fla_a=10.0, locked_rotor_a=60.0, declared_voltage_ll_v=400.0, capture=cap)
+    >>> from waveforms.detect.examples import example_input
+    >>> inp = example_input(v_rms_v=lambda t: np.where((t >= 1.0) & (t < 1.2), 0.7 * 230.0, 230.0))
 
-    >>> v, source = declared_voltage(inp, m.half_cycles.filter(like="_rms_half").to_numpy().T)
+    >>> v, source = declared_voltage(inp, inp.half_cycles.filter(like="_rms_half").to_numpy().T)
     >>> print(f"{v:.1f} V", source)
     230.9 V capture
 
@@ -207,21 +198,12 @@ def motor_terminal_mask(inp: DetectionInput, open_phases: tuple[Event, ...], t: 
     Examples
     --------
     >>> import numpy as np
-    >>> from waveforms.capture import from_arrays, standard_channels
-    >>> from waveforms.detect import DetectionInput
-    >>> from waveforms.measure import measure
-    >>> fs = 5000.0
-    >>> t = np.arange(15000) / fs
-    >>> ph = np.array([0.0, -2.0, 2.0]) * np.pi / 3
-    >>> v = np.where((t >= 1.0) & (t < 1.2), 0.7 * 230.0, 230.0) * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None])
-    >>> i = 10.0 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None] - 0.5)
-    >>> cap = from_arrays(np.vstack([v, i]), standard_channels(), fs, nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
-    >>> m = measure(cap)
-    >>> inp = DetectionInput(m.cycles, m.half_cycles, fla_a=10.0, locked_rotor_a=60.0, declared_voltage_ll_v=400.0, capture=cap)
+    >>> from waveforms.detect.examples import example_input
+    >>> inp = example_input(v_rms_v=lambda t: np.where((t >= 1.0) & (t < 1.2), 0.7 * 230.0, 230.0))
 
     No open phase, so no channel is masked:
 
-    >>> half = m.half_cycles
+    >>> half = inp.half_cycles
     >>> mask = motor_terminal_mask(inp, (), half["t_s"].to_numpy(), ["Va", "Vb", "Vc"])
     >>> print(mask.shape, bool(mask.any()))
     (3, 297) False
@@ -263,17 +245,8 @@ def detect_dips(inp: DetectionInput, prior: dict) -> Findings:
     phases from 1.0 s to 1.2 s:
 
     >>> import numpy as np
-    >>> from waveforms.capture import from_arrays, standard_channels
-    >>> from waveforms.detect import DetectionInput
-    >>> from waveforms.measure import measure
-    >>> fs = 5000.0
-    >>> t = np.arange(15000) / fs
-    >>> ph = np.array([0.0, -2.0, 2.0]) * np.pi / 3
-    >>> v = np.where((t >= 1.0) & (t < 1.2), 0.7 * 230.0, 230.0) * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None])
-    >>> i = 10.0 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None] - 0.5)
-    >>> cap = from_arrays(np.vstack([v, i]), standard_channels(), fs, nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
-    >>> m = measure(cap)
-    >>> inp = DetectionInput(m.cycles, m.half_cycles, fla_a=10.0, locked_rotor_a=60.0, declared_voltage_ll_v=400.0, capture=cap)
+    >>> from waveforms.detect.examples import example_input
+    >>> inp = example_input(v_rms_v=lambda t: np.where((t >= 1.0) & (t < 1.2), 0.7 * 230.0, 230.0))
 
     >>> e = detect_dips(inp, {"open_phase": ()}).events[0]
     >>> print(e.kind, round(e.start_s, 3), round(e.end_s, 3), round(e.figures["residual_pct"]), e.figures["ieee1159_category"])

@@ -127,20 +127,8 @@ def source_corrected_residual(inp: DetectionInput, line: str, onset_s: float) ->
     loaded motor; common practice, no source) and are in antiphase:
 
     >>> import numpy as np
-    >>> from waveforms.capture import from_arrays, standard_channels
-    >>> from waveforms.detect import DetectionInput
-    >>> from waveforms.measure import measure
-    >>> fs = 5000.0
-    >>> t = np.arange(10_000) / fs
-    >>> ph = np.array([0.0, -2.0, 2.0]) * np.pi / 3
-    >>> v = 230 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None])
-    >>> i = 10 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None] - 0.5)
-    >>> i_bc = 17.3 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t - np.pi / 2 - 0.5)
-    >>> lost = t >= 1.0
-    >>> i[0, lost], i[1, lost], i[2, lost] = 0.0, i_bc[lost], -i_bc[lost]
-    >>> cap = from_arrays(np.vstack([v, i]), standard_channels(), fs, nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
-    >>> m = measure(cap)
-    >>> inp = DetectionInput(m.cycles, m.half_cycles, fla_a=10.0, declared_voltage_ll_v=400.0, capture=cap)
+    >>> from waveforms.detect.examples import example_input, line_a_opens
+    >>> inp = example_input(duration_s=2.0, currents_a=line_a_opens, locked_rotor_a=None)
 
     On a stiff source nothing moves: the fitted source impedance and the residual are both nil:
 
@@ -273,20 +261,8 @@ def regenerated_voltage(inp: DetectionInput, line: str, a: int, b: int, location
     loaded motor; common practice, no source) and are in antiphase:
 
     >>> import numpy as np
-    >>> from waveforms.capture import from_arrays, standard_channels
-    >>> from waveforms.detect import DetectionInput
-    >>> from waveforms.measure import measure
-    >>> fs = 5000.0
-    >>> t = np.arange(10_000) / fs
-    >>> ph = np.array([0.0, -2.0, 2.0]) * np.pi / 3
-    >>> v = 230 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None])
-    >>> i = 10 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None] - 0.5)
-    >>> i_bc = 17.3 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t - np.pi / 2 - 0.5)
-    >>> lost = t >= 1.0
-    >>> i[0, lost], i[1, lost], i[2, lost] = 0.0, i_bc[lost], -i_bc[lost]
-    >>> cap = from_arrays(np.vstack([v, i]), standard_channels(), fs, nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
-    >>> m = measure(cap)
-    >>> inp = DetectionInput(m.cycles, m.half_cycles, fla_a=10.0, declared_voltage_ll_v=400.0, capture=cap)
+    >>> from waveforms.detect.examples import example_input, line_a_opens
+    >>> inp = example_input(duration_s=2.0, currents_a=line_a_opens, locked_rotor_a=None)
 
     With the open point downstream the logger sees the supply, not the motor's
     terminal, so the voltages say nothing about the rotation:
@@ -364,20 +340,8 @@ def detect_open_phase(inp: DetectionInput, prior: dict) -> Findings:
     loaded motor; common practice, no source) and are in antiphase:
 
     >>> import numpy as np
-    >>> from waveforms.capture import from_arrays, standard_channels
-    >>> from waveforms.detect import DetectionInput
-    >>> from waveforms.measure import measure
-    >>> fs = 5000.0
-    >>> t = np.arange(10_000) / fs
-    >>> ph = np.array([0.0, -2.0, 2.0]) * np.pi / 3
-    >>> v = 230 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None])
-    >>> i = 10 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None] - 0.5)
-    >>> i_bc = 17.3 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t - np.pi / 2 - 0.5)
-    >>> lost = t >= 1.0
-    >>> i[0, lost], i[1, lost], i[2, lost] = 0.0, i_bc[lost], -i_bc[lost]
-    >>> cap = from_arrays(np.vstack([v, i]), standard_channels(), fs, nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
-    >>> m = measure(cap)
-    >>> inp = DetectionInput(m.cycles, m.half_cycles, fla_a=10.0, declared_voltage_ll_v=400.0, capture=cap)
+    >>> from waveforms.detect.examples import example_input, line_a_opens
+    >>> inp = example_input(duration_s=2.0, currents_a=line_a_opens, locked_rotor_a=None)
 
     >>> e = detect_open_phase(inp, {"stall": ()}).events[0]
     >>> print(e.kind, e.phase, round(e.start_s, 3), e.end_s, e.figures["location"])

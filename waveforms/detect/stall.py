@@ -41,17 +41,8 @@ def energisations(inp: DetectionInput) -> list[tuple[int, int]]:
     Examples
     --------
     >>> import numpy as np
-    >>> from waveforms.capture import from_arrays, standard_channels
-    >>> from waveforms.detect import DetectionInput
-    >>> from waveforms.measure import measure
-    >>> fs = 5000.0
-    >>> t = np.arange(15000) / fs
-    >>> ph = np.array([0.0, -2.0, 2.0]) * np.pi / 3
-    >>> v = 230.0 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None])
-    >>> i = np.where(t < 0.2, 0.0, 10 + 50 * np.exp(-np.clip(t - 0.2, 0, None) / 0.4)) * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None] - 0.5)
-    >>> cap = from_arrays(np.vstack([v, i]), standard_channels(), fs, nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
-    >>> m = measure(cap)
-    >>> inp = DetectionInput(m.cycles, m.half_cycles, fla_a=10.0, locked_rotor_a=60.0, declared_voltage_ll_v=400.0, capture=cap)
+    >>> from waveforms.detect.examples import example_input
+    >>> inp = example_input(i_rms_a=lambda t: np.where(t < 0.2, 0.0, 10 + 50 * np.exp(-np.clip(t - 0.2, 0, None) / 0.4)))
 
     The motor draws current from 0.2 s: one energised stretch, from cycle 9 (the
     cycle holding 0.2 s, 50 Hz) to the end:
@@ -76,17 +67,8 @@ def high_current_mask(inp: DetectionInput) -> tuple[np.ndarray, np.ndarray]:
     Examples
     --------
     >>> import numpy as np
-    >>> from waveforms.capture import from_arrays, standard_channels
-    >>> from waveforms.detect import DetectionInput
-    >>> from waveforms.measure import measure
-    >>> fs = 5000.0
-    >>> t = np.arange(15000) / fs
-    >>> ph = np.array([0.0, -2.0, 2.0]) * np.pi / 3
-    >>> v = 230.0 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None])
-    >>> i = np.where(t < 1.0, 10.0, 60.0) * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None] - 0.5)
-    >>> cap = from_arrays(np.vstack([v, i]), standard_channels(), fs, nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
-    >>> m = measure(cap)
-    >>> inp = DetectionInput(m.cycles, m.half_cycles, fla_a=10.0, locked_rotor_a=60.0, declared_voltage_ll_v=400.0, capture=cap)
+    >>> from waveforms.detect.examples import example_input
+    >>> inp = example_input(i_rms_a=lambda t: np.where(t < 1.0, 10.0, 60.0))
 
     >>> mask, threshold_a = high_current_mask(inp)
     >>> print(mask[:3].tolist(), mask[60:63].tolist(), round(float(threshold_a[0]), 1))
@@ -115,17 +97,8 @@ def off_before(inp: DetectionInput, a: int, cycles: int = 3) -> bool:
     Examples
     --------
     >>> import numpy as np
-    >>> from waveforms.capture import from_arrays, standard_channels
-    >>> from waveforms.detect import DetectionInput
-    >>> from waveforms.measure import measure
-    >>> fs = 5000.0
-    >>> t = np.arange(15000) / fs
-    >>> ph = np.array([0.0, -2.0, 2.0]) * np.pi / 3
-    >>> v = 230.0 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None])
-    >>> i = np.where(t < 1.0, 10.0, 60.0) * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None] - 0.5)
-    >>> cap = from_arrays(np.vstack([v, i]), standard_channels(), fs, nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
-    >>> m = measure(cap)
-    >>> inp = DetectionInput(m.cycles, m.half_cycles, fla_a=10.0, locked_rotor_a=60.0, declared_voltage_ll_v=400.0, capture=cap)
+    >>> from waveforms.detect.examples import example_input
+    >>> inp = example_input(i_rms_a=lambda t: np.where(t < 1.0, 10.0, 60.0))
 
     The motor was running before cycle 50, not switched off:
 
@@ -143,17 +116,8 @@ def runs_on_after(inp: DetectionInput, b: int, cycles: int = 5) -> bool:
     Examples
     --------
     >>> import numpy as np
-    >>> from waveforms.capture import from_arrays, standard_channels
-    >>> from waveforms.detect import DetectionInput
-    >>> from waveforms.measure import measure
-    >>> fs = 5000.0
-    >>> t = np.arange(15000) / fs
-    >>> ph = np.array([0.0, -2.0, 2.0]) * np.pi / 3
-    >>> v = 230.0 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None])
-    >>> i = np.where(t < 1.0, 10.0, 60.0) * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None] - 0.5)
-    >>> cap = from_arrays(np.vstack([v, i]), standard_channels(), fs, nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
-    >>> m = measure(cap)
-    >>> inp = DetectionInput(m.cycles, m.half_cycles, fla_a=10.0, locked_rotor_a=60.0, declared_voltage_ll_v=400.0, capture=cap)
+    >>> from waveforms.detect.examples import example_input
+    >>> inp = example_input(i_rms_a=lambda t: np.where(t < 1.0, 10.0, 60.0))
 
     >>> runs_on_after(inp, 50), runs_on_after(inp, len(inp.cycles))
     (True, False)
@@ -173,17 +137,8 @@ def apparent_impedance(inp: DetectionInput, a: int, b: int) -> np.ndarray | None
     Examples
     --------
     >>> import numpy as np
-    >>> from waveforms.capture import from_arrays, standard_channels
-    >>> from waveforms.detect import DetectionInput
-    >>> from waveforms.measure import measure
-    >>> fs = 5000.0
-    >>> t = np.arange(15000) / fs
-    >>> ph = np.array([0.0, -2.0, 2.0]) * np.pi / 3
-    >>> v = 230.0 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None])
-    >>> i = np.where(t < 1.0, 10.0, 60.0) * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None] - 0.5)
-    >>> cap = from_arrays(np.vstack([v, i]), standard_channels(), fs, nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
-    >>> m = measure(cap)
-    >>> inp = DetectionInput(m.cycles, m.half_cycles, fla_a=10.0, locked_rotor_a=60.0, declared_voltage_ll_v=400.0, capture=cap)
+    >>> from waveforms.detect.examples import example_input
+    >>> inp = example_input(i_rms_a=lambda t: np.where(t < 1.0, 10.0, 60.0))
 
     At locked rotor V/I = 230 V / 60 A = 3.83 ohm at the current's 0.5 rad lag,
     3.83 (cos 0.5 + j sin 0.5) = 3.36 + 1.84j ohm (Ohm's law):
@@ -236,17 +191,8 @@ def standstill_index(inp: DetectionInput, a: int, b: int) -> tuple[int, str]:
     Examples
     --------
     >>> import numpy as np
-    >>> from waveforms.capture import from_arrays, standard_channels
-    >>> from waveforms.detect import DetectionInput
-    >>> from waveforms.measure import measure
-    >>> fs = 5000.0
-    >>> t = np.arange(15000) / fs
-    >>> ph = np.array([0.0, -2.0, 2.0]) * np.pi / 3
-    >>> v = 230.0 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None])
-    >>> i = np.where(t < 1.0, 10.0, 60.0) * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None] - 0.5)
-    >>> cap = from_arrays(np.vstack([v, i]), standard_channels(), fs, nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
-    >>> m = measure(cap)
-    >>> inp = DetectionInput(m.cycles, m.half_cycles, fla_a=10.0, locked_rotor_a=60.0, declared_voltage_ll_v=400.0, capture=cap)
+    >>> from waveforms.detect.examples import example_input
+    >>> inp = example_input(i_rms_a=lambda t: np.where(t < 1.0, 10.0, 60.0))
 
     The current steps straight to its locked-rotor level, so the impedance is
     constant from the first high-current cycle:
@@ -297,17 +243,8 @@ def pull_out_index(inp: DetectionInput, a: int, rise_frac: float = 0.02, lookbac
     Examples
     --------
     >>> import numpy as np
-    >>> from waveforms.capture import from_arrays, standard_channels
-    >>> from waveforms.detect import DetectionInput
-    >>> from waveforms.measure import measure
-    >>> fs = 5000.0
-    >>> t = np.arange(15000) / fs
-    >>> ph = np.array([0.0, -2.0, 2.0]) * np.pi / 3
-    >>> v = 230.0 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None])
-    >>> i = np.where(t < 1.0, 10.0, 60.0) * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None] - 0.5)
-    >>> cap = from_arrays(np.vstack([v, i]), standard_channels(), fs, nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
-    >>> m = measure(cap)
-    >>> inp = DetectionInput(m.cycles, m.half_cycles, fla_a=10.0, locked_rotor_a=60.0, declared_voltage_ll_v=400.0, capture=cap)
+    >>> from waveforms.detect.examples import example_input
+    >>> inp = example_input(i_rms_a=lambda t: np.where(t < 1.0, 10.0, 60.0))
 
     >>> pull_out_index(inp, 51)
     49
@@ -360,17 +297,8 @@ def detect_stall(inp: DetectionInput, prior: dict) -> Findings:
     current, at 1.0 s and stays there:
 
     >>> import numpy as np
-    >>> from waveforms.capture import from_arrays, standard_channels
-    >>> from waveforms.detect import DetectionInput
-    >>> from waveforms.measure import measure
-    >>> fs = 5000.0
-    >>> t = np.arange(15000) / fs
-    >>> ph = np.array([0.0, -2.0, 2.0]) * np.pi / 3
-    >>> v = 230.0 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None])
-    >>> i = np.where(t < 1.0, 10.0, 60.0) * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None] - 0.5)
-    >>> cap = from_arrays(np.vstack([v, i]), standard_channels(), fs, nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
-    >>> m = measure(cap)
-    >>> inp = DetectionInput(m.cycles, m.half_cycles, fla_a=10.0, locked_rotor_a=60.0, declared_voltage_ll_v=400.0, capture=cap)
+    >>> from waveforms.detect.examples import example_input
+    >>> inp = example_input(i_rms_a=lambda t: np.where(t < 1.0, 10.0, 60.0))
 
     >>> e = detect_stall(inp, {}).events[0]
     >>> print(e.kind, round(e.start_s, 2), e.end_s, round(e.figures["i_max_median_pu_fla"], 1), round(e.figures["i_over_locked_rotor"], 2))

@@ -48,17 +48,8 @@ def detect_start(inp: DetectionInput, prior: dict) -> Findings:
     A direct-on-line start at 0.2 s: a 60 A inrush decaying to the 10 A running current:
 
     >>> import numpy as np
-    >>> from waveforms.capture import from_arrays, standard_channels
-    >>> from waveforms.detect import DetectionInput
-    >>> from waveforms.measure import measure
-    >>> fs = 5000.0
-    >>> t = np.arange(15000) / fs
-    >>> ph = np.array([0.0, -2.0, 2.0]) * np.pi / 3
-    >>> v = 230.0 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None])
-    >>> i = np.where(t < 0.2, 0.0, 10 + 50 * np.exp(-np.clip(t - 0.2, 0, None) / 0.4)) * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None] - 0.5)
-    >>> cap = from_arrays(np.vstack([v, i]), standard_channels(), fs, nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
-    >>> m = measure(cap)
-    >>> inp = DetectionInput(m.cycles, m.half_cycles, fla_a=10.0, locked_rotor_a=60.0, declared_voltage_ll_v=400.0, capture=cap)
+    >>> from waveforms.detect.examples import example_input
+    >>> inp = example_input(i_rms_a=lambda t: np.where(t < 0.2, 0.0, 10 + 50 * np.exp(-np.clip(t - 0.2, 0, None) / 0.4)))
 
     >>> e = detect_start(inp, {}).events[0]
     >>> print(e.kind, e.start_s, e.figures["success"], round(e.figures["inrush_pu_fla"], 1))

@@ -92,17 +92,8 @@ def detect_unbalance(inp: DetectionInput, prior: dict) -> Findings:
     Examples
     --------
     >>> import numpy as np
-    >>> from waveforms.capture import from_arrays, standard_channels
-    >>> from waveforms.detect import DetectionInput
-    >>> from waveforms.measure import measure
-    >>> fs = 5000.0
-    >>> t = np.arange(20000) / fs
-    >>> ph = np.array([0.0, -2.0, 2.0]) * np.pi / 3
-    >>> v = np.array([230.0, 230.0, 0.95 * 230.0])[:, None] * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None])
-    >>> i = 10.0 * np.sqrt(2) * np.cos(2 * np.pi * 50 * t[None] + ph[:, None] - 0.5)
-    >>> cap = from_arrays(np.vstack([v, i]), standard_channels(), fs, nominal_frequency_hz=50.0, nominal_voltage_v=400.0)
-    >>> m = measure(cap)
-    >>> inp = DetectionInput(m.cycles, m.half_cycles, fla_a=10.0, locked_rotor_a=60.0, declared_voltage_ll_v=400.0, capture=cap)
+    >>> from waveforms.detect.examples import example_input
+    >>> inp = example_input(v_rms_v=np.array([230.0, 230.0, 0.95 * 230.0])[:, None], duration_s=4)
 
     >>> e = detect_unbalance(inp, {"open_phase": (), "dips": ()}).events[0]
     >>> print(e.kind, round(e.figures["v_unbal_nema_pct_mean"], 1), round(e.figures["nema_derating_factor"], 2))
