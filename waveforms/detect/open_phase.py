@@ -418,4 +418,38 @@ def detect_open_phase(inp: DetectionInput, prior: dict) -> Findings:
                         + (" (running in reverse)" if figs["rotation"] == "reverse" else ""),
                 figures=figs,
             ))
+    out += _change_events(inp, prior, [(e.start_s, e.end_s) for e in out])
     return Findings(tuple(out), inp.reference_notes())
+
+
+_WHERE = {"upstream": "upstream of the logger", "downstream": "downstream of the logger (between logger and motor)",
+          "transformer_primary": "on the primary of the transformer feeding the motor (upstream of the logger)"}
+
+
+def _change_events(inp: DetectionInput, prior: dict, taken: list[tuple[float, float | None]]) -> list[Event]:
+    """Open phases with no dead line, found from the change at onset (`waveforms.detect.open_phase_change`)."""
+    from .open_phase_change import change_open_phases
+
+    out = []
+    for line, start_s, end_s, figs in change_open_phases(inp, taken):
+        j = LINES.index(line)
+        a = int(np.searchsorted(inp.t_end_s, start_s)) + 2
+        b = inp.n if end_s is None else max(a + 1, int(np.searchsorted(inp.t_start_s, end_s)))
+        seg = inp.i_mag[a:b]
+        live = [k for k in range(3) if k != j]
+        figs["live_line_current_a"] = float(np.nanmedian(np.nanmax(seg[:, live], axis=1)))
+        if inp.rated:
+            figs["live_line_current_pu_fla"] = figs["live_line_current_a"] / float(inp.fla_a)
+        figs.update(_motor_after(inp, prior["stall"], start_s, end_s))
+        figs.update(regenerated_voltage(inp, line, a, b, figs["location"] if figs["location"] != "transformer_primary" else "unknown"))
+        where = _WHERE.get(figs["location"], "at a place that cannot be told")
+        ended_by = figs.get("ended_by")
+        tail = (", still open at the end of the capture" if end_s is None else
+                f", returned at {end_s:.4f} s" if ended_by == "phase returned" else f", motor de-energised at {end_s:.3f} s")
+        what = (f"line {line} open (opened at {start_s:.4f} s{tail}), open point {where}" if figs["location"] != "transformer_primary"
+                else f"a primary line of the supply transformer open (at {start_s:.4f} s{tail}): line {line} carries the double "
+                     "current of the 2:1:1 split")
+        out.append(Event(kind="open_phase", phase=line, start_s=start_s, end_s=end_s, detector="open_phase",
+                         summary=f"{what}; found from the change at the onset (no dead line); motor {figs['motor_state']}",
+                         figures=figs))
+    return out

@@ -68,6 +68,44 @@ def _expand(terms: Terms, derived: dict[str, Terms]) -> Terms:
     return {n: c for n, c in out.items() if abs(c) > 1e-12}
 
 
+#: Current unbalance (smaller over larger sequence component) of windows that are the hook-up's own, and of windows
+#: that are an event's when both kinds occur in one capture [-] (our choices, common practice, no source)
+OWN_UNBALANCE_MAX = 0.3
+EVENT_UNBALANCE_MIN = 0.5
+
+
+def balanced_part(i_line: list[np.ndarray], three: np.ndarray) -> np.ndarray:
+    """Windows to judge the clamps by: all of ``three``, or its balanced part when the current unbalance steps within it.
+
+    A hook-up error is there from the first window to the last, so it leaves
+    the current unbalance (the smaller of the positive- and negative-sequence
+    currents over the larger, Fortescue 1918) the same in every window: about
+    0.5 with one reversed clamp, near 0 with two clamps swapped.  An open line
+    whose current is kept up by other equipment (a capacitor bank, another
+    motor, a transformer's 2:1:1 split; issue 19) lifts it to 0.5-1 only after
+    its onset, while every line still carries current.  When some windows are
+    below `OWN_UNBALANCE_MAX` and others above `EVENT_UNBALANCE_MIN`, only the
+    balanced ones are the hook-up's; otherwise all are.
+
+    Examples
+    --------
+    Four windows of a balanced set, then two in which line C carries a quarter
+    of its current and the others have turned towards antiphase:
+
+    >>> import numpy as np
+    >>> a = np.exp(2j * np.pi / 3)
+    >>> ia, ib = np.array([10, 10, 10, 10, 17, 17], complex), np.array([10 * a * a] * 4 + [-15, -15])
+    >>> ic = -(ia + ib)
+    >>> balanced_part([ia, ib, ic], np.ones(6, bool)).tolist()
+    [True, True, True, True, False, False]
+    """
+    u = unbalance(*i_line)
+    low = three & (u <= OWN_UNBALANCE_MAX)
+    if low.sum() >= 2 and (three & (u >= EVENT_UNBALANCE_MIN)).any():
+        return low
+    return three
+
+
 def check_hookup(capture: Capture, nameplate: Any = None, settings: HookupSettings | None = None) -> tuple[Capture, HookupResult]:
     """Check the hook-up of a capture; return the capture to analyse (corrected unless ``as_recorded``) and what was found.
 
@@ -194,6 +232,7 @@ def _check(capture: Capture, nameplate: Any, s: HookupSettings) -> tuple[Capture
         il = [combine(work[c], ph) for c in LINES]
         _, _, kind = classify(il, floor)
         three = steady_sel & (kind == "three")
+        three &= balanced_part(il, three)
         if have_v and three.sum() >= 1:
             vl = {c: combine(vl_terms[c], ph)[three] for c in LINES}
             new, afind, _ = _assign.search(work, i_names, vl, [x[three] for x in il])
@@ -211,6 +250,7 @@ def _check(capture: Capture, nameplate: Any, s: HookupSettings) -> tuple[Capture
         vl = {c: combine(vl_terms[c], ph) for c in LINES}
         _, _, kind = classify(il, floor)
         three = steady & (kind == "three") & live_v
+        three &= balanced_part(il, three)
         lev = np.where(three, np.mean([np.abs(x) for x in il], axis=0), np.nan)
         lag = np.where(three, np.median([np.degrees(np.angle(vl[c] / il[k])) for k, c in enumerate(LINES)], axis=0), np.nan)
         vll = np.where(three, math.sqrt(3.0) * np.mean([np.abs(vl[c]) for c in LINES], axis=0), np.nan)
