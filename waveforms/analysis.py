@@ -199,7 +199,9 @@ def verdict_text(
     for e in ops:
         f = e.figures
         where = {"upstream": "upstream of the logger (on the supply side)",
-                 "downstream": "downstream of the logger (between the logger and the motor)"}.get(f.get("location"), "at a point the voltages do not reveal")
+                 "downstream": "downstream of the logger (between the logger and the motor)",
+                 "transformer_primary": "on the primary of the transformer feeding the motor (upstream of the logger; no dead line, "
+                                        "the currents split 2:1:1)"}.get(f.get("location"), "at a point the voltages do not reveal")
         if f.get("present_at_capture_start"):
             when = "was already open when the capture began"
         elif f.get("present_at_energisation"):
@@ -227,7 +229,9 @@ def verdict_text(
                 "de-energised": f"; the motor was de-energised at {_t(start, e.end_s)}"}.get(end, "; it was still open at the end of the capture")
         alt = f.get("line_if_voltage_leads_moved")  # hook-up: clamps or voltage leads moved, which cannot be told
         line = f"{e.phase} (line {alt} if it is the voltage leads, not the clamps, that were moved)" if alt else e.phase
-        parts.append(f"Line {line} {when}, {where}: {what}{tail}.")
+        lost = (f"A primary line of the supply transformer (line {line} carries the double current)"
+                if f.get("location") == "transformer_primary" else f"Line {line}")
+        parts.append(f"{lost} {when}, {where}: {what}{tail}.")
     if "direction" in timeline:
         told = [o for o in ops if o.figures.get("rotation") == "reverse"]
         for r in timeline[timeline["direction"] == "reverse"].itertuples(index=False):

@@ -18,7 +18,7 @@ from collections.abc import Iterable
 import numpy as np
 import pandas as pd
 
-from .context import DetectionInput, runs
+from .context import LINES, DetectionInput, runs
 from .event import Event
 from .registry import Findings, register
 
@@ -83,6 +83,75 @@ def _excluded(inp: DetectionInput, events: Iterable[Event]) -> np.ndarray:
     return ex
 
 
+#: |V2/I2| below this (per unit of V1/I1) is too small a voltage to drive the current through a motor: the load draws
+#: the negative sequence itself (our choice; a motor's negative-sequence impedance is about its locked-rotor one,
+#: 0.12-0.2 pu; from memory)
+LOAD_Z2_PU = 0.03
+
+
+def unbalance_source(inp: DetectionInput, a: int, b: int) -> dict:
+    """Whose unbalance it is over cycles ``[a, b)``: the supply's (voltage) or the load's (current), with the evidence.
+
+    The negative-sequence impedance seen at the logger, ``z2 = V2 / I2``
+    (Fortescue's components, currents counted towards the load), per unit of
+    ``V1 / I1``: a supply that imposes ``V2`` drives the passive motor, so
+    ``V2 = +Z2 I2`` with ``Z2`` the motor's negative-sequence impedance
+    (inductive, about its locked-rotor impedance): positive reactance, about
+    0.1-0.2 pu.  A load that draws ``I2`` itself (its own open line, a winding
+    fault, single-phase loads on the logged circuit) pulls the voltage only
+    through the supply's impedance, ``V2 = -Zs I2``: a negative reactance and a
+    small magnitude.  (The reasoning of a negative-sequence directional
+    element, common practice, no source.)
+
+    Returns ``unbalance_of`` ("supply", "load" or "unknown"),
+    ``negative_sequence_impedance_pu`` ([re, im], median over the cycles) and
+    ``unbalance_of_reason``.
+
+    Examples
+    --------
+    A supply whose phase C is 5 % low, feeding a balanced passive load: the
+    load's currents follow the voltages, so ``V2 / I2`` is the load's own
+    impedance (here 1 pu, lagging 0.5 rad): the unbalance is the supply's.
+
+    >>> import numpy as np
+    >>> from waveforms.detect.examples import example_input
+    >>> inp = example_input(v_rms_v=np.array([230.0, 230.0, 0.95 * 230.0])[:, None],
+    ...                     i_rms_a=np.array([10.0, 10.0, 9.5])[:, None], duration_s=2)
+    >>> r = unbalance_source(inp, 10, 90)
+    >>> print(r["unbalance_of"], [round(x, 2) for x in r["negative_sequence_impedance_pu"]])
+    supply [0.88, 0.48]
+    """
+    from ..measure.sequence import A as op
+
+    ph_v = [inp.v_phasor(c) for c in LINES]
+    ph_i = [inp.i_phasor(c) for c in LINES]
+    if any(x is None for x in ph_v + ph_i):
+        return {"unbalance_of": "unknown", "unbalance_of_reason": "no voltage and current phasors: the source of the unbalance cannot be told"}
+    if "phase_sequence" in inp.cycles and (inp.cycles["phase_sequence"].astype(str) == "ACB").sum() > inp.n // 2:
+        op = op.conjugate()
+    va, vb, vc = (x[a:b] for x in ph_v)
+    if inp.voltage_reference == "LL":  # line-to-neutral equivalents without zero sequence, Va = (Vab - Vca) / 3
+        va, vb, vc = (va - vc) / 3, (vb - va) / 3, (vc - vb) / 3
+    ia, ib, ic = (x[a:b] for x in ph_i)
+    with np.errstate(all="ignore"):
+        v1, v2 = (va + op * vb + op * op * vc) / 3, (va + op * op * vb + op * vc) / 3
+        i1, i2 = (ia + op * ib + op * op * ic) / 3, (ia + op * op * ib + op * ic) / 3
+        z = (v2 / i2) / np.abs(v1 / i1)
+    z = z[np.isfinite(z)]
+    if z.size == 0:
+        return {"unbalance_of": "unknown", "unbalance_of_reason": "no negative-sequence current: the source cannot be told"}
+    zm = complex(np.median(z.real), np.median(z.imag))
+    load = abs(zm) < LOAD_Z2_PU or zm.imag < 0
+    fig = {"negative_sequence_impedance_pu": [zm.real, zm.imag], "unbalance_of": "load" if load else "supply"}
+    fig["unbalance_of_reason"] = (
+        f"V2/I2 = {zm.real:.3f}{zm.imag:+.3f}j pu of V1/I1: the negative-sequence current flows from the load towards the "
+        "supply and the voltage unbalance is its drop across the supply's impedance (the load, not the supply, is unbalanced)"
+        if load else
+        f"V2/I2 = {zm.real:.3f}{zm.imag:+.3f}j pu of V1/I1, the motor's own negative-sequence impedance: the supply imposes "
+        "the voltage unbalance and the motor's current unbalance follows it")
+    return fig
+
+
 @register("unbalance", needs=("open_phase", "dips"))
 def detect_unbalance(inp: DetectionInput, prior: dict) -> Findings:
     """Sustained NEMA line-voltage unbalance above the threshold, with the NEMA MG-1 derating.
@@ -133,6 +202,20 @@ def detect_unbalance(inp: DetectionInput, prior: dict) -> Findings:
             # current unbalance is roughly 6-10 x the voltage unbalance (rule of thumb, secondary sources)
             figs["current_to_voltage_unbalance_ratio"] = iu / mean
         end = None if b >= inp.n else float(inp.t_start_s[b])
+        keep = np.isfinite(masked)
+        keep[:a], keep[b:] = False, False
+        idx = np.flatnonzero(keep)
+        figs.update(unbalance_source(inp, int(idx[0]), int(idx[-1]) + 1) if idx.size else {"unbalance_of": "unknown"})
+        if figs["unbalance_of"] == "load":
+            iu2 = figs.get("I2_I1_pct_mean", float("nan"))
+            out.append(Event(
+                kind="unbalance", phase=None, start_s=float(inp.t_start_s[a]), end_s=end, detector="unbalance",
+                summary=(f"load (current) unbalance, I2/I1 {iu2:.0f} %, drawn by the equipment below the logger, not the "
+                         f"supply's: the voltage unbalance of {mean:.1f} % is its drop across the supply impedance "
+                         "(no supply derating applies; look for an open line or a winding fault on the load side)"),
+                figures=figs,
+            ))
+            continue
         over = mean > NEMA_MAX_UNBALANCE_PCT
         der = "operation not recommended (NEMA MG-1: above 5 %)" if over else f"NEMA derating factor {figs['nema_derating_factor']:.2f}"
         out.append(Event(
