@@ -50,8 +50,11 @@ in one-cycle phasors taken from the samples just before and just after it
    shows neither is a supply disturbance (a dip or an unbalance), left to
    those detectors, and never an open phase.
 
-Without voltage channels step 2 cannot be made: the lost-branch test alone
-decides and the location is "cannot be told".  All thresholds are our
+Without voltage channels step 2 cannot be made and the lags of step 3
+cannot be judged: the three lines' solutions then differ only by 120 deg
+rotations of ``m``, and the right one is the one within 60 deg of the logged
+current on that line before the onset (the lost branch was part of it); the
+location is "cannot be told".  All thresholds are our
 choices (common practice, no source).
 
 References
@@ -87,6 +90,8 @@ Z2_STIFF_PU = 0.03
 SINGLE_PHASE_RATIO = (1.0, 3.5)
 #: Lag band of a motoring current behind its driving voltage [deg] (0-90, with a margin; common practice)
 MOTORING_LAG_DEG = (-15.0, 100.0)
+#: Without voltages: the lost branch's current before the onset within this angle of the logged current [deg] (our choice)
+BRANCH_VS_LOGGED_DEG = 60.0
 #: Upstream open line: its current below this fraction of the larger other one, its real power below this share [-]
 UPSTREAM_CURRENT_FRAC = 0.35
 UPSTREAM_POWER_SHARE = 0.1
@@ -224,6 +229,12 @@ def lost_branch(i_pre: np.ndarray, i_post: np.ndarray, v_pre: np.ndarray | None,
         fig: dict = {"line": line, "branch_current_before_a": abs(m), "single_phase_current_a": abs(s),
                      "single_phase_ratio": ratio, "remaining_current_a": float(abs(i_post[j]))}
         ok = SINGLE_PHASE_RATIO[0] <= ratio <= SINGLE_PHASE_RATIO[1]
+        if v_pre is None:
+            # no voltage to judge the lags by: the three lines' solutions differ by 120 deg rotations of m, and the
+            # right one is the lost branch's share of the logged current before the onset, so near it in angle
+            rel = math.degrees(cmath.phase(m * e[j] / complex(i_pre[j]))) if abs(i_pre[j]) > 0 and abs(m) > 0 else math.nan
+            fig["branch_vs_logged_deg"] = rel
+            ok = ok and abs(rel) <= BRANCH_VS_LOGGED_DEG
         if v_pre is not None:
             lag_m = _lag_deg(complex(v_pre[j]), m * e[j])
             lag_s = _lag_deg(complex(v_pre[y] - v_pre[z]), s)

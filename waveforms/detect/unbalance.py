@@ -207,6 +207,8 @@ def detect_unbalance(inp: DetectionInput, prior: dict) -> Findings:
         idx = np.flatnonzero(keep)
         figs.update(unbalance_source(inp, int(idx[0]), int(idx[-1]) + 1) if idx.size else {"unbalance_of": "unknown"})
         if figs["unbalance_of"] == "load":
+            for k in ("nema_derating_factor", "extra_temperature_rise_pct", "extra_temperature_rise_source", "derating_source"):
+                figs.pop(k)  # a motor derating for supply unbalance does not apply to the load's own unbalance
             iu2 = figs.get("I2_I1_pct_mean", float("nan"))
             out.append(Event(
                 kind="unbalance", phase=None, start_s=float(inp.t_start_s[a]), end_s=end, detector="unbalance",
