@@ -438,7 +438,7 @@ def _change_events(inp: DetectionInput, prior: dict, taken: list[tuple[float, fl
         seg = inp.i_mag[a:b]
         live = [k for k in range(3) if k != j]
         figs["live_line_current_a"] = float(np.nanmedian(np.nanmax(seg[:, live], axis=1)))
-        if figs.get("remaining_current_a", 0.0) > inp.params.dead_line_frac * figs["live_line_current_a"]:  # the logger sees a feeder: the lost branch's own current (inferred at the onset)
+        if "winding_current_pattern" not in figs and figs.get("remaining_current_a", 0.0) > inp.params.dead_line_frac * figs["live_line_current_a"]:  # the logger sees a feeder: the lost branch's own current (inferred at the onset)
             figs["logger_live_line_current_a"] = figs["live_line_current_a"]
             figs["live_line_current_a"] = figs["single_phase_current_a"]
             figs["live_line_current_basis"] = "the lost branch's single-phase current inferred from the change at the onset"

@@ -257,6 +257,25 @@ def _remaining_kind(lag_deg: float | None) -> str:
     return "mainly resistive"
 
 
+def _two_one_one(i: np.ndarray) -> tuple[int, list[float], float] | None:
+    """The 2:1:1 split: (index of the large line, magnitudes over the smaller small one, the small ones' angle apart [deg]).
+
+    Two currents about equal (within `SPLIT_SMALL_RATIO`) and in phase (within
+    `SPLIT_ANGLE_DEG`), the third about twice as large (`SPLIT_RATIO`) -- and,
+    by Kirchhoff's current law, their sum reversed.  None when no line fits.
+    """
+    mags = np.abs(i)
+    for j in range(3):
+        k, m = (j + 1) % 3, (j + 2) % 3
+        small, big = min(mags[k], mags[m]), max(mags[k], mags[m])
+        if small <= 0:
+            continue
+        apart = abs(math.degrees(cmath.phase(complex(i[k]) / complex(i[m]))))
+        if SPLIT_RATIO[0] <= mags[j] / big and mags[j] / small <= SPLIT_RATIO[1] and big / small <= SPLIT_SMALL_RATIO and apart <= SPLIT_ANGLE_DEG:
+            return j, [float(x / small) for x in mags], apart
+    return None
+
+
 def assess_change(inp: DetectionInput, onset_s: float, ph: dict) -> dict | None:
     """The open-phase call at one onset: the line, the location and the figures behind it; None when it is not one."""
     op = _A
@@ -307,6 +326,15 @@ def assess_change(inp: DetectionInput, onset_s: float, ph: dict) -> dict | None:
             f"logged line-{line} current (Kirchhoff's current law at the logger point, the other load unchanged), and it then "
             f"carries {f['single_phase_current_a']:.1f} A single-phased on the other two lines "
             f"({f['single_phase_ratio']:.2f} x, a single-phased motor draws about sqrt 3 x)")
+        split = _two_one_one(i_post)
+        if split is not None:
+            # the change drawn below the logger, yet the 2:1:1 split of a transformer primary: the winding currents of a
+            # delta motor with one line open (the two windings in series carry 1/3, the third 2/3 of the line current)
+            figs["current_split"] = split[1]
+            figs["winding_current_pattern"] = (
+                "the currents split 2:1:1 while the change was drawn below the logger: the pattern of a delta motor's winding "
+                "currents with one line open; if the clamps are on the six leads of the windings, the channels are winding "
+                "currents, not line currents, and the branch figures above do not apply")
         if direction is None:
             figs.update({"location": "unknown", "location_reason": "cannot be told: no voltage channels, so the change cannot "
                          "be placed above or below the logger; the current change alone fits a branch losing line " + line})
@@ -324,21 +352,19 @@ def assess_change(inp: DetectionInput, onset_s: float, ph: dict) -> dict | None:
     mags = np.abs(i_post)
     p = np.array([(complex(v_post[k]) * complex(i_post[k]).conjugate()).real for k in range(3)])
     p_tot = float(p.sum())
-    for j, line in enumerate(LINES):
-        k, m = (j + 1) % 3, (j + 2) % 3
-        small = min(mags[k], mags[m])
-        apart = abs(math.degrees(cmath.phase(complex(i_post[k]) / complex(i_post[m])))) if small > 0 else 180.0
-        if (small > 0 and SPLIT_RATIO[0] <= mags[j] / max(mags[k], mags[m]) and mags[j] / small <= SPLIT_RATIO[1]
-                and max(mags[k], mags[m]) / small <= SPLIT_SMALL_RATIO and apart <= SPLIT_ANGLE_DEG):
-            figs.update({"location": "transformer_primary", "line": line, "current_split": [float(x / small) for x in mags],
-                         "location_reason": (
-                             f"no line went dead, the change was imposed from above the logger (V2/V1 rose to "
-                             f"{figs['v2_v1_pct_after']:.1f} %), and the currents split "
-                             f"{':'.join(f'{x / small:.1f}' for x in mags)} with lines {LINES[k]} and {LINES[m]} in phase "
-                             f"({apart:.0f} deg apart) and line {line} carrying their sum: a line open on the primary of a "
-                             "delta-wye or wye-delta transformer feeding the motor (the 2:1:1 split; which primary line "
-                             "opened depends on the vector group)")})
-            return figs
+    split = _two_one_one(i_post)
+    if split is not None:
+        j, ratios, apart = split
+        line, k, m = LINES[j], LINES[(j + 1) % 3], LINES[(j + 2) % 3]
+        figs.update({"location": "transformer_primary", "line": line, "current_split": ratios,
+                     "location_reason": (
+                         f"no line went dead, the change was imposed from above the logger (V2/V1 rose to "
+                         f"{figs['v2_v1_pct_after']:.1f} %), and the currents split "
+                         f"{':'.join(f'{x:.1f}' for x in ratios)} with lines {k} and {m} in phase "
+                         f"({apart:.0f} deg apart) and line {line} carrying their sum: a line open on the primary of a "
+                         "delta-wye or wye-delta transformer feeding the motor (the 2:1:1 split; which primary line "
+                         "opened depends on the vector group)")})
+        return figs
     for j, line in enumerate(LINES):
         others = [k for k in range(3) if k != j]
         if mags[j] < UPSTREAM_CURRENT_FRAC * mags[others].max() and p_tot > 0 and abs(p[j]) < UPSTREAM_POWER_SHARE * p_tot:
