@@ -76,7 +76,6 @@ import pandas as pd
 
 from ..measure.sequence import A as _A
 from .context import LINES, DetectionInput, runs
-from .event import Event
 from .pointonwave import refine_onset_s
 
 #: Negative-sequence current step that marks an onset, as a fraction of the positive-sequence current before [-] (our choice)
