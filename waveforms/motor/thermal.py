@@ -30,7 +30,9 @@ while running (no fan air): `STANDSTILL_COOLING_RATIO` times the heating
 constant, common practice (2 to 4 x), no source.  Past the end of the capture
 the models are projected at the last steady heating current, and the verdict's
 sensitivity to the assumed time constant, K and locked-rotor current is
-reported.
+reported.  Across consecutive files of one site the batch carries the end state of one
+file into the next (`carry_states`, `free_response_decay`, `cooled_state`;
+`waveforms.incidents.thermal_carry`).
 
 Everything here takes arrays (per-cycle values) and returns arrays or
 DataFrames; nothing reads files or prints.
