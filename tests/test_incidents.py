@@ -69,6 +69,21 @@ def test_open_phase_over_three_files_is_one_incident_with_the_true_boundaries(ba
     assert not got["open_when_recording_began"]
 
 
+def test_thermal_state_is_carried_into_the_files_that_begin_single_phased(batch_run):
+    # no external source: files 3 and 4 begin single-phased (about 2 x FLA heating), where their own
+    # initial state is cold; following file 2 by 1 s they start from its end state instead.
+    res, _ = batch_run
+    tab = res.thermal_carry.set_index("file")
+    assert (res.out / "thermal_carry.csv").is_file()
+    for f, prev in (("booster_sequence_3.h5", "booster_sequence_2.h5"), ("booster_sequence_4.h5", "booster_sequence_3.h5")):
+        r = tab.loc[f]
+        assert r["own_initial_pct"] == pytest.approx(0.0, abs=1e-9)
+        assert r["carried_from"] == prev and r["gap_s"] == pytest.approx(1.0, abs=0.01)
+        assert r["initial_pct"] >= tab.loc[prev, "end_pct"] - 1e-9 > 40.0  # heated on over the gap, never cooler
+        assert r["basis"].startswith(f"initial state carried from {prev}, ended at ")
+    assert tab["end_pct"].is_monotonic_increasing  # the motor runs hot and single-phased from file 2 on
+
+
 def test_incident_files_and_timeline_are_written(batch_run):
     # no external source: the files exist, agree with the frame, and the page holds one figure per site
     res, _ = batch_run

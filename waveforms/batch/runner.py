@@ -67,6 +67,8 @@ class BatchResult:
     files: dict[str, Path] = dataclasses.field(default_factory=dict)
     #: incidents across consecutive captures of each site (`waveforms.incidents.INCIDENT_COLUMNS`)
     incidents: pd.DataFrame | None = None
+    #: per capture, the thermal state carried from the previous file of its site (`waveforms.incidents.thermal_carry`)
+    thermal_carry: pd.DataFrame | None = None
 
     @property
     def ok(self) -> bool:
@@ -242,13 +244,16 @@ def run(
         events = pd.concat(ev_frames, ignore_index=True) if ev_frames else _empty_events()
         written: dict[str, Path] = {}
         incidents = _incidents(summary, events, site_from, gap_tolerance_s)  # post-run step (waveforms.incidents)
+        thermal_carry = _thermal_carry(summary, {t.input.name: entries[k].get("thermal_carry") for t, k in zip(tasks, keys, strict=True)
+                                                 if k in entries and entries[k].get("thermal_carry")}, site_from, gap_tolerance_s)
         if out_path is not None:
             try:
-                from ..incidents import site_timelines, write_incidents
+                from ..incidents import site_timelines, write_incidents, write_thermal_carry
 
                 written = write_summary(summary, out_path, title=f"Capture summary: recipe {rec.name}",
                                         timelines=site_timelines(summary, incidents, site_from))
                 written.update(write_incidents(incidents, out_path))
+                written.update(write_thermal_carry(thermal_carry, out_path))
                 index = {"format": "motor-waveforms batch manifest", "recipe": rec.name, "recipe_fingerprint": fp,
                          "recipe_source": rec.source, "complete": not interrupted,
                          "captures": [{"file": t.input.name, "path": t.input.path, "key": k, "done": k in entries}
@@ -263,7 +268,8 @@ def run(
         n_pending = int((summary["status"] == PENDING_STATUS).sum()) if len(summary) else 0
         return BatchResult(summary=summary, events=events, n_done=len(new), n_skipped=n_skipped, n_failed=n_failed,
                            interrupted=interrupted, out=out_path, files=written, n_pending=n_pending,
-                           signal=int(stop_signal), incidents=incidents)
+                           signal=int(stop_signal), incidents=incidents,
+                           thermal_carry=thermal_carry)
 
 
 #: ``status`` of a capture the run did not reach (stopped first).
@@ -330,6 +336,15 @@ def _incidents(summary: pd.DataFrame, events: pd.DataFrame, site_from: str | Non
 
     gap = DEFAULT_GAP_TOLERANCE_S if gap_tolerance_s is None else gap_tolerance_s
     return build_incidents(summary, events, site_from=site_from, gap_tolerance_s=gap)
+
+
+def _thermal_carry(summary: pd.DataFrame, carries: dict[str, dict[str, Any]], site_from: str | None,
+                   gap_tolerance_s: float | None) -> pd.DataFrame:
+    """Initial and end thermal states carried across consecutive captures (`waveforms.incidents.carry_thermal`)."""
+    from ..incidents import DEFAULT_GAP_TOLERANCE_S, capture_spans, carry_thermal
+
+    gap = DEFAULT_GAP_TOLERANCE_S if gap_tolerance_s is None else gap_tolerance_s
+    return carry_thermal(capture_spans(summary, site_from), carries, gap)
 
 
 def _plan(files: Sequence[InputFile], rec: Recipe, mmap: MotorMap, out_path: Path | None,

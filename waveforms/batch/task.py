@@ -115,6 +115,7 @@ def process_capture(task: CaptureTask) -> dict[str, Any]:
     extra: dict[str, Any] = {"path": f.path, "sha256": task.sha256, "recipe": task.recipe.name,
                              "recipe_hash": task.recipe.fingerprint()[:16]}
     staged: Path | None = None
+    extra_carry: dict[str, Any] | None = None
     if task.out_dir:
         staged = staging_folder(task.out_dir)
         try:
@@ -145,6 +146,8 @@ def process_capture(task: CaptureTask) -> dict[str, Any]:
         extra["elapsed_s"] = time.perf_counter() - t0
         row = summary_row(state, f.name, f.site, extra)
         events = _records(events_frame(state.events))
+        if getattr(state, "thermal", None) is not None:  # for the thermal state carried across files (waveforms.incidents)
+            extra_carry = dict(state.thermal.carry)
         _close(state)
         if staged is not None and task.out_dir:
             _publish(staged, Path(task.out_dir))
@@ -170,8 +173,11 @@ def process_capture(task: CaptureTask) -> dict[str, Any]:
     except Exception as e:  # failure isolation: any bug becomes this capture's error row
         _discard(staged)
         row, events = _bug_row(task, e, extra, t0), []
-    return {"format": MANIFEST_FORMAT, "key": task.key, "row": row, "events": events,
-            "worker": f"{socket.gethostname()}:{os.getpid()}", "started": started, "finished": time.time()}
+    entry = {"format": MANIFEST_FORMAT, "key": task.key, "row": row, "events": events,
+             "worker": f"{socket.gethostname()}:{os.getpid()}", "started": started, "finished": time.time()}
+    if row.get("status") == "ok" and extra_carry:
+        entry["thermal_carry"] = extra_carry
+    return entry
 
 
 def _bug_row(task: CaptureTask, e: BaseException, extra: dict[str, Any], t0: float) -> dict[str, Any]:

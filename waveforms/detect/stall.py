@@ -23,6 +23,7 @@ import math
 
 import numpy as np
 import pandas as pd
+from scipy.signal import welch
 
 from ..measure.sequence import sequence_components
 from .context import LINES, DetectionInput, runs, speed_summary
@@ -33,6 +34,25 @@ from .registry import Findings, register
 #: Span of the following cycles whose median a cycle's impedance is compared with in
 #: `standstill_index` [s] (our choice: long against the scatter, short against a long stall's drift).
 STANDSTILL_AHEAD_S = 0.5
+
+#: Already stalled without a nameplate: largest median power factor taken as locked-rotor-like.
+#: Locked-rotor power factors of induction motors run from about 0.15 (large) to 0.5 (small)
+#: (from memory; IEEE Std 399 motor-starting studies use such values, no table cited); the
+#: bundled 50 hp model draws 0.45.  A lightly loaded running motor is as low, so this is never
+#: enough alone (`ROTOR_LINE_DB`).
+LOCKED_ROTOR_PF_MAX = 0.55
+
+#: A spectral line of the line current away from the supply harmonics, at least this strong
+#: relative to the fundamental [dB] and `ROTOR_LINE_ABOVE_FLOOR_DB` above the spectrum's median
+#: floor, is a rotor-speed line (eccentricity sidebands f +/- f_r, rotor-slot harmonics): the
+#: rotor turns.  At standstill (slip 1) these lines fall onto the supply frequency and its
+#: harmonics (slot-harmonic frequency f (1 +/- k R (1 - s) / p) = f at s = 1; common practice,
+#: no source).  Thresholds our choice, no source: running motors show them at -40 to -60 dB.
+ROTOR_LINE_DB = -80.0
+ROTOR_LINE_ABOVE_FLOOR_DB = 15.0
+
+#: Settling skipped at the capture start (energising transient) for the rotor-line spectrum [s].
+SPECTRUM_SKIP_S = 0.3
 
 
 def energisations(inp: DetectionInput) -> list[tuple[int, int]]:
@@ -287,6 +307,107 @@ def _dip_just_before(inp: DetectionInput, a: int) -> bool:
     return bool(v.size and np.nanmin(v) < 0.9)
 
 
+def rotor_line_db(x_a: np.ndarray, fs_hz: float, f_hz: float) -> tuple[float, float, float]:
+    """Strongest current line away from the supply harmonics: (level, floor, frequency).
+
+    ``level`` and ``floor`` in dB relative to the fundamental (the floor is the median of the
+    searched band), ``frequency`` in Hz.  Welch spectrum (segments of at most 4 s, half
+    overlap; scipy.signal.welch); searched 5 Hz to min(0.45 fs, 1500 Hz), leaving out
+    max(2 Hz, 6 bins) around every multiple of ``f_hz``.  Blackman-Harris window (sidelobes
+    below -92 dB, Harris 1978), so that the fundamental's leakage is not taken for a line.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> fs = 5000.0
+    >>> t = np.arange(int(3 * fs)) / fs
+    >>> x = 100 * np.sin(2 * np.pi * 60 * t) + 0.3 * np.sin(2 * np.pi * 89 * t)
+    >>> level, floor, f = rotor_line_db(x, fs, 60.0)
+    >>> round(f), round(level)   # 20 log10(0.3 / 100) = -50.5 dB
+    (89, -50)
+    """
+    x = np.asarray(x_a, float)
+    x = np.where(np.isfinite(x), x, 0.0)
+    nper = int(min(x.size, 4 * fs_hz))
+    fr, p = welch(x, fs_hz, window="blackmanharris", nperseg=nper, noverlap=nper // 2, detrend="constant", scaling="spectrum")
+    df = float(fr[1] - fr[0])
+    k1 = int(np.argmin(np.abs(fr - f_hz)))
+    p1 = float(p[max(0, k1 - 4) : k1 + 5].sum())  # the fundamental's power, its main lobe included
+    h = np.round(fr / f_hz)
+    band = (fr >= 5.0) & (fr <= min(0.45 * fs_hz, 1500.0)) & ~(np.abs(fr - h * f_hz) <= max(2.0, 6 * df))
+    if not band.any() or not p1 > 0:
+        return math.nan, math.nan, math.nan
+    k = int(np.flatnonzero(band)[int(np.argmax(p[band]))])
+    pk = float(p[max(0, k - 4) : k + 5].sum())  # the line's main lobe, as for the fundamental
+    return (10 * math.log10(max(pk, 1e-300) / p1), 10 * math.log10(max(float(np.median(p[band])), 1e-300) / p1),
+            float(fr[k]))
+
+
+def stalled_from_start(inp: DetectionInput) -> tuple[Event | None, str | None]:
+    """Without a nameplate, a capture that begins with the rotor already locked: (event, note).
+
+    No pre-event running current exists to compare with, so the waveforms alone are judged:
+    energised from the first cycle to (nearly) the end at a steady current, a median power factor
+    at most `LOCKED_ROTOR_PF_MAX` (locked-rotor-like) and no rotor-speed line in the current
+    spectrum (`rotor_line_db`: slip 1).  A stall "judged without a nameplate" when all hold; a
+    "not assessed" note when the power factor looks locked but the spectrum cannot be read;
+    (None, None) when it is not this case (the current varies, or a rotor line shows the rotor turns).
+    The impedance V/I against a rated value (about 1 / (locked-rotor multiple) pu, 0.15-0.2 pu,
+    common practice, no source) needs a rating, so it is not used.
+    """
+    p = inp.params
+    on = inp.energised
+    if inp.rated or inp.n < 8 or not on[:3].all():
+        return None, None
+    stop = np.flatnonzero(~on)
+    b = int(stop[0]) if stop.size else inp.n
+    a = min(b, int(math.ceil(SPECTRUM_SKIP_S / inp.cycle_s)))
+    t0, t1 = float(inp.t_start_s[0]), float(inp.t_end_s[b - 1])
+    if t1 - t0 < max(p.min_stall_s, 1.0) or b - a < 8:
+        return None, None
+    seg = inp.i_max[a:b]
+    seg = seg[np.isfinite(seg)]
+    if seg.size < 8 or not float(np.min(seg)) > 0 or float(np.max(seg)) > 1.15 * float(np.min(seg)):
+        return None, None  # the current moves: a start, a load change, an event the other rules judge
+    pf = inp.col("PF")
+    pf_med = float(np.nanmedian(np.abs(pf[a:b]))) if pf is not None and np.isfinite(pf[a:b]).any() else math.nan
+    if not pf_med <= LOCKED_ROTOR_PF_MAX:
+        return None, None  # a loaded running motor (or no power factor to judge by)
+    med = np.nanmedian(np.where(np.isfinite(inp.i_rms[a:b]), inp.i_rms[a:b], -1.0), axis=0)
+    line = max((c for c in inp.current_channels if c in LINES), key=lambda c: float(med[LINES.index(c)]), default=None)
+    if inp.capture is None or line is None:
+        return None, (f"already-stalled check (no nameplate): not assessed: power factor {pf_med:.2f} is locked-rotor-like, "
+                      "but the samples for the rotor-line spectrum are not at hand")
+    fs = float(inp.capture.sample_rate_hz)
+    lo = int(round(t0 * fs)) + int(round(SPECTRUM_SKIP_S * fs))
+    hi = min(inp.capture.n_samples, int(round(t1 * fs)))
+    if hi - lo < int(fs):  # under 1 s: too coarse a spectrum to tell a sideband from the fundamental
+        return None, "already-stalled check (no nameplate): not assessed: under 1 s of steady current for the spectrum"
+    x = inp.capture.read(lo, hi, [inp.current_channels[line]])[0]
+    level, floor, f_line = rotor_line_db(x, fs, 1.0 / inp.cycle_s)
+    if not math.isfinite(level):
+        return None, "already-stalled check (no nameplate): not assessed: no current spectrum"
+    if level >= ROTOR_LINE_DB and level - floor >= ROTOR_LINE_ABOVE_FLOOR_DB:
+        return None, None  # a rotor line: the rotor turns (a lightly loaded running motor)
+    i_med = float(np.median(seg))
+    figs = {"i_max_median_a": i_med, "power_factor_median": pf_med, "rotor_line_db": level, "spectrum_floor_db": floor,
+            "rotor_line_hz": f_line, "basis": "judged without a nameplate: locked-rotor power factor, no rotor-speed line "
+            "in the current spectrum (slip 1)", "judged_without_nameplate": True, "from_energisation": False,
+            "present_at_capture_start": True, "single_phased": bool(inp.dead_line[a:b].any(axis=1).mean() > 0.5),
+            "rest_s": t0, "pull_out_s": None,
+            "ended_by": "capture end" if b >= inp.n else "de-energised"}
+    figs.update(speed_summary(inp.speed, t0, None if b >= inp.n else float(inp.t_start_s[b])))
+    end_s = None if b >= inp.n else float(inp.t_start_s[b])
+    dur = t1 - t0
+    ev = Event(kind="stall", phase=None, start_s=t0, end_s=end_s, detector="stall",
+               summary=(f"motor already stalled when the capture began (judged without a nameplate): {i_med:.0f} A at power "
+                        f"factor {pf_med:.2f}, no rotor-speed line in the current spectrum (strongest {level:.0f} dB, "
+                        f"floor {floor:.0f} dB re the fundamental) for {dur:.2f} s"
+                        + (" (still stalled at the end of the capture)" if end_s is None else "")),
+               figures=figs)
+    return ev, None
+
+
 @register("stall")
 def detect_stall(inp: DetectionInput, prior: dict) -> Findings:
     """Stalls (locked rotor) on a healthy or single-phased supply.
@@ -384,4 +505,10 @@ def detect_stall(inp: DetectionInput, prior: dict) -> Findings:
             summary=f"motor {cause} {how}: {level} for {dur_txt}",
             figures=figs,
         ))
+    if not inp.rated and not out:
+        ev, note = stalled_from_start(inp)
+        if ev is not None:
+            out.append(ev)
+        if note:
+            notes = (*notes, note)
     return Findings(tuple(out), notes)

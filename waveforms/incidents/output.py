@@ -25,3 +25,20 @@ def write_incidents(frame: pd.DataFrame, out_dir: str | os.PathLike[str]) -> dic
     with atomic_path(paths["incidents_parquet"]) as tmp:
         frame.to_parquet(tmp, index=False)
     return paths
+
+
+CARRY_FILES = ("thermal_carry.csv", "thermal_carry.parquet")
+
+
+def write_thermal_carry(frame: pd.DataFrame, out_dir: str | os.PathLike[str]) -> dict[str, Path]:
+    """Write the carried thermal states (`waveforms.incidents.carry_thermal`) as CSV and Parquet, each atomically."""
+    from ..summary import _csv_safe
+
+    out = Path(out_dir)
+    paths = {"thermal_carry_csv": out / CARRY_FILES[0], "thermal_carry_parquet": out / CARRY_FILES[1]}
+    buf = io.StringIO()
+    _csv_safe(frame).to_csv(buf, index=False)
+    write_text(paths["thermal_carry_csv"], buf.getvalue())
+    with atomic_path(paths["thermal_carry_parquet"]) as tmp:
+        frame.to_parquet(tmp, index=False)
+    return paths

@@ -30,7 +30,9 @@ while running (no fan air): `STANDSTILL_COOLING_RATIO` times the heating
 constant, common practice (2 to 4 x), no source.  Past the end of the capture
 the models are projected at the last steady heating current, and the verdict's
 sensitivity to the assumed time constant, K and locked-rotor current is
-reported.
+reported.  Across consecutive files of one site the batch carries the end state of one
+file into the next (`carry_states`, `free_response_decay`, `cooled_state`;
+`waveforms.incidents.thermal_carry`).
 
 Everything here takes arrays (per-cycle values) and returns arrays or
 DataFrames; nothing reads files or prints.
@@ -375,6 +377,72 @@ class ThermalResult:
 
     track: pd.DataFrame
     summary: dict
+    #: The figures a later file of the same site needs to carry this file's end state into its own
+    #: start (`carry_states`): ``theta0_pu2``, ``theta_end_pu2`` (motor model, (pu FLA)^2),
+    #: ``free_decay_end`` (the share of the initial state left at the end, `free_response_decay`),
+    #: ``off_at_start``, ``off_at_end``, ``start_heating_pu2`` (median heating^2 of the first
+    #: `EDGE_WINDOW_S` while energised, None when de-energised there), ``motor_tau_s``,
+    #: ``cooling_ratio``, ``sf``, ``t_end_s``.  Kept out of ``summary`` (and result.json).
+    carry: dict = dataclasses.field(default_factory=dict)
+
+
+def free_response_decay(off: np.ndarray, dt_s: float, tau_s: float, cooling_ratio: float) -> np.ndarray:
+    """Share of the initial state still present at the end of each step, ``exp(-sum dt / tau_n)``.
+
+    The model is linear in its initial state: a trace started from ``theta0`` is the trace started
+    from ``theta0'`` plus ``(theta0 - theta0') * decay`` (superposition of the free response of the
+    first-order equation).  ``tau_n`` is ``tau_s`` while energised and ``cooling_ratio * tau_s``
+    where ``off`` (de-energised, cooling without fan air).
+
+    References
+    ----------
+    .. [1] IEC 60255-149:2013, clause 5 (first-order thermal model; its free response is
+       ``theta0 exp(-t / tau)``).
+    """
+    off = np.asarray(off, bool)
+    if not (dt_s > 0 and tau_s > 0 and cooling_ratio > 0):
+        raise InvalidParameterError(f"{dt_s=}, {tau_s=} and {cooling_ratio=} must be positive")
+    rate = np.where(off, 1.0 / (tau_s * cooling_ratio), 1.0 / tau_s)
+    return np.exp(-np.cumsum(rate * dt_s))
+
+
+def cooled_state(theta: float, gap_s: float, tau_s: float, target: float = 0.0) -> float:
+    """State after ``gap_s`` seconds at constant input ``target`` from ``theta`` (cooling when ``target`` is 0).
+
+    ``theta(t) = target + (theta - target) exp(-t / tau)`` (IEC 60255-149:2013, clause 5, the
+    first-order thermal model at constant current; exponential cooling for ``target = 0``).
+    """
+    if not (gap_s >= 0 and tau_s > 0):
+        raise InvalidParameterError(f"{gap_s=} must be 0 or more and {tau_s=} positive")
+    return float(target + (theta - target) * math.exp(-gap_s / tau_s))
+
+
+def carry_states(theta0: np.ndarray, theta_end: np.ndarray, free_decay_end: np.ndarray, gap_s: np.ndarray,
+                 gap_target: np.ndarray, gap_tau_s: np.ndarray, linked: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Initial and end states of consecutive files with the state carried from file to file.
+
+    File ``k`` (``linked[k]`` true) starts from file ``k-1``'s carried end state, moved over the
+    ``gap_s[k]`` between them towards ``gap_target[k]`` with ``gap_tau_s[k]`` (`cooled_state`);
+    its end state is its own end state plus the change of initial state times ``free_decay_end[k]``
+    (superposition, `free_response_decay`): exact for the first-order model.  An unlinked file
+    keeps its own initial state.  All arrays per file, in time order; states in (pu)^2.
+
+    Returns
+    -------
+    (ndarray, ndarray)
+        Carried initial and end states per file.
+    """
+    theta0 = np.asarray(theta0, float)
+    n = theta0.size
+    th_end = np.asarray(theta_end, float)
+    dec = np.asarray(free_decay_end, float)
+    start = theta0.copy()
+    end = th_end.copy()
+    for k in range(n):  # one step per file (few), not per sample
+        if k > 0 and bool(linked[k]):
+            start[k] = cooled_state(end[k - 1], float(gap_s[k]), float(gap_tau_s[k]), float(gap_target[k]))
+            end[k] = th_end[k] + (start[k] - theta0[k]) * dec[k]  # linear in the initial state
+    return start, end
 
 
 def _edge_heating(u: np.ndarray, t_s: np.ndarray, first: bool, stop: np.ndarray | None = None) -> tuple[float | None, str]:
@@ -691,4 +759,13 @@ def assess_thermal(
         "sensitivity": sens,
         "notes": notes,
     }
-    return ThermalResult(track=track, summary=summary)
+    energised = ~off & (t_s <= t_s[0] + EDGE_WINDOW_S)
+    carry = {
+        "theta0_pu2": float(th0_m), "theta_end_pu2": float(base["theta_motor"][-1]),
+        "free_decay_end": float(free_response_decay(off, dt, params.motor_tau_s, params.standstill_cooling_ratio)[-1]),
+        "off_at_start": bool(off[0]), "off_at_end": bool(off[-1]),
+        "start_heating_pu2": float(np.median(u[energised])) if energised.any() else None,
+        "motor_tau_s": float(params.motor_tau_s), "cooling_ratio": float(params.standstill_cooling_ratio), "sf": sf,
+        "t_end_s": t_last, "initial_mode": start,
+    }
+    return ThermalResult(track=track, summary=summary, carry=carry)
