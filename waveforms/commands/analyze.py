@@ -75,12 +75,15 @@ def _reading(rec: Recipe, fmt: str | None, options: ReadOptions) -> tuple[str | 
 @click.option("--as-recorded", "as_recorded", is_flag=True,
               help="Analyse the file exactly as recorded: report hook-up errors (reversed or moved clamps, A-C-B labels, "
                    "dead sensors) but do not correct them.")
+@click.option("--currents", "currents", type=click.Choice(["line", "winding"]),
+              help="What the current channels Ia, Ib, Ic measure: 'winding' = the windings A-B, B-C, C-A of a delta motor "
+                   "(six-lead hook-up, A->B); the line currents are then derived by Kirchhoff's law (default: as the file says).")
 @threads_option
 @read_options
 def command(capture: str, motor: str | None, out_dir: str, recipe_name: str, no_html: bool, cycles: str, no_speed: bool,
             speed_window_s: float | None, motor_tau_s: float | None, k_neg: float | None, relay_setting_a: float | None,
             hot_start: bool, threads: int | None, as_recorded: bool = False, cold_start: bool = False,
-            declared_voltage_v: float | None = None, **kw: Any) -> None:
+            declared_voltage_v: float | None = None, currents: str | None = None, **kw: Any) -> None:
     """Find open phase, stall, starts, dips and unbalance in CAPTURE; judge thermal stress; write a report.
 
     The report informs; it does not replace protective devices. Work on
@@ -118,6 +121,8 @@ def command(capture: str, motor: str | None, out_dir: str, recipe_name: str, no_
         rec = _set(rec, "detect", {"declared_voltage_v": declared_voltage_v}, "--declared-voltage")
     if as_recorded:
         rec = _set(rec, "hookup", {"as_recorded": True}, "--as-recorded")
+    if currents is not None:
+        rec = _set(rec, "import", {"currents": currents}, "--currents")
     fmt, options = _reading(rec, fmt, options)
     from ..io.csv_stream import open_capture
     from ..io.trend import is_trend_log
