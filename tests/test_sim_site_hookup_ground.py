@@ -43,7 +43,9 @@ def test_six_lead_healthy_winding_currents_are_line_over_root_three_leading_30()
     # balanced delta: I_line = sqrt(3) I_winding, and the line current lags the winding current (A-B) by 30 deg
     assert np.allclose(np.abs(i_l) / np.abs(i_w), math.sqrt(3), rtol=1e-3)
     assert np.allclose(np.degrees(np.angle(i_l / i_w)), -30.0, atol=0.1)
-    assert sim.truth["capture"]["currents"] == "winding" and sim.truth["capture"]["current_channels"]["Ia"].startswith("winding A-B")
+    assert sim.truth["capture"]["currents"] == "winding" and sim.truth["capture"]["current_channels"]["Iab"].startswith("winding A-B")
+    # the capture says what the clamps measure: channels Iab, Ibc, Ica of reference "winding" (no external source)
+    assert [(c.name, c.reference) for c in sim.capture.find("current")] == [("Iab", "winding"), ("Ibc", "winding"), ("Ica", "winding")]
 
 
 def test_six_lead_with_line_c_open_splits_two_thirds_one_third():

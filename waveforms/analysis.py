@@ -516,9 +516,47 @@ def supply_voltage_record(
     d = declared_supply_voltage(capture, measurements, params)
     meas = _measured_voltage_ll_v(capture, measurements)
     term = None
-    if nameplate is not None and meas is not None and meas > 0:
-        term = terminal_voltage_check(meas, float(nameplate.rated_voltage_v))
+    cab = _cable_terminal(capture, measurements, params, meas)  # a cable between logger and motor (issue 19 item 6)
+    at_motor = meas if cab is None or cab.get("terminal_ll_v") is None else cab["terminal_ll_v"]
+    if nameplate is not None and at_motor is not None and at_motor > 0:
+        term = terminal_voltage_check(at_motor, float(nameplate.rated_voltage_v))
+        if cab is not None:
+            term["cable"] = cab
+            term["sentence"] = "estimated " + term["sentence"].replace(
+                "line-to-line,", f"line-to-line at the motor (logger median {meas:.0f} V less the drop in {cab['cable']['basis']}),", 1)
     return {"declared": {"ll_v": d.ll_v, "source": d.source, "basis": d.basis}, "measured_ll_v": meas, "motor_terminal": term}
+
+
+def _terminal_phasors(capture: Capture, cycles: pd.DataFrame, params: DetectParams | None) -> tuple[Any, Any, Any] | None:
+    """(cable, logger LL phasors, terminal LL phasors) per cycle, or None without a cable (`waveforms.motor.terminal`)."""
+    from .motor.terminal import cable_from_params, terminal_ll_phasors
+
+    cable = cable_from_params(params) if params is not None else None
+    if cable is None or cycles is None:
+        return None
+    volts, curs = capture.phase_channels("voltage"), capture.phase_channels("current")
+    if len(volts) != 3 or len(curs) != 3:
+        return None
+
+    def ph(ch: Any) -> np.ndarray:
+        return cycles[f"{ch.label}_mag"].to_numpy(float) * np.exp(1j * np.deg2rad(cycles[f"{ch.label}_ang_deg"].to_numpy(float)))
+
+    ref = volts["A"].reference
+    v = np.vstack([ph(volts[c]) for c in "ABC"])
+    i = np.vstack([ph(curs[c]) for c in "ABC"])
+    v_ll = v if ref == "LL" else np.vstack([v[0] - v[1], v[1] - v[2], v[2] - v[0]])
+    return cable, v_ll, terminal_ll_phasors(v, i, ref, cable)
+
+
+def _cable_terminal(capture: Capture, measurements: Any, params: DetectParams | None, meas: float | None) -> dict | None:
+    from .motor.terminal import terminal_record
+
+    got = _terminal_phasors(capture, getattr(measurements, "cycles", None), params)
+    if got is None or meas is None:
+        return None
+    cable, v_ll, v_t = got
+    i1 = measurements.cycles["I1"].to_numpy(float) if "I1" in measurements.cycles else np.ones(v_ll.shape[1])
+    return terminal_record(v_ll, v_t, i1, meas, cable)
 
 
 def detection_input(
@@ -532,7 +570,9 @@ def detection_input(
     """
     plate = nameplate
     decl = declared_supply_voltage(capture, measurements, params)
+    got = _terminal_phasors(capture, measurements.cycles, params)  # stall threshold at the motor's voltage
     return DetectionInput(
+        terminal_ll_v=None if got is None else np.abs(got[2]),
         cycles=measurements.cycles, half_cycles=getattr(measurements, "half_cycles", None), speed=speed,
         fla_a=None if plate is None else float(plate.fla_a), locked_rotor_a=locked_rotor_a(plate),
         declared_voltage_ll_v=decl.ll_v, declared_voltage_source=decl.source,
@@ -708,7 +748,8 @@ def build_result(
 ) -> AnalysisResult:
     """The `AnalysisResult`, with the verdict written from the events, thermal result and quality warnings."""
     n_warn = sum(1 for q in quality if q.get("severity") == "warning")
-    dparams = DetectParams(declared_voltage_v=(parameters.get("detect") or {}).get("declared_voltage_v"))
+    dparams = DetectParams(**{k: v for k, v in (parameters.get("detect") or {}).items()
+                              if k == "declared_voltage_v" or k.startswith("cable_")})
     voltage = supply_voltage_record(capture, measurements, nameplate, dparams) if measurements is not None else None
     verdict = verdict_text(events, thermal, timeline, capture.start_time, nameplate, n_warn)
     term = None if voltage is None else voltage.get("motor_terminal")

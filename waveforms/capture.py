@@ -27,16 +27,19 @@ if TYPE_CHECKING:  # for the annotation only: nothing of waveforms.motor is impo
 
 Kind = Literal["voltage", "current"]
 Conductor = Literal["A", "B", "C", "N"]
-Reference = Literal["LN", "LL", "line", "neutral"]
+Reference = Literal["LN", "LL", "line", "neutral", "winding"]
 Wiring = Literal["3-wire", "4-wire"]
 
 KINDS: tuple[str, ...] = ("voltage", "current")
 CONDUCTORS: tuple[str, ...] = ("A", "B", "C", "N")
-REFERENCES: tuple[str, ...] = ("LN", "LL", "line", "neutral")
+REFERENCES: tuple[str, ...] = ("LN", "LL", "line", "neutral", "winding")
 BASE_UNIT = {"voltage": "V", "current": "A"}
 #: For a line-to-line voltage the channel's conductor is the first line of the
 #: pair; the second is the next one in A-B-C order (A -> AB, B -> BC, C -> CA).
 LL_PAIR = {"A": "AB", "B": "BC", "C": "CA"}
+#: A delta winding current (reference ``"winding"``, a six-lead hook-up) is named the same way: conductor
+#: ``"A"`` is the winding A-B, measured in the direction A -> B (``Iab``), ``"B"`` B-C, ``"C"`` C-A.
+WINDING_PAIR = LL_PAIR
 
 
 @dataclasses.dataclass(frozen=True)
@@ -50,11 +53,14 @@ class Channel:
     kind : {"voltage", "current"}
     conductor : {"A", "B", "C", "N"}
         The line the signal belongs to.  For a line-to-line voltage, the first
-        line of the pair (``"A"`` for Vab, see `LL_PAIR`).
-    reference : {"LN", "LL", "line", "neutral"}
+        line of the pair (``"A"`` for Vab, see `LL_PAIR`); for a winding
+        current, the winding's first terminal (``"A"`` for Iab, see `WINDING_PAIR`).
+    reference : {"LN", "LL", "line", "neutral", "winding"}
         ``"LN"`` line-to-neutral voltage, ``"LL"`` line-to-line voltage,
         ``"line"`` a line current, ``"neutral"`` the neutral current (or a
-        neutral-to-earth voltage).
+        neutral-to-earth voltage), ``"winding"`` the current in one winding of
+        a delta-connected motor, measured on its six leads (A -> B for Iab);
+        `waveforms.winding` turns three of them into line currents.
     unit : str
         Unit of the stored samples, always the base unit ``"V"`` or ``"A"``.
     source_label : str
@@ -87,17 +93,19 @@ class Channel:
                 f"channel {self.name!r}: unit={self.unit!r}; samples are stored in {BASE_UNIT[self.kind]!r}"
             )
         if self.kind == "current" and self.reference in ("LN", "LL"):
-            raise InvalidParameterError(f"channel {self.name!r}: a current has reference 'line' or 'neutral'")
-        if self.kind == "voltage" and self.reference == "line":
+            raise InvalidParameterError(f"channel {self.name!r}: a current has reference 'line', 'neutral' or 'winding'")
+        if self.kind == "voltage" and self.reference in ("line", "winding"):
             raise InvalidParameterError(f"channel {self.name!r}: a voltage has reference 'LN', 'LL' or 'neutral'")
         if self.reference == "LL" and self.conductor == "N":
             raise InvalidParameterError(f"channel {self.name!r}: a line-to-line voltage needs conductor A, B or C")
+        if self.reference == "winding" and self.conductor == "N":
+            raise InvalidParameterError(f"channel {self.name!r}: a winding current needs conductor A, B or C (winding A-B, B-C, C-A)")
 
     @property
     def label(self) -> str:
-        """Short trade label: ``Va``, ``Vab``, ``Ia``, ``In``."""
+        """Short trade label: ``Va``, ``Vab``, ``Ia``, ``In``; ``Iab`` for the winding current A-B."""
         letter = "V" if self.kind == "voltage" else "I"
-        if self.reference == "LL":
+        if self.reference in ("LL", "winding"):
             return letter + LL_PAIR[self.conductor].lower()
         return letter + self.conductor.lower()
 

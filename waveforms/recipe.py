@@ -604,6 +604,9 @@ class ImportSettings:
     nominal_voltage_v: float | None = setting(None, "declared line-to-line voltage [V]; absent = from the file",
                                               minimum=0.0, forward=False)
     wiring: str = setting("", "'3-wire' or '4-wire'; empty = from the file", choices=("", "3-wire", "4-wire"), forward=False)
+    currents: str = setting("", "what the current channels Ia, Ib, Ic measure: 'winding' = the windings A-B, B-C, C-A of a delta "
+                                "motor (six-lead hook-up, waveforms.winding); empty = as the file says", choices=("", "line", "winding"),
+                            forward=False)
     quality: bool = setting(True, "gather data-quality notes (clipping, flat or dead channels, gaps; from the measure stage's pass when one follows)",
                             forward=False)
 
@@ -632,6 +635,14 @@ def _stage_import(state: RunState, params: dict[str, Any]) -> None:
     from .analysis import nameplate_notes
 
     state.notes.extend(nameplate_notes(state.nameplate))
+    from .winding import declare_windings, line_currents_from_windings  # six-lead hook-up: windings -> line currents
+
+    if s.currents == "winding":
+        state.capture = declare_windings(state.capture)
+    plate = state.nameplate
+    conn = None if plate is None or any(w.startswith("connection not given") for w in plate.warnings) else plate.connection
+    state.capture, wnotes = line_currents_from_windings(state.capture, conn)
+    state.notes.extend(wnotes)
     if s.quality:
         from .quality import StatsAccumulator, quality_notes
 

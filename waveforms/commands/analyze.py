@@ -75,12 +75,19 @@ def _reading(rec: Recipe, fmt: str | None, options: ReadOptions) -> tuple[str | 
 @click.option("--as-recorded", "as_recorded", is_flag=True,
               help="Analyse the file exactly as recorded: report hook-up errors (reversed or moved clamps, A-C-B labels, "
                    "dead sensors) but do not correct them.")
+@click.option("--currents", "currents", type=click.Choice(["line", "winding"]),
+              help="What the current channels Ia, Ib, Ic measure: 'winding' = the windings A-B, B-C, C-A of a delta motor "
+                   "(six-lead hook-up, A->B); the line currents are then derived by Kirchhoff's law (default: as the file says).")
+@click.option("--cable-ohm", "cable_ohm", metavar="R,X",
+              help="Series impedance of each line between the logger and the motor [ohm] (R and X at the system frequency): "
+                   "the motor's terminal voltage is estimated as V - Z I for its tolerance, derating and stall checks.")
 @threads_option
 @read_options
 def command(capture: str, motor: str | None, out_dir: str, recipe_name: str, no_html: bool, cycles: str, no_speed: bool,
             speed_window_s: float | None, motor_tau_s: float | None, k_neg: float | None, relay_setting_a: float | None,
             hot_start: bool, threads: int | None, as_recorded: bool = False, cold_start: bool = False,
-            declared_voltage_v: float | None = None, **kw: Any) -> None:
+            declared_voltage_v: float | None = None, currents: str | None = None, cable_ohm: str | None = None,
+            **kw: Any) -> None:
     """Find open phase, stall, starts, dips and unbalance in CAPTURE; judge thermal stress; write a report.
 
     The report informs; it does not replace protective devices. Work on
@@ -118,6 +125,14 @@ def command(capture: str, motor: str | None, out_dir: str, recipe_name: str, no_
         rec = _set(rec, "detect", {"declared_voltage_v": declared_voltage_v}, "--declared-voltage")
     if as_recorded:
         rec = _set(rec, "hookup", {"as_recorded": True}, "--as-recorded")
+    if currents is not None:
+        rec = _set(rec, "import", {"currents": currents}, "--currents")
+    if cable_ohm is not None:
+        try:
+            r_ohm, x_ohm = (float(x) for x in cable_ohm.split(","))
+        except ValueError:
+            raise InvalidParameterError(f"--cable-ohm {cable_ohm!r}: expected R,X in ohm (e.g. 0.05,0.04)") from None
+        rec = _set(rec, "detect", {"cable_r_ohm": r_ohm, "cable_x_ohm": x_ohm}, "--cable-ohm")
     fmt, options = _reading(rec, fmt, options)
     from ..io.csv_stream import open_capture
     from ..io.trend import is_trend_log

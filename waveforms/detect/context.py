@@ -73,12 +73,30 @@ class DetectParams:
     declared_voltage_v: float | None = setting(
         None, "declared line-to-line supply voltage for dips and swells [V]; absent = the capture's nominal voltage, else the "
         "standard system voltage nearest the measured one (an inference), never the motor's rating", minimum=0.0)
+    # the cable or feeder between the logger and the motor (waveforms.motor.terminal); absent = logger at the motor
+    cable_r_ohm: float | None = setting(None, "series resistance of each line between the logger and the motor [ohm]", minimum=0.0)
+    cable_x_ohm: float | None = setting(None, "series reactance of each line between the logger and the motor, at the system "
+                                        "frequency [ohm]", minimum=0.0)
+    cable_length_m: float | None = setting(None, "or: length of the cable from the logger to the motor [m] (with the per-km values)",
+                                           minimum=0.0)
+    cable_r_ohm_per_km: float | None = setting(None, "the cable's resistance per conductor [ohm/km]", minimum=0.0)
+    cable_x_ohm_per_km: float | None = setting(None, "the cable's reactance per conductor at the system frequency [ohm/km]",
+                                               minimum=0.0)
 
     def __post_init__(self) -> None:
         check_fields(self)
+        given = [k for k in ("cable_r_ohm", "cable_x_ohm") if getattr(self, k) is not None]
+        per_km = [k for k in ("cable_length_m", "cable_r_ohm_per_km", "cable_x_ohm_per_km") if getattr(self, k) is not None]
+        if given and per_km:
+            raise InvalidParameterError(f"give the cable as cable_r_ohm/cable_x_ohm or as cable_length_m with the per-km values, "
+                                        f"not both ({given + per_km})")
+        if per_km and len(per_km) != 3:
+            raise InvalidParameterError("cable_length_m, cable_r_ohm_per_km and cable_x_ohm_per_km go together; given only "
+                                        f"{per_km}")
 
     def to_dict(self) -> dict[str, Any]:
-        return dataclasses.asdict(self)
+        # the cable keys are recorded when a cable is given (absent: the logger is at the motor)
+        return {k: v for k, v in dataclasses.asdict(self).items() if not (k.startswith("cable_") and v is None)}
 
 
 @dataclasses.dataclass(eq=False)
@@ -122,6 +140,9 @@ class DetectionInput:
     voltage_reference: str | None = None
     params: DetectParams = dataclasses.field(default_factory=DetectParams)
     declared_voltage_source: str = "capture"
+    #: (3, n) estimated line-to-line fundamental voltages at the motor terminals [V] when a cable between the logger and
+    #: the motor is given (`waveforms.motor.terminal`); None = the logger's voltages are the motor's
+    terminal_ll_v: np.ndarray | None = None
 
     def __post_init__(self) -> None:
         if "t_s" not in self.cycles:
@@ -320,7 +341,9 @@ class DetectionInput:
         ph = [self.v_phasor(c) for c in LINES]
         if any(p is None for p in ph):
             return np.ones(self.n)
-        if self.voltage_reference == "LN":
+        if self.terminal_ll_v is not None:  # locked-rotor current follows the voltage at the motor, not at the logger
+            ll = np.asarray(self.terminal_ll_v)
+        elif self.voltage_reference == "LN":
             ll = np.abs(np.vstack([ph[0] - ph[1], ph[1] - ph[2], ph[2] - ph[0]]))
         else:
             ll = np.abs(np.vstack(ph))

@@ -26,6 +26,7 @@ import numpy as np
 from ..errors import InvalidParameterError
 from .context import LINES, DetectionInput, runs, schmitt
 from .event import Event
+from .neutral_shift import neutral_shifts, shift_mask
 from .registry import Findings, register
 
 #: IEEE 1159 Table 2 duration bands (in cycles, then seconds) [2].
@@ -115,6 +116,33 @@ def ieee1159_category(kind: str, duration_s: float | None, magnitude_pu: float, 
             return OUTSIDE_IEEE1159
         return "sustained overvoltage" if band == "sustained" else f"{band} swell"
     return OUTSIDE_IEEE1159  # an interruption at or above 0.1 pu
+
+
+#: The line-to-line Urms(1/2) columns the measurement adds on a 3-wire system recorded line-to-neutral.
+_LL_LABELS = {"A": "Vab", "B": "Vbc", "C": "Vca"}
+
+
+def assessed_voltages(inp: DetectionInput, notes: list[str] | None = None) -> DetectionInput:
+    """The input with the voltages dips and swells are assessed on: line-to-line ones on a 3-wire system.
+
+    IEC 61000-4-30 (5.4.1, from memory): on a 3-wire system dips and swells are
+    evaluated on the line-to-line voltages, on a 4-wire system on the
+    line-to-neutral ones.  A 3-wire capture recorded line-to-neutral carries
+    ``Vab_rms_half`` ... (`waveforms.measure.engine`), and those are used; the
+    line-to-neutral channels then only show how the system sits against earth
+    (`waveforms.detect.neutral_shift`).
+    """
+    three_wire = getattr(inp.capture, "wiring", None) == "3-wire"
+    hc = inp.half_cycles
+    if not (three_wire and inp.voltage_reference == "LN" and hc is not None
+            and all(f"{lab}_rms_half" in hc for lab in _LL_LABELS.values())):
+        return inp
+    if notes is not None:
+        notes.append("3-wire system: dips, swells and interruptions assessed on the line-to-line voltages Vab, Vbc, Vca "
+                     "(computed from the line-to-neutral samples; IEC 61000-4-30 practice for 3-wire systems, from memory)")
+    import dataclasses
+
+    return dataclasses.replace(inp, voltage_channels=dict(_LL_LABELS), voltage_reference="LL")
 
 
 def _half_cycle_matrix(inp: DetectionInput, notes: list[str]) -> tuple[np.ndarray, np.ndarray, list[str]] | None:
@@ -258,6 +286,9 @@ def detect_dips(inp: DetectionInput, prior: dict) -> Findings:
     times lie within a cycle of the change.
     """
     notes: list[str] = []
+    shifts = neutral_shifts(inp)  # a zero-sequence voltage with balanced line-to-line voltages: no dip or swell
+    notes.extend(s["sentence"] for s in shifts)
+    inp = assessed_voltages(inp, notes)
     got = _half_cycle_matrix(inp, notes)
     if got is None:
         return Findings(notes=(*notes, "no voltage channels: dips, swells and interruptions not assessed"))
@@ -265,6 +296,8 @@ def detect_dips(inp: DetectionInput, prior: dict) -> Findings:
     p = inp.params
     udin, udin_src = declared_voltage(inp, u, notes)
     pct = 100.0 * u / udin
+    if shifts and inp.voltage_reference == "LN":  # 4-wire: the line-to-neutral values moved with the neutral only
+        pct = np.where(shift_mask(shifts, t, inp.cycle_s)[None, :], np.nan, pct)
     terminal = motor_terminal_mask(inp, prior["open_phase"], t, labels)
     if terminal.any():
         pct = np.where(terminal, np.nan, pct)  # the open line's channel is the motor terminal: no supply event there

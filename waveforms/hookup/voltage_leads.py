@@ -94,6 +94,13 @@ def dead_voltage_leads(names: list[str], reference: str, phasors: dict[str, np.n
         dead = (three_phase & np.isfinite(vmax) & (vmax > 0) & (vm[j] < SILENT_FRAC * vmax)
                 & (current_unbalance < MAX_CURRENT_UNBALANCE)
                 & (others.min(axis=0) >= EQUAL_FRAC * others.max(axis=0)))
+        if reference == "LN":
+            # the two live line-to-neutral voltages of a healthy set are 120 deg apart, so the derived one
+            # -(Vb + Vc) is of their size; a neutral shift (a ground fault on an ungrounded or resistance-grounded
+            # system: Va to earth ~0, Vb and Vc sqrt(3) larger and 60 deg apart, waveforms.detect.neutral_shift)
+            # gives sqrt(3) x their size: the lead is not dead, the system moved against earth (issue 19)
+            derived_size = np.abs(sum(phasors[names[k]] for k in o)) / others.mean(axis=0)
+            dead &= (derived_size >= EQUAL_FRAC) & (derived_size <= 1.0 / EQUAL_FRAC)
         if not dead.any():
             continue
         if derived:  # two dead leads leave one voltage: nothing can be derived

@@ -158,10 +158,16 @@ def system_values(options: ReadOptions, mapping: Mapping, meta: dict[str, str], 
         vnom = positive_number(meta["nominal_voltage_v"], str(path), "metadata nominal_voltage_v")
     wiring = options.wiring or mapping.capture.get("wiring") or meta.get("wiring")
     if wiring is None:
-        has_neutral = any(s.reference in ("LN", "neutral") for s in specs)
-        has_ll = any(s.reference == "LL" for s in specs)
-        wiring = "3-wire" if has_ll and not has_neutral else "4-wire"
-        notes.append(f"wiring taken as {wiring} ({'line-to-line voltages only' if wiring == '3-wire' else 'line-to-neutral or neutral channels present' if has_neutral else 'default'})")
+        # the default follows the channels and the load: a three-phase motor circuit is 3-wire (no neutral goes to
+        # the motor), so only a measured neutral (In, or a neutral-to-earth voltage Vn) says 4-wire; line-to-neutral
+        # voltage leads alone do not (they may be taken to earth or a panel neutral).  Common practice, no source.
+        has_neutral = any(s.reference == "neutral" for s in specs)
+        has_ln = any(s.reference == "LN" for s in specs)
+        wiring = "4-wire" if has_neutral else "3-wire"
+        why = ("a neutral channel is present" if has_neutral else
+               "no neutral channel; line-to-neutral leads alone do not make a 4-wire system, a motor circuit is 3-wire; "
+               "give --wiring 4-wire for a 4-wire system" if has_ln else "line-to-line voltages only" if specs else "default")
+        notes.append(f"wiring taken as {wiring} ({why})")
     if wiring not in ("3-wire", "4-wire"):
         raise CaptureReadError(src, "wiring", f"{wiring!r} must be '3-wire' or '4-wire'")
     return {"nominal_frequency_hz": fnom, "nominal_voltage_v": vnom, "wiring": wiring}

@@ -41,7 +41,10 @@ Mapping file (every table and key optional)::
     ratio = "11000:110"          # PT/CT ratio, primary:secondary or a number; samples x ratio
     kind = "voltage"             # only needed when the key is not a trade label
     conductor = "A"
-    reference = "LN"             # LN, LL, line, neutral
+    reference = "LN"             # LN, LL, line, neutral, winding
+
+    [channels.Iab]               # a delta winding current (six-lead hook-up): winding A-B, measured A -> B
+    column = "CT1"               # (Ibc: B-C, Ica: C-A; turned into line currents Ia = Iab - Ica ..., docs/importing.md)
 
 Recognised header spellings: `waveforms.io.spellings.SPELLINGS` (the table in
 docs/importing.md is rendered from it).

@@ -63,9 +63,9 @@ class Recognised:
 
 
 def channel_label(kind: str, conductor: str, reference: str) -> str:
-    """The trade's short label: ``Va``, ``Vab``, ``Ia``, ``In``, ``Vn``."""
+    """The trade's short label: ``Va``, ``Vab``, ``Ia``, ``In``, ``Vn``; ``Iab`` for a delta winding current."""
     letter = "V" if kind == "voltage" else "I"
-    if reference == "LL":
+    if reference in ("LL", "winding"):
         return letter + LL_PAIR[conductor].lower()
     return letter + conductor.lower()
 
@@ -154,6 +154,18 @@ def _ll(rule: str) -> Maker:
     return make
 
 
+def _winding(m: re.Match[str], unit: str | None) -> Recognised | str | None:
+    """A winding current ``Iab`` (A -> B); a reversed pair (``Iba``) is refused: the sign would flip."""
+    a, b = _DIGIT[m.group(1)], _DIGIT[m.group(2)]
+    if a == b:
+        return None
+    if LL_PAIR.get(a) == a + b:
+        return Recognised("current", a, "winding", unit)
+    return (f"a reversed winding pair ({a} to {b}): not guessed, the sign would flip; winding currents are read in "
+            f"A-B-C order ({'I' + LL_PAIR.get(b, b + a).lower()}, measured {b} -> {a}), or add ignore = [{{header!r}}] to the mapping "
+            f"(--ignore {{header!r}})")
+
+
 def _ln(rule: str) -> Maker:
     return lambda m, unit: Recognised("voltage", _DIGIT[next(g for g in m.groups() if g)], "LN", unit, rule)
 
@@ -192,6 +204,9 @@ SPELLINGS: tuple[Spelling, ...] = (
              lambda m, u: Recognised("current", _DIGIT[m.group(1)], "line", u),
              (("Ia", "Ia"), ("I1", "Ia"), ("IL1", "Ia"), ("I L1", "Ia"), ("I_c", "Ic"), ("Current L1", "Ia"),
               ("Phase B Current", "Ib"))),
+    Spelling("Iab Ibc Ica", "delta winding current (six-lead hook-up), from the first terminal to the second; our own names",
+             r"^IW?L?([ABC123])L?([ABC123])$", lambda m, u: _winding(m, u),
+             (("Iab", "Iab"), ("Ibc", "Ibc"), ("Ica", "Ica"), ("Iw12", "Iab"), ("IW L2-L3", "Ibc"), ("I_ca", "Ica"))),
     Spelling("In", "neutral current", r"^I(?:N|LN)$",
              lambda m, u: Recognised("current", "N", "neutral", u),
              (("In", "In"), ("IN", "In"), ("ILN", "In"), ("Current N", "In"))),
@@ -225,6 +240,7 @@ REFUSALS: tuple[Refused, ...] = (
     Refused("derived values, not waveform samples (RMS, THD, average, min/max, peak, angle, frequency)",
             ("Ia_rms", "Va RMS", "Irms1", "Va_thd", "Ib_avg", "Ic max", "V1 peak")),
     Refused("reversed line-to-line pairs (the sign would flip)", ("Vba", "U21", "L2-L1", "B-A")),
+    Refused("reversed winding-current pairs (the sign would flip)", ("Iba", "Iw21")),
     Refused("a conductor alone in V or with no unit (the reference is not written)", ("L1", "L1 [V]", "A", "N")),
 )
 

@@ -456,6 +456,11 @@ def block_cycles(data: np.ndarray, start_index: int, lead: int, trail: int,
     sq_mid, sw_mid = rm.mean_square(x_mid, w_mid)
     with np.errstate(invalid="ignore", divide="ignore"):
         mid_rms = np.sqrt(sq_mid / sw_mid[:, None])
+    ll_rows = _ll_from_ln_rows(lay, st)
+    if ll_rows is not None:  # 3-wire system recorded line-to-neutral: Urms(1/2) of the line-to-line voltages too
+        sq_ll, _ = rm.mean_square(x_mid[:, ll_rows[0]] - x_mid[:, ll_rows[1]], w_mid)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            mid_rms = np.concatenate([mid_rms, np.sqrt(sq_ll / sw_mid[:, None])], axis=1)
     del x_mid, w_mid
 
     centre = mid
@@ -483,9 +488,32 @@ def block_cycles(data: np.ndarray, start_index: int, lead: int, trail: int,
     t_mid = (mid_end[mid_ok] + start_index) / fs
     t_all = np.concatenate([t_full, t_mid])
     order = np.argsort(t_all, kind="stable")
+    labels = lay.labels
+    if ll_rows is not None:  # mean((va - vb)^2) = <va va> + <vb vb> - 2 <va vb>, over the same one-cycle window
+        a_, b_ = ll_rows
+        full_ll = np.sqrt(np.clip(gram[:, a_, a_] + gram[:, b_, b_] - 2.0 * gram[:, a_, b_], 0.0, None))
+        full_rms = np.concatenate([full_rms, full_ll], axis=1)
+        labels = (*labels, *LL_FROM_LN_LABELS)
     vals = np.concatenate([full_rms, mid_rms[mid_ok]])[order]
-    half = {"t_s": t_all[order], **{f"{lab}_rms_half": vals[:, i] for i, lab in enumerate(lay.labels)}}
+    half = {"t_s": t_all[order], **{f"{lab}_rms_half": vals[:, i] for i, lab in enumerate(labels)}}
     return BlockCycles(cycles, half, bnd, k0, k1)
+
+
+#: Urms(1/2) columns added on a 3-wire system recorded line-to-neutral (`_ll_from_ln_rows`).
+LL_FROM_LN_LABELS = ("Vab", "Vbc", "Vca")
+
+
+def _ll_from_ln_rows(lay: Layout, st: Settings) -> tuple[list[int], list[int]] | None:
+    """Rows (first, second) of Vab, Vbc, Vca from the line-to-neutral rows, on a 3-wire system without LL channels.
+
+    IEC 61000-4-30 (5.4.1, from memory): on a 3-wire system dips and swells are
+    evaluated on the line-to-line voltages, so the half-cycle table carries
+    ``Vab_rms_half`` ... computed from the line-to-neutral samples
+    (``vab = va - vb``) when only those were recorded.
+    """
+    if st.wiring != "3-wire" or lay.vll or any(c not in lay.vln for c in "ABC"):
+        return None
+    return [lay.vln[c] for c in "ABC"], [lay.vln[c] for c in "BCA"]
 
 
 def _channel_columns(cols: dict[str, Any], lay: Layout, phas: np.ndarray, rms: np.ndarray) -> None:

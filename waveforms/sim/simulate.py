@@ -23,7 +23,7 @@ import math
 
 import numpy as np
 
-from ..capture import Capture, Provenance, from_arrays, standard_channels
+from ..capture import LL_PAIR, Capture, Provenance, from_arrays, standard_channels
 from ..errors import InvalidParameterError
 from .dynamics import Trajectory, integrate, segment_for, source_emf
 from .logger import record
@@ -186,13 +186,20 @@ def _capture(sc: Scenario, sim: Simulation) -> Capture:
     recorded, clipped = record(sc.logger, sim.signals, kinds, sc.supply.f_hz, sc.seed)
     sim.clipped = clipped
     chans = tuple(dataclasses.replace(c, source_label=f"sim:{c.name}") for c in standard_channels(voltages=sc.logger.voltages, currents=True))
+    if sc.logger.currents == "winding":  # six-lead hook-up: the clamps Ia, Ib, Ic sit on the windings A-B, B-C, C-A
+        chans = tuple(dataclasses.replace(c, name=f"I{LL_PAIR[c.conductor].lower()}", reference="winding")
+                      if c.kind == "current" else c for c in chans)
+    samples = {c.name: recorded[c.source_label[len("sim:"):]] for c in chans}
+    grounding = sc.site.grounding if sc.site is not None else None
+    # a 3-wire system: line-to-line leads, or a source whose neutral is not solidly grounded (no neutral is distributed)
+    three_wire = sc.logger.voltages != "LN" or (grounding is not None and grounding.kind != "solid")
     prov = Provenance(
         source_path=sc.source_path, sha256=sc.source_sha256, importer="simulator",
         notes=(f"simulated scenario {sc.name!r} (waveforms.sim); invented data for demonstration and tests",),
     )
     return from_arrays(
-        {c.name: recorded[c.name] for c in chans}, chans, sc.logger.sample_rate_hz, sc.logger.start_time,
+        samples, chans, sc.logger.sample_rate_hz, sc.logger.start_time,
         nominal_frequency_hz=sc.supply.frequency_hz,
         nominal_voltage_v=sc.site.transformer.secondary_voltage_ll_v if sc.site is not None and sc.site.transformer is not None else sc.supply.voltage_ll_v,
-        wiring="4-wire" if sc.logger.voltages == "LN" else "3-wire", provenance=prov, nameplate=sc.nameplate,
+        wiring="3-wire" if three_wire else "4-wire", provenance=prov, nameplate=sc.nameplate,
     )

@@ -382,11 +382,11 @@ def build_truth(sim: Simulation) -> dict[str, Any]:
         "time_reference": "seconds from the capture's first sample",
         "capture": {
             "sample_rate_hz": sc.logger.sample_rate_hz, "n_samples": int(sim.t_s.size), "duration_s": sim.t_s.size / sc.logger.sample_rate_hz,
-            "start_time": sc.logger.start_time.isoformat(), "channels": list(sim.signals),
+            "start_time": sc.logger.start_time.isoformat(), "channels": list(sim.capture.channel_names) if sim.capture is not None else list(sim.signals),
             "voltages": sc.logger.voltages, "voltage_reference": _neutral(sc) if sc.logger.voltages == "LN" else "line-to-line",
             "open_point": sc.open_point,
             "currents": sc.logger.currents,
-            "current_channels": ({"Ia": "winding A-B (A->B)", "Ib": "winding B-C (B->C)", "Ic": "winding C-A (C->A)"}
+            "current_channels": ({"Iab": "winding A-B (A->B)", "Ibc": "winding B-C (B->C)", "Ica": "winding C-A (C->A)"}
                                  if sc.logger.currents == "winding" else {"Ia": "line A", "Ib": "line B", "Ic": "line C"}),
         },
         "supply": {"frequency_hz": f1, "nominal_frequency_hz": sc.supply.frequency_hz, "voltage_ll_v": sc.supply.voltage_ll_v,
