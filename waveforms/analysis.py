@@ -216,6 +216,10 @@ def verdict_text(
             what = f"the motor stalled {lr}"
         elif state == "ran single-phased, then stalled":
             what = f"the motor kept running single-phased, then stalled at {_t(start, f.get('stalled_at_s'))}"
+        elif f.get("location") == "transformer_primary" and "live_line_current_pu_fla" in f:
+            # 2:1:1: the named line carries about twice the current of the other two (not single phasing proper)
+            what = (f"the motor kept running on the unbalanced secondary voltages, drawing {f['live_line_current_pu_fla']:.1f} x FLA "
+                    f"on the other two lines and about twice that on line {e.phase}")
         elif "live_line_current_pu_fla" in f:
             what = f"the motor kept running single-phased, drawing {f['live_line_current_pu_fla']:.1f} x FLA on the other two lines"
         else:

@@ -200,10 +200,18 @@ def declared_voltage(inp: DetectionInput, urms: np.ndarray, notes: list[str] | N
 def _open_phase_explains(
     inp: DetectionInput, open_phases: tuple[Event, ...], start_s: float, end_s: float | None, low_channels: list[str],
 ) -> bool:
-    """True when an upstream open phase on the line(s) of these channels overlaps the dip."""
+    """True when an upstream open phase on the line(s) of these channels overlaps the dip.
+
+    An open line on a transformer's primary explains a dip on any secondary
+    channel: which secondary voltages collapse depends on the vector group,
+    and the named line is the secondary line with the double current, not
+    necessarily the depressed one.
+    """
     for e in open_phases:
         if e.kind != "open_phase" or not e.overlaps(start_s, end_s):
             continue
+        if e.figures.get("location") == "transformer_primary":
+            return True
         line = e.phase
         if inp.voltage_reference == "LL":
             nxt = {"A": "B", "B": "C", "C": "A"}
