@@ -221,6 +221,12 @@ def _truncated_h5(folder: Path) -> Path:
     return p
 
 
+def _int8_currents(f: h5py.File) -> None:
+    """The line currents stored as int8 (the native format holds whole amperes: a step of 1 A, peaks of about 82 A)."""
+    for ch in ("Ia", "Ib", "Ic"):
+        _replace(ch, np.clip(np.rint(_samples(f, ch)), -128, 127).astype(np.int8))(f)
+
+
 def _escape_label(f: h5py.File) -> None:
     f["channels"]["Ia"].attrs["source_label"] = "clamp \x1b]0;owned\x07\x1b[2J one"
 
@@ -421,6 +427,7 @@ def cases() -> list[Case]:
         Case("h5_inf_run_in_Ia", M, _h5(_with("Ia", _inf_run), "infrun.h5")),
         Case("h5_1e300_in_Va", M, _h5(_with("Va", _huge_values), "huge_values.h5")),
         Case("h5_escape_in_label", A, _h5(_escape_label, "escape_label.h5")),
+        Case("h5_int8_currents", A, _h5(_int8_currents, "int8.h5")),
         # delimited text
         Case("csv_empty", R, _raw_bytes(b"", "empty.csv")),
         Case("csv_header_only", R, _csv(lambda m, h, r: (m, h, []), "header_only.csv")),
