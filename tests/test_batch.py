@@ -368,3 +368,36 @@ def test_workers_run_one_blas_thread_without_touching_the_environment(monkeypatc
     assert seen["blas"] and set(seen["blas"]) == {1}
     assert seen["env"] == {k: None for k in batch.executors.THREAD_VARIABLES}  # not passed through the environment
     assert dict(os.environ) == before
+
+
+def test_a_changed_file_replaces_its_old_result_once_the_new_one_is_complete(tmp_path):
+    """Issue 20 batch fault 9: the outputs of an older version of a changed file are removed after the new result.
+
+    Removed: the old capture folder and manifest entry of the same path, recipe and nameplate.  Kept: the other
+    captures, and the old result when the new version cannot be analysed (no complete new result).  The
+    package's own rules: no external source.
+    """
+    _archive(tmp_path / "in", n_good=2, corrupt=False)
+    rec = _recipe(tmp_path)
+    out = tmp_path / "out"
+    assert batch.run([tmp_path / "in"], recipe=rec, out=out, jobs=1).ok
+    folders = {p.name for p in (out / "captures").iterdir()}
+    entries = {p.name for p in (out / "manifest").glob("*.json")}
+    other = next(p for p in (out / "captures").iterdir() if "logger01" in p.name)
+    other_bytes = {q.name: q.read_bytes() for q in other.iterdir()}
+    old00 = next(p.name for p in (out / "captures").iterdir() if "logger00" in p.name)
+    # the file changes: the rerun analyses it alone, and its old folder and entry are gone afterwards
+    make_capture(tmp_path / "in" / "north-yard" / "logger00.h5", i_rms=(25.0, 25.0, 25.0))
+    again = batch.run([tmp_path / "in"], recipe=rec, out=out, jobs=1)
+    assert again.ok and again.n_done == 1
+    now = {p.name for p in (out / "captures").iterdir()}
+    new00 = next(n for n in now if "logger00" in n)
+    assert old00 not in now and new00 != old00 and len(now) == len(folders)
+    assert (out / "captures" / new00 / "result.json").is_file()
+    assert len(list((out / "manifest").glob("*.json"))) == len(entries)
+    assert {q.name: q.read_bytes() for q in other.iterdir()} == other_bytes  # the other capture untouched
+    # the file becomes unreadable: no complete new result, so the last good one stays
+    (tmp_path / "in" / "north-yard" / "logger00.h5").write_bytes(b"not a capture")
+    broken = batch.run([tmp_path / "in"], recipe=rec, out=out, jobs=1)
+    assert broken.n_failed == 1
+    assert (out / "captures" / new00 / "result.json").is_file()

@@ -203,3 +203,57 @@ def test_an_output_that_cannot_be_written_stops_the_run_and_keeps_earlier_result
     # the capture was not recorded as failed: a plain rerun (no limit) finds every capture done, none failed
     res = batch.run([tmp_path / "in"], recipe=rec, out=out, jobs=1)
     assert res.ok and res.n_failed == 0
+
+
+def _batch_cli(args: list[str]) -> tuple[int, str]:
+    from click.testing import CliRunner
+
+    from waveforms.cli import cli
+
+    res = CliRunner().invoke(cli, ["batch", *args, "--quiet"], catch_exceptions=True)
+    assert res.exception is None or isinstance(res.exception, SystemExit), repr(res.exception)
+    return res.exit_code, res.stderr
+
+
+def test_an_output_folder_under_a_file_is_refused_in_one_line(tmp_path):
+    """--out whose parent is a file: exit 2, one line naming the folder, nothing written (works as root too)."""
+    _archive(tmp_path / "in", n=1)
+    (tmp_path / "afile").write_text("not a folder\n", encoding="utf-8")
+    code, err = _batch_cli([str(tmp_path / "in"), "--out", str(tmp_path / "afile" / "out")])
+    lines = [ln for ln in err.splitlines() if ln.strip()]
+    assert code == 2 and len(lines) == 1 and lines[0].startswith("error: ") and "afile" in lines[0], err
+    assert (tmp_path / "afile").read_text(encoding="utf-8") == "not a folder\n"
+
+
+def _make_unwritable(folder: Path) -> str:
+    """Make ``folder`` refuse new files: chmod for a normal user; root ignores modes, so the immutable attribute."""
+    if os.geteuid() != 0:
+        folder.chmod(0o555)
+        return "chmod"
+    done = subprocess.run(["chattr", "+i", str(folder)], capture_output=True, text=True)
+    if done.returncode != 0:
+        pytest.skip(f"running as root, which ignores folder permissions, and chattr +i failed ({done.stderr.strip()})")
+    return "chattr"
+
+
+def _make_writable(folder: Path, how: str) -> None:
+    if how == "chmod":
+        folder.chmod(0o755)
+    else:
+        subprocess.run(["chattr", "-i", str(folder)], check=False)
+
+
+def test_a_read_only_output_folder_is_refused_in_one_line(tmp_path):
+    """An existing output folder that refuses writes: exit 2, one line naming it, no traceback, nothing changed."""
+    _archive(tmp_path / "in", n=1)
+    out = tmp_path / "out"
+    out.mkdir()
+    (out / "keep.txt").write_text("mine\n", encoding="utf-8")
+    how = _make_unwritable(out)
+    try:
+        code, err = _batch_cli([str(tmp_path / "in"), "--out", str(out)])
+    finally:
+        _make_writable(out, how)
+    lines = [ln for ln in err.splitlines() if ln.strip()]
+    assert code == 2 and len(lines) == 1 and lines[0].startswith("error: ") and str(out) in lines[0], err
+    assert sorted(p.name for p in out.iterdir()) == ["keep.txt"]

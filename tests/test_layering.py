@@ -19,7 +19,7 @@ PKG = Path(__file__).resolve().parent.parent / "waveforms"
 #: Modules below waveforms.io that it may use.
 IO_MAY_IMPORT = {
     "waveforms", "waveforms.errors", "waveforms.atomic", "waveforms.hashing", "waveforms.tomlfile",
-    "waveforms.capture", "waveforms.timebase", "waveforms.motor.nameplate",
+    "waveforms.capture", "waveforms.timebase", "waveforms.motor.nameplate", "waveforms.segments",
 }
 
 

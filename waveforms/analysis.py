@@ -28,7 +28,7 @@ from .motor.nameplate import Nameplate
 from .motor.thermal import TRIP_CLASS_TARGET_S, ThermalParams, ThermalResult, assess_thermal
 
 #: Motor states shaded on the report's timeline, in order of precedence.
-STATES: tuple[str, ...] = ("de-energised", "single-phased, stalled", "stalled", "single-phased", "three-phase")
+STATES: tuple[str, ...] = ("de-energised", "single-phased, stalled", "stalled", "single-phased", "three-phase", "no data")
 
 SAFETY_CAUTIONS: tuple[str, ...] = (
     "Work on or near energized equipment only by qualified people, with the protective equipment and "
@@ -603,7 +603,12 @@ def detect_events(
     if inp.declared_voltage_source != "capture" and len(inp.voltage_channels):
         vrec = supply_voltage_record(capture, measurements, nameplate, params)
         notes.append(f"voltage: {vrec['declared']['basis']}")
-    states = motor_states(inp, events)
+    from .segments import clip_events, gap_spans_s, mark_no_data
+
+    spans = gap_spans_s(capture)  # a time-stamp gap splits the analysis: no event spans it (waveforms.segments)
+    events, gap_notes = clip_events(events, spans)
+    notes += gap_notes
+    states = mark_no_data(motor_states(inp, events), spans)
     return events, states, merge_periods(states), notes
 
 

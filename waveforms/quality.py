@@ -234,6 +234,7 @@ def quality_notes(capture: Capture, stats: pd.DataFrame | dict[str, dict[str, An
             if not np.isnan(v):  # NaN skipped, as a pandas max does
                 kind_max[r["kind"]] = max(kind_max.get(r["kind"], -np.inf), v)
     gap_samples = sum(g.n_samples for g in capture.gaps)
+    coarse = capture.provenance.mapping.get("stored_resolution") or {}  # small-integer datasets (waveforms.io.hdf5_native)
     for name, r in st.items():
         u = r["unit"]
         if r["n"] == 0:
@@ -268,6 +269,17 @@ def quality_notes(capture: Capture, stats: pd.DataFrame | dict[str, dict[str, An
                 "message": (f"{name}: {runs} runs of >= {CLIP_MIN_RUN} samples flat at the extremes ({r['max']:.6g} / {r['min']:.6g} {u}), "
                             f"longest {int(max(r['max_longest'], r['min_longest']))} samples: clipping or flat-topping, peaks and RMS may read low"),
                 "runs": runs, "samples": int(r["at_extremes"]),
+            })
+        res = coarse.get(name)
+        if res is not None:  # stored as small integers: say how fine a change can be seen
+            peak = max(abs(float(r["max"])), abs(float(r["min"])))
+            pct = 100.0 * float(res["step"]) / peak if peak > 0 else float("inf")
+            notes.append({
+                "check": "resolution", "channel": name, "severity": "warning",
+                "message": (f"{name}: stored as {res['dtype']} ({res['levels']} levels, step {float(res['step']):.4g} {u} = "
+                            f"{pct:.3g} % of the peak, range {res['range'][0]} to {res['range'][1]} {u}): changes smaller "
+                            "than a few steps (shallow dips, low harmonics, small unbalance) are not resolved"),
+                "dtype": res["dtype"], "levels": int(res["levels"]), "step": float(res["step"]), "step_pct_of_peak": pct,
             })
         if r["ac_rms"] > 0 and abs(r["mean"]) > OFFSET_FRACTION * r["ac_rms"]:
             notes.append({

@@ -803,6 +803,11 @@ def _stage_detect(state: RunState, params: dict[str, Any]) -> None:
         state.events, dead_notes = dead_lead_events(state.events, state.hookup)  # as recorded: a dead lead is no dip
         state.notes.extend(dead_notes)
     state.notes.extend(notes)
+    from .clipping import drop_clipped_events  # a clipped voltage is no dip (issue 20)
+
+    state.events, clip_quality, clip_notes = drop_clipped_events(state.capture, state.cycles, state.events)
+    state.quality = [*(state.quality or []), *clip_quality]
+    state.notes.extend(clip_notes)
     from .analysis import orient_rotation  # direction of rotation per speed window and period (issue 12)
 
     state.speed, state.timeline, notes = orient_rotation(state.cycles, state.speed, state.events, state.timeline)

@@ -55,6 +55,43 @@ def write_entry(out: Path, entry: dict[str, Any]) -> None:
     write_text(_entry_path(out, entry["key"]), json.dumps(json_safe(entry), allow_nan=False, default=str))
 
 
+def remove_stale(out: Path, done: dict[str, dict[str, Any]], entry: dict[str, Any]) -> list[str]:
+    """Remove the results of older versions of ``entry``'s file, once ``entry`` is complete; the keys removed.
+
+    An older version is a finished entry of the same input path, recipe and
+    nameplate (the same key after its file digest) whose file digest differs:
+    the file changed since.  Entries of another recipe or nameplate stay (a run
+    with that recipe again reuses them).  Called after the new entry is written
+    and its folder published (`waveforms.batch.task`), so the old files go only
+    once the new result is in place: the old manifest entry, then its capture
+    folder unless another remaining entry still points at it.  A new result
+    that is an error row (no folder) removes nothing.
+    """
+    row = entry.get("row") or {}
+    path, new_out, key = row.get("path"), row.get("outputs"), str(entry.get("key", ""))
+    if not path or row.get("status") == "error" or not new_out or "-" not in key:
+        return []
+    import shutil
+
+    tail = key.split("-", 1)[1]  # recipe fingerprint and nameplate digest (waveforms.batch.runner._plan)
+    stale = {k: e for k, e in done.items() if k != key and k.split("-", 1)[-1] == tail
+             and (e.get("row") or {}).get("path") == path}
+    for k in stale:
+        try:
+            _entry_path(out, k).unlink()
+        except FileNotFoundError:
+            pass
+        done.pop(k, None)
+    used = {(e.get("row") or {}).get("outputs") for e in done.values()} | {new_out}
+    for e in stale.values():
+        folder = (e.get("row") or {}).get("outputs")
+        if folder and folder not in used:
+            target = (out / folder).resolve()
+            if out.resolve() in target.parents:  # only ever inside the output folder
+                shutil.rmtree(target, ignore_errors=True)
+    return sorted(stale)
+
+
 LOCK_FILE = ".batch.lock"
 
 

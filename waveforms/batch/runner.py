@@ -22,7 +22,7 @@ from ..recipe import Recipe, RunState, load_recipe, run_recipe
 from ..summary import error_row, events_frame, summary_frame, summary_row, write_summary
 from .executors import run_dask, run_local
 from .inputs import InputFile, discover, hash_all
-from .manifest import json_safe, output_lock, read_manifest, write_entry
+from .manifest import json_safe, output_lock, read_manifest, remove_stale, write_entry
 from .motors import MotorMap, motor_map, plate_digest
 from .task import STAGING_PREFIX, CaptureTask, capture_folder
 
@@ -196,6 +196,7 @@ def run(
                 raise WriteError(entry["output_error"])
             if out_path is not None:
                 write_entry(out_path, entry)
+                remove_stale(out_path, done, entry)  # older versions of a changed file, now that the new result is in place
             new[entry["key"]] = entry
             if entry["row"].get("status") == "error":
                 n_failed_new += 1

@@ -39,6 +39,7 @@ from __future__ import annotations
 import dataclasses
 import datetime as _dt
 import io
+import math
 import re
 from pathlib import Path
 from typing import Any
@@ -147,9 +148,12 @@ def _num(text: str, path: Path, where: str, default: float | None = None) -> flo
     if text == "" and default is not None:
         return default
     try:
-        return float(text)
+        x = float(text)
     except ValueError:
         raise CaptureReadError(path, where, f"{text!r} is not a number") from None
+    if not math.isfinite(x):  # NaN or infinite scale factors, limits or rates make every sample NaN (issue 20)
+        raise CaptureReadError(path, where, f"{text!r} is not a finite number")
+    return x
 
 
 def _int(text: str, path: Path, where: str) -> int:
@@ -260,7 +264,10 @@ def parse_cfg(text: str, path: Path, first_line: int = 1) -> Config:
         f, ln = take("a 'samp,endsamp' line")
         if len(f) != 2:
             raise CaptureReadError(path, f"line {ln}", f"expected 'samp,endsamp', got {','.join(f)!r}")
-        rates.append((_num(f[0], path, f"line {ln}, field 1 (samp)"), _int(f[1], path, f"line {ln}, field 2 (endsamp)"), ln))
+        samp = _num(f[0], path, f"line {ln}, field 1 (samp)")
+        if samp < 0:  # samp = 0 means "no fixed rate" (IEEE C37.111-1999 5.3.6, from memory); below 0 means nothing
+            raise CaptureReadError(path, f"line {ln}, field 1 (samp)", f"sampling rate {f[0]} is negative")
+        rates.append((samp, _int(f[1], path, f"line {ln}, field 2 (endsamp)"), ln))
     f, start_line = take("the first-sample time stamp")
     start, ns1 = _stamp(f, rev, path, start_line)
     f, ln = take("the trigger time stamp")

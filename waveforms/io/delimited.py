@@ -36,6 +36,7 @@ from ..capture import ArraySource, Capture, Provenance
 from ..errors import CaptureReadError, MappingError, positive_number
 from ..hashing import sha256_file
 from .. import timebase
+from ..segments import place_gapped
 from . import metadata as md
 from .common import EPOCH, checked_capture, one_line, parse_start_time, parse_utc_offset, start_plus, system_values
 from .mapping import (
@@ -569,6 +570,7 @@ def _read_csv(path: Path, options: ReadOptions, mapping: Mapping, digest: concur
         values *= scales[:, None]
     history: list[str] = []
     gaps: tuple = ()
+    source = None
     timebase_record: dict[str, Any] = {}
     if time_col is None:
         rate = given_rate
@@ -634,12 +636,14 @@ def _read_csv(path: Path, options: ReadOptions, mapping: Mapping, digest: concur
         else:
             if rep.jitter_fraction > 0.01:
                 notes.append(f"time stamps jitter by up to {rep.jitter_max_s * 1e6:.3g} us ({100 * rep.jitter_fraction:.2g} % of a sample period); samples placed on the nearest point of a uniform {rate:g} Hz grid")
-            values, gaps = timebase.place_on_grid(values, rep)
+            source, gaps = place_gapped(values, rep)  # a gap's samples are never allocated (waveforms.segments)
             notes.append(f"sample rate {rate:g} Hz from the time stamps")
         if gaps:
             total = sum(g.n_samples for g in gaps)
             notes.append(f"{len(gaps)} gap(s) in the time stamps, {total} missing samples kept as NaN (first at t = {gaps[0].start_index / rate:.6f} s)")
 
+    if source is not None:  # the first seconds on the grid, for the inference of the nominal frequency
+        values = source.read(0, min(source.n_samples, int(4 * rate) + 1), range(source.n_channels))
     capture_meta = system_values(options, mapping, meta, src, path, specs, values, rate, notes)
     record = mapping_record(specs, {
         "csv": {"delimiter": layout.delimiter, "decimal": layout.decimal, "header_line": layout.header_index + 1, "encoding": layout.encoding},
@@ -649,8 +653,8 @@ def _read_csv(path: Path, options: ReadOptions, mapping: Mapping, digest: concur
     prov = Provenance(source_path=str(path), sha256=digest.result(), importer="csv", mapping=record,
                       notes=tuple(notes), history=tuple(history))
     return checked_capture(
-        path, channels=tuple(s.channel() for s in specs), source=ArraySource(values), sample_rate_hz=float(rate),
-        start_time=start, provenance=prov, gaps=tuple(gaps), **capture_meta,
+        path, channels=tuple(s.channel() for s in specs), source=ArraySource(values) if source is None else source,
+        sample_rate_hz=float(rate), start_time=start, provenance=prov, gaps=tuple(gaps), **capture_meta,
     )
 
 

@@ -227,9 +227,11 @@ def read_native(path: Path, options: ReadOptions | None = None) -> Capture:
         plate = json.loads(plate_json)
         nameplate = Nameplate.from_dict({k: v for k, v in plate.items() if k != "warnings"}, f"{path}:/nameplate")
     source = HDF5Source(path, paths)
+    coarse = _coarse_channels(fh_path=path, channels=channels, paths=paths)
     prov = Provenance(
         source_path=str(path), sha256=sha256_file(path), importer="hdf5-native",
-        mapping=prov.mapping, notes=prov.notes,
+        mapping={**prov.mapping, **({"stored_resolution": coarse} if coarse else {})},
+        notes=prov.notes + tuple(f"{k}: stored as {v['dtype']}, whole {v['unit']} from {v['range'][0]} to {v['range'][1]}" for k, v in coarse.items()),
         history=prov.history + ((f"imported from {prov.source_path} ({prov.importer}, sha256 {prov.sha256[:12]}...)",) if prov.source_path else ()),
     )
     try:
@@ -242,6 +244,27 @@ def read_native(path: Path, options: ReadOptions | None = None) -> Capture:
         )
     except InvalidParameterError as e:
         raise CaptureReadError(path, "file attributes", str(e)) from None
+
+
+#: Integer datasets of at most this many bytes per sample get a data-quality note on their resolution
+#: (8 bits: 256 levels; 16-bit converters are the trade's usual floor, common practice, no source).
+COARSE_ITEMSIZE = 1
+
+
+def _coarse_channels(fh_path: Path, channels: list[Channel], paths: list[str]) -> dict[str, dict[str, Any]]:
+    """Channels stored as small integers (int8/uint8): dtype, number of levels, step in V or A.
+
+    The native format stores samples in V and A (the ``scale`` attribute records what was applied on
+    conversion), so an int8 dataset holds whole volts or amperes from -128 to 127: a step of 1 V or 1 A.
+    """
+    out: dict[str, dict[str, Any]] = {}
+    with h5py.File(fh_path, "r") as fh:
+        for ch, p in zip(channels, paths, strict=True):
+            dt = fh[p].dtype
+            if dt.kind in "iu" and dt.itemsize <= COARSE_ITEMSIZE:
+                out[ch.name] = {"dtype": str(dt), "levels": 2 ** (8 * dt.itemsize), "step": 1.0, "unit": ch.unit,
+                               "range": [int(np.iinfo(dt).min), int(np.iinfo(dt).max)]}
+    return out
 
 
 def _read_meta(fh: h5py.File, path: Path) -> tuple[Any, ...]:

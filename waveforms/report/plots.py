@@ -30,6 +30,7 @@ STATE_STYLE = {
     "stalled": {"color": OI["vermillion"], "alpha": 0.16, "hatch": "//"},
     "single-phased, stalled": {"color": OI["vermillion"], "alpha": 0.22, "hatch": "\\\\"},
     "de-energised": {"color": "#7f7f7f", "alpha": 0.22, "hatch": None},
+    "no data": {"color": "#ffffff", "alpha": 1.0, "hatch": "xx"},  # a time-stamp gap (waveforms.segments)
 }
 #: Axes box of every time plot (figure fractions), so that their time axes line up.
 TIME_AXES = {"left": 0.105, "right": 0.79}
