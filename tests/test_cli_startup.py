@@ -85,3 +85,8 @@ def test_csv_columns_read_from_arrow_buffers_keep_nulls_and_offsets():
     arr = pa.chunked_array([pa.array([9.0, 1.0, None, 3.0, 4.5, 8.0]).slice(1, 4), pa.array([None, -2.0, 7.0])])
     expected = np.concatenate([c.to_numpy(zero_copy_only=False) for c in arr.chunks])
     np.testing.assert_array_equal(_float_column(arr), expected)
+
+
+def test_the_analysis_module_leaves_scipy_to_the_stages_that_use_it():
+    """scipy.signal (about 1 s to import) comes with the measurement engine and the thermal filter, not with the chain's module."""
+    assert "scipy" not in _loaded_after("import waveforms.analysis, waveforms.recipe, waveforms.motor.thermal")
