@@ -89,4 +89,7 @@ def test_csv_columns_read_from_arrow_buffers_keep_nulls_and_offsets():
 
 def test_the_analysis_module_leaves_scipy_to_the_stages_that_use_it():
     """scipy.signal (about 1 s to import) comes with the measurement engine and the thermal filter, not with the chain's module."""
-    assert "scipy" not in _loaded_after("import waveforms.analysis, waveforms.recipe, waveforms.motor.thermal")
+    code = "import sys, waveforms.analysis, waveforms.motor.thermal\nprint(json.dumps('scipy.signal' in sys.modules))"
+    env = dict(os.environ, PYTHONPATH=str(ROOT) + os.pathsep + os.environ.get("PYTHONPATH", ""))
+    out = subprocess.run([sys.executable, "-c", "import json\n" + code], capture_output=True, text=True, env=env, cwd=ROOT, check=True)
+    assert json.loads(out.stdout.strip().splitlines()[-1]) is False
