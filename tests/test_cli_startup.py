@@ -93,3 +93,18 @@ def test_the_analysis_module_leaves_scipy_to_the_stages_that_use_it():
     env = dict(os.environ, PYTHONPATH=str(ROOT) + os.pathsep + os.environ.get("PYTHONPATH", ""))
     out = subprocess.run([sys.executable, "-c", "import json\n" + code], capture_output=True, text=True, env=env, cwd=ROOT, check=True)
     assert json.loads(out.stdout.strip().splitlines()[-1]) is False
+
+
+def test_top_level_help_does_not_import_numpy():
+    """``--help`` needs click only: the package's own names are served on first use (PEP 562)."""
+    code = ("import contextlib, io, json, sys\nfrom waveforms.cli import cli\n"
+            "with contextlib.redirect_stdout(io.StringIO()):\n"
+            "    try:\n        cli(['--help'], prog_name='motor-waveforms')\n"
+            "    except SystemExit:\n        pass\n"
+            "print(json.dumps('numpy' in sys.modules))")
+    env = dict(os.environ, PYTHONPATH=str(ROOT) + os.pathsep + os.environ.get("PYTHONPATH", ""))
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env, cwd=ROOT, check=True)
+    assert json.loads(out.stdout.strip().splitlines()[-1]) is False
+    import waveforms
+
+    assert waveforms.Capture.__name__ == "Capture" and callable(waveforms.read_capture)
