@@ -563,6 +563,9 @@ def run_recipe(
         t0 = time.perf_counter()
         stage.run(state, dict(params))
         state.timings_s[name] = time.perf_counter() - t0
+        from .heap import trim
+
+        trim()  # what the stage freed goes back to the system: the resident peak follows what is kept (issue 10)
     if state.states is not None:  # the detect stage has run
         _assemble_analysis(state)
     return state
