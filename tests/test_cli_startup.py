@@ -85,3 +85,26 @@ def test_csv_columns_read_from_arrow_buffers_keep_nulls_and_offsets():
     arr = pa.chunked_array([pa.array([9.0, 1.0, None, 3.0, 4.5, 8.0]).slice(1, 4), pa.array([None, -2.0, 7.0])])
     expected = np.concatenate([c.to_numpy(zero_copy_only=False) for c in arr.chunks])
     np.testing.assert_array_equal(_float_column(arr), expected)
+
+
+def test_the_analysis_module_leaves_scipy_to_the_stages_that_use_it():
+    """scipy.signal (about 1 s to import) comes with the measurement engine and the thermal filter, not with the chain's module."""
+    code = "import sys, waveforms.analysis, waveforms.motor.thermal\nprint(json.dumps('scipy.signal' in sys.modules))"
+    env = dict(os.environ, PYTHONPATH=str(ROOT) + os.pathsep + os.environ.get("PYTHONPATH", ""))
+    out = subprocess.run([sys.executable, "-c", "import json\n" + code], capture_output=True, text=True, env=env, cwd=ROOT, check=True)
+    assert json.loads(out.stdout.strip().splitlines()[-1]) is False
+
+
+def test_top_level_help_does_not_import_numpy():
+    """``--help`` needs click only: the package's own names are served on first use (PEP 562)."""
+    code = ("import contextlib, io, json, sys\nfrom waveforms.cli import cli\n"
+            "with contextlib.redirect_stdout(io.StringIO()):\n"
+            "    try:\n        cli(['--help'], prog_name='motor-waveforms')\n"
+            "    except SystemExit:\n        pass\n"
+            "print(json.dumps('numpy' in sys.modules))")
+    env = dict(os.environ, PYTHONPATH=str(ROOT) + os.pathsep + os.environ.get("PYTHONPATH", ""))
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env, cwd=ROOT, check=True)
+    assert json.loads(out.stdout.strip().splitlines()[-1]) is False
+    import waveforms
+
+    assert waveforms.Capture.__name__ == "Capture" and callable(waveforms.read_capture)

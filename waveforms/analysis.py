@@ -499,7 +499,7 @@ def _measured_voltage_ll_v(capture: Capture, measurements: Any) -> float | None:
     refs = {ch.reference for ch in volts.values()}
     ref = "LL" if refs == {"LL"} else "LN"
     cols = [f"{ch.label}_rms_half" for ch in volts.values() if f"{ch.label}_rms_half" in half]
-    return measured_ll_v(half[cols].to_numpy(), ref) if cols else None
+    return measured_ll_v([half[c].to_numpy(float) for c in cols], ref) if cols else None  # the columns as they are
 
 
 def declared_supply_voltage(capture: Capture, measurements: Any, params: DetectParams | None = None) -> Any:

@@ -128,6 +128,8 @@ class RunState:
     steps: tuple[tuple[str, dict[str, Any]], ...] = ()
     #: the data-quality survey the import stage left to the measure stage's pass (see `_stage_import`)
     pending_quality: Any = None
+    #: the broken-sample scan the import stage left to the measure stage's pass (`waveforms.io.masking.BrokenScan`)
+    pending_mask: Any = None
 
     @property
     def verdict(self) -> str:
@@ -561,6 +563,9 @@ def run_recipe(
         t0 = time.perf_counter()
         stage.run(state, dict(params))
         state.timings_s[name] = time.perf_counter() - t0
+        from .heap import trim
+
+        trim()  # what the stage freed goes back to the system: the resident peak follows what is kept (issue 10)
     if state.states is not None:  # the detect stage has run
         _assemble_analysis(state)
     return state
@@ -623,7 +628,13 @@ def _stage_import(state: RunState, params: dict[str, Any]) -> None:
                            wiring=s.wiring or None)
         from .io.csv_stream import open_capture
 
-        state.capture = open_capture(state.source, s.format or None, opts)  # a large CSV is streamed
+        # a large CSV is streamed; the broken-sample scan rides on the measure stage's pass when one follows
+        defer = "measure" in _later_stages(state, "import")
+        state.capture = open_capture(state.source, s.format or None, opts, mask=not defer)
+        if defer:
+            from .io.masking import defer_masking
+
+            state.capture, state.pending_mask = defer_masking(state.capture, str(Path(state.source)))
         if state.origin:  # read through a local copy: the provenance names the original
             prov = dataclasses.replace(state.capture.provenance, source_path=state.origin)
             state.capture = state.capture.replace(provenance=prov)
@@ -697,12 +708,25 @@ def _stage_measure(state: RunState, params: dict[str, Any]) -> None:
         from .quality import StatsAccumulator
 
         acc = state.pending_quality = StatsAccumulator(state.capture)
-    if acc is not None:
-        run_kw["feed"] = acc.feed
+    scan = state.pending_mask
+    if scan is not None and not scan.fits(state.capture):
+        scan.run()  # the hook-up check transformed the channels: the scan reads the imported samples itself
+    feeds = [f.feed for f in (scan if scan is not None and scan.fits(state.capture) else None, acc) if f is not None]
+    if len(feeds) == 1:
+        run_kw["feed"] = feeds[0]
+    elif feeds:
+        def feed(x: Any) -> None:
+            for f in feeds:
+                f(x)
+
+        run_kw["feed"] = feed
     dec = _speed_decimator(state)
     if dec is not None:
         run_kw["decimator"] = dec
     state.measurements = measure_capture(state.capture, run_kw)
+    if scan is not None:  # the broken stretches the pass found, listed as gaps with their note (as at import)
+        state.capture = scan.apply(state.capture)
+        state.pending_mask = None
     from .analysis import gate_measurements
 
     state.notes.extend(gate_measurements(state.capture, state.measurements, state.nameplate))  # issue 18: level gate

@@ -15,15 +15,25 @@ import click
 
 from ..errors import WaveformsError
 from ..io.registry import read_capture
-from ..quality import channel_stat_records, quality_notes
+from ..quality import StatsAccumulator, quality_notes
 from ..terminal import terminal_text
 from .readopts import options_from, read_options
 
 
 def inspect_one(path: str, format_name: str | None, options: Any) -> dict[str, Any]:
     """Plain-data inspection of one file (used by the command and its tests)."""
-    cap = read_capture(path, format_name, options)
-    stats = channel_stat_records(cap)  # plain data: inspect needs no pandas
+    from pathlib import Path
+
+    from ..io.masking import defer_masking
+
+    # one pass over the samples: the broken-sample scan rides on the statistics' pass
+    cap, scan = defer_masking(read_capture(path, format_name, options, mask=False), str(Path(path)))
+    acc = StatsAccumulator(cap)
+    for chunk in cap.iter_chunks(1 << 18):
+        scan.feed(chunk.owned)
+        acc.feed(chunk.owned)
+    cap = scan.apply(cap)
+    stats = acc.records()  # plain data: inspect needs no pandas
     notes = quality_notes(cap, stats)
     summary = cap.summary()
     return {

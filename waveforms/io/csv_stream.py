@@ -420,8 +420,10 @@ def spooled_capture(source: str | os.PathLike[str], options: ReadOptions | None 
 
 
 def open_capture(path: str | os.PathLike[str], format: str | None = None, options: ReadOptions | None = None,
-                 stream_min_bytes: int = STREAM_MIN_BYTES) -> Capture:
+                 stream_min_bytes: int = STREAM_MIN_BYTES, *, mask: bool = True) -> Capture:
     """`waveforms.io.read_capture`, but a delimited-text file of ``stream_min_bytes`` or more is streamed (`spooled_capture`).
+
+    ``mask``: as for `waveforms.io.read_capture` (False: the caller masks, `waveforms.io.masking.defer_masking`).
 
     ``--resample`` needs the whole file in memory, so it always takes the in-memory path.
     """
@@ -432,7 +434,10 @@ def open_capture(path: str | os.PathLike[str], format: str | None = None, option
     if not options.resample and p.is_file() and p.stat().st_size >= max(1, stream_min_bytes):
         name = format if format is not None else detect_format(p).name
         if name == "csv":
+            cap = spooled_capture(p, options)
+            if not mask:
+                return cap
             from .masking import mask_broken
 
-            return mask_broken(spooled_capture(p, options), str(p))
-    return read_capture(p, format, options)
+            return mask_broken(cap, str(p))
+    return read_capture(p, format, options, mask=mask)

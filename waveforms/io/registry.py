@@ -252,7 +252,7 @@ def detect_format(path: Path) -> Importer:
 
 
 def read_capture(
-    path: str | os.PathLike[str], format: str | None = None, options: ReadOptions | None = None
+    path: str | os.PathLike[str], format: str | None = None, options: ReadOptions | None = None, *, mask: bool = True
 ) -> Capture:
     """Read one capture file into a `Capture`.
 
@@ -263,6 +263,10 @@ def read_capture(
     format : str, optional
         Registry name of the importer; skips sniffing.
     options : ReadOptions, optional
+    mask : bool
+        Mask broken samples at once (`waveforms.io.masking.mask_broken`, a pass over the
+        samples).  False leaves that to the caller, who then uses
+        `waveforms.io.masking.defer_masking` so that a later pass carries the scan.
 
     Raises
     ------
@@ -302,6 +306,9 @@ def read_capture(
         imp = _REGISTRY[format]
     else:
         imp = detect_format(p)
+    cap = imp.read(p, options or ReadOptions())
+    if not mask:
+        return cap
     from .masking import mask_broken
 
-    return mask_broken(imp.read(p, options or ReadOptions()), str(p))
+    return mask_broken(cap, str(p))

@@ -71,7 +71,7 @@ def declared_voltages(half_cycles: pd.DataFrame, info: dict[str, Any]) -> dict[s
         if not labs:
             continue
         # the one declared-voltage rule of the dip/swell detector too (waveforms.measure.declared)
-        meas = measured_ll_v(half_cycles[[f"{lab}_rms_half" for lab in labs]].to_numpy(), ref)
+        meas = measured_ll_v([half_cycles[f"{lab}_rms_half"].to_numpy(float) for lab in labs], ref)
         decl = resolve_declared_voltage(info.get("declared_voltage_v"), info.get("nominal_voltage_v"), meas,
                                         info.get("nominal_frequency_hz"))
         val = float("nan") if decl.ll_v is None else (decl.ll_v / np.sqrt(3.0) if ref == "LN" else decl.ll_v)

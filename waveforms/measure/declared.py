@@ -157,12 +157,19 @@ def measured_ll_v(values_v, reference: str) -> float | None:
     """
     import numpy as np
 
-    v = np.asarray(values_v, dtype=float).ravel()
-    v = v[np.isfinite(v)]
+    if isinstance(values_v, (list, tuple)) and values_v and np.ndim(values_v[0]) == 1:
+        cols = [np.asarray(c, dtype=float) for c in values_v]  # one array per channel: no 2-D copy
+    else:
+        cols = [np.asarray(values_v, dtype=float).ravel()]
+    # the finite values, in an array of our own: the order statistics below may reorder it in place
+    # (the percentile and the median do not depend on the order; memory on hour-long tables, issue 10)
+    v = np.concatenate([c[np.isfinite(c)] for c in cols]) if len(cols) > 1 else cols[0][np.isfinite(cols[0])]
     if v.size == 0:
         return None
-    top = float(np.percentile(v, 95))
+    top = float(np.percentile(v, 95, overwrite_input=True))
     if not top > 0:
         return None
-    med = float(np.median(v[v >= ENERGISED_SHARE * top]))
+    sel = v[v >= ENERGISED_SHARE * top]
+    del v
+    med = float(np.median(sel, overwrite_input=True))
     return med * (math.sqrt(3.0) if reference == "LN" else 1.0)

@@ -149,7 +149,9 @@ def gate_cycles(cycles: pd.DataFrame, declared_ll_v: float | None = None,
     >>> g["V2_V1_pct"].tolist(), bool(g["level_gate"][1])
     ([1.0, nan], True)
     """
-    out = cycles.copy()
+    # a shallow copy: the gated columns are replaced by new arrays (`_blank`), the others shared, the input
+    # left as it is -- a deep copy would hold the whole table twice (memory, issue 10)
+    out = cycles.copy(deep=False)
     n = len(out)
     reason = np.full(n, "", dtype=object)
     notes: list[str] = []

@@ -56,7 +56,6 @@ import math
 
 import numpy as np
 import pandas as pd
-from scipy.signal import lfilter
 
 from ..errors import InvalidParameterError
 from ..settings import check_fields, setting
@@ -224,6 +223,8 @@ def first_order_state(
     u = np.asarray(u, dtype=float)
     if u.size == 0:
         return u.copy()
+    from scipy.signal import lfilter  # imported where used: importing scipy.signal costs about 1 s (issue 10 item 5)
+
     # exact discretisation: theta_n = a theta_{n-1} + (1 - a) u_n
     y, _ = lfilter([1.0 - a], [1.0, -a], u, zi=[a * theta0])
     return y

@@ -463,8 +463,15 @@ class Decimator:
         """The decimated signal from the blocks in time order: (1, m) complex space vector or (n_lines, m) real."""
         if not blocks:
             return np.empty((1 if self.use_sv else len(self.rows), 0), dtype=complex if self.use_sv else float)
-        y = np.concatenate(blocks, axis=1)
-        return (y[0] + 1j * y[1])[None, :] if self.use_sv else y
+        # filled block by block into one array: no concatenated copy beside the result (memory, issue 10)
+        m = sum(int(b.shape[1]) for b in blocks)
+        out = np.empty((1, m), dtype=complex) if self.use_sv else np.empty((blocks[0].shape[0], m), dtype=np.result_type(*blocks))
+        pos = 0
+        for b in blocks:
+            n = int(b.shape[1])
+            out[:, pos : pos + n] = (b[0] + 1j * b[1]) if self.use_sv else b
+            pos += n
+        return out
 
 
 def make_decimator(capture: Capture, names: list[str], q: int, use_sv: bool, n_samples: int | None = None) -> Decimator:
