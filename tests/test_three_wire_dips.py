@@ -137,3 +137,19 @@ def test_wiring_default_follows_the_channels(tmp_path):
     a, b = read_capture(tmp_path / "a.csv"), read_capture(tmp_path / "b.csv")
     assert a.wiring == "3-wire" and any("wiring taken as 3-wire" in n for n in a.provenance.notes)
     assert b.wiring == "4-wire"
+
+
+def test_interval_flags_follow_the_line_to_line_voltages_on_a_3_wire_system():
+    # IEC 61000-4-30 4.7 flags intervals holding a dip, swell or interruption; on a 3-wire system those are judged on
+    # the line-to-line voltages (5.4.1, from memory), which a bolted ground fault on an ungrounded system leaves balanced
+    # (Kirchhoff's voltage law: vab = va - vb carries no V0)
+    t = np.arange(int(2.0 * FS)) / FS
+    fault = (t >= 0.8) & (t < 1.2)
+    v = _three_phase(t)
+    v = np.where(fault[None], v - v[0][None], v)  # line A at earth: the neutral moves to -Ea
+    three = measure(_capture(v, "3-wire")).intervals("basic")
+    four = measure(_capture(v, "4-wire")).intervals("basic")
+    assert not three["flagged"].any()
+    during = (four["t_end_s"] > 0.8) & (four["t_start_s"] < 1.2 + 0.02)  # a Urms(1/2) window reaches one cycle back
+    assert four.loc[during, "dip"].all() and four.loc[during, "flagged"].all()  # 4-wire: Va at earth is a dip there
+    assert not four.loc[~during & (four["t_start_s"] > 0.1), "flagged"].any()

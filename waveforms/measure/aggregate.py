@@ -165,8 +165,25 @@ def _power_factors(out: pd.DataFrame) -> None:
             out["DPF"] = np.where(s1 > 0, out["P1_w"].to_numpy(float) / np.where(s1 > 0, s1, 1.0), np.nan)
 
 
+_LL_HALF = ("Vab", "Vbc", "Vca")
+
+
+def _flag_voltages(half: pd.DataFrame, info: dict[str, Any]) -> dict[str, float]:
+    """The voltages the flags are judged on: line-to-line on a 3-wire system, as the dip detector does.
+
+    A 3-wire capture recorded line-to-neutral carries ``Vab_rms_half`` ...
+    (`waveforms.measure.engine`); dips and swells of a 3-wire system are
+    assessed on those (IEC 61000-4-30 5.4.1 practice for 3-wire systems, from
+    memory), so a neutral shift (a ground fault on an ungrounded system) flags
+    no interval.
+    """
+    if info.get("wiring") == "3-wire" and all(f"{c}_rms_half" in half for c in _LL_HALF):
+        return declared_voltages(half, dict(info, channels={c: "LL" for c in _LL_HALF}))
+    return declared_voltages(half, info)
+
+
 def _flags(out: pd.DataFrame, half: pd.DataFrame, info: dict[str, Any]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    decl = declared_voltages(half, info)
+    decl = _flag_voltages(half, info)
     n = len(out)
     if not decl or half.empty:
         return np.zeros(n, bool), np.zeros(n, bool), np.zeros(n, bool)
