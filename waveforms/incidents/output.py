@@ -13,18 +13,27 @@ from ..atomic import atomic_path, write_text
 INCIDENT_FILES = ("incidents.csv", "incidents.parquet")
 
 
-def write_incidents(frame: pd.DataFrame, out_dir: str | os.PathLike[str]) -> dict[str, Path]:
-    """Write the incidents table as CSV and Parquet into ``out_dir`` (each file atomically)."""
-    from ..summary import _csv_safe  # the summary's guard against spreadsheet formulas in text cells
+def write_table_pair(frame: pd.DataFrame, out_dir: str | os.PathLike[str], names: tuple[str, str], key: str) -> dict[str, Path]:
+    """Write ``frame`` as CSV and Parquet into ``out_dir`` (each file atomically); keys ``KEY_csv``, ``KEY_parquet``.
+
+    The CSV's text cells are guarded against spreadsheet formulas (`waveforms.summary`); the Parquet keeps them raw
+    (typed data, docs/batch.md).
+    """
+    from ..summary import _csv_safe
 
     out = Path(out_dir)
-    paths = {"incidents_csv": out / INCIDENT_FILES[0], "incidents_parquet": out / INCIDENT_FILES[1]}
+    paths = {f"{key}_csv": out / names[0], f"{key}_parquet": out / names[1]}
     buf = io.StringIO()
     _csv_safe(frame).to_csv(buf, index=False)
-    write_text(paths["incidents_csv"], buf.getvalue())
-    with atomic_path(paths["incidents_parquet"]) as tmp:
+    write_text(paths[f"{key}_csv"], buf.getvalue())
+    with atomic_path(paths[f"{key}_parquet"]) as tmp:
         frame.to_parquet(tmp, index=False)
     return paths
+
+
+def write_incidents(frame: pd.DataFrame, out_dir: str | os.PathLike[str]) -> dict[str, Path]:
+    """Write the incidents table as CSV and Parquet into ``out_dir`` (each file atomically)."""
+    return write_table_pair(frame, out_dir, INCIDENT_FILES, "incidents")
 
 
 CARRY_FILES = ("thermal_carry.csv", "thermal_carry.parquet")
@@ -32,13 +41,4 @@ CARRY_FILES = ("thermal_carry.csv", "thermal_carry.parquet")
 
 def write_thermal_carry(frame: pd.DataFrame, out_dir: str | os.PathLike[str]) -> dict[str, Path]:
     """Write the carried thermal states (`waveforms.incidents.carry_thermal`) as CSV and Parquet, each atomically."""
-    from ..summary import _csv_safe
-
-    out = Path(out_dir)
-    paths = {"thermal_carry_csv": out / CARRY_FILES[0], "thermal_carry_parquet": out / CARRY_FILES[1]}
-    buf = io.StringIO()
-    _csv_safe(frame).to_csv(buf, index=False)
-    write_text(paths["thermal_carry_csv"], buf.getvalue())
-    with atomic_path(paths["thermal_carry_parquet"]) as tmp:
-        frame.to_parquet(tmp, index=False)
-    return paths
+    return write_table_pair(frame, out_dir, CARRY_FILES, "thermal_carry")
