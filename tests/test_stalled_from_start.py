@@ -73,3 +73,12 @@ def test_running_samples_without_a_nameplate_give_no_stall(name):
     res = analyze(cap, None)
     assert not [e for e in res.events if e.kind == "stall"]
     assert not [n for n in res.notes if "already-stalled" in n]
+
+
+def test_the_verdict_says_already_stalled_when_the_capture_began(locked):
+    # source: the simulator holds the rotor at rest from t = 0 (waveforms.sim, locked_rotor = true):
+    # the file holds no onset, so the verdict must not date the stall from its first cycle
+    res, _ = locked
+    assert "already stalled (locked rotor) when the capture began" in res.verdict
+    assert "still stalled at the end of the capture" in res.verdict
+    assert "to the end of the capture" not in res.verdict and " from 0.0" not in res.verdict

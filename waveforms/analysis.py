@@ -259,6 +259,12 @@ def verdict_text(
             drawing = f"drawing {f.get('i_max_median_a', float('nan')):.0f} A, {100 * f['i_over_inrush']:.0f} % of its inrush (no nameplate)"
         else:
             drawing = f"drawing {f.get('i_max_median_a', float('nan')):.0f} A (no nameplate)"
+        if f.get("present_at_capture_start"):  # no onset in the file: its first cycle is not when the motor stalled
+            held = ("and was still stalled at the end of the capture" if e.end_s is None
+                    else f"until {_t(start, e.end_s)}{until}")
+            how = " (judged without a nameplate)" if f.get("judged_without_nameplate") else ""
+            parts.append(f"The motor was already stalled (locked rotor) when the capture began{how} {held}, {drawing}.")
+            continue
         parts.append(f"The motor {cause} from {_t(start, e.start_s)} to {_t(start, e.end_s)}{until}, {drawing}.")
     ok_starts = [e for e in starts if e.figures.get("success")]
     if ok_starts:
