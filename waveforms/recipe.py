@@ -840,12 +840,46 @@ def _stage_detect(state: RunState, params: dict[str, Any]) -> None:
     state.settings["detectors"] = choice.detectors
 
 
+def _motor_cycles(state: RunState) -> tuple[Any, list[str]]:
+    """The per-cycle currents the thermal model judges: the motor's, not a feeder's (`waveforms.motor.branch`).
+
+    When an open phase below the logger left other equipment's current on the open line (the logger sees a
+    feeder), the motor's branch current is inferred by Kirchhoff; if that fails the thermal figures are not
+    assessed for the motor, rather than the feeder's current judged against the motor's FLA.
+    """
+    feeder = [e for e in state.events if e.kind == "open_phase" and "branch_inferred" in e.figures
+              and e.figures.get("location") == "downstream" and "winding_current_pattern" not in e.figures]
+    if not feeder or state.cycles is None or state.nameplate is None:
+        return state.cycles, []
+    from .motor.branch import motor_branch_cycles
+
+    e = feeder[0]
+    got = motor_branch_cycles(state.cycles, e.phase or "", e.start_s, e.end_s,
+                              float(e.figures.get("inferred_branch_current_a", float("nan"))))
+    if got is None:
+        return None, [f"thermal: not assessed for the motor: the logger sees a feeder (other equipment's "
+                      f"{e.figures.get('remaining_current_a', float('nan')):.1f} A on line {e.phase} after the onset) and "
+                      "the motor's own current could not be inferred; the logged current is not the motor's"]
+    cycles, figs = got
+    return cycles, [f"thermal: on the motor's branch current inferred by Kirchhoff's current law (logged current less the "
+                    f"other equipment's current: {figs['other_load_a']:.1f} A on line {e.phase} after the onset, its "
+                    f"main sequence component held from before, the other read on line {e.phase}; the motor drew "
+                    f"{figs['motor_before_a']:.1f} A before it): the logger sees "
+                    "a feeder, not the motor alone" + (
+                        "; another motor on the feeder answers the new voltage unbalance with its own negative-sequence "
+                        "current, which this inference partly takes out of the motor's: the motor's figures may read "
+                        "about 10 % low (simulated check, tests/test_motor_branch.py)"
+                        if str(e.figures.get("remaining_load", "")).startswith("inductive") else "")]
+
+
 def _stage_thermal(state: RunState, params: dict[str, Any]) -> None:
     from .analysis import assess_motor_thermal
 
     (tparams,) = get_stage("thermal").build(params)
     state.settings["thermal"] = tparams
-    state.thermal, notes = assess_motor_thermal(state.cycles, state.nameplate, tparams, state.states)
+    cycles, notes = _motor_cycles(state)
+    state.thermal, tnotes = assess_motor_thermal(cycles, state.nameplate, tparams, state.states)
+    notes = notes + tnotes
     if state.thermal is not None and state.hookup is not None and state.hookup.relabelled:
         # per-line figures named as labelled in the file, as the events are (waveforms.hookup.stage.as_labelled)
         lines = state.thermal.summary["lines"]
