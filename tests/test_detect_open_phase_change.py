@@ -173,6 +173,13 @@ def test_shipped_site_samples_found_without_a_hookup_warning(name):
     # the voltage depression the open line causes is the open phase's own, not a separate dip: on a transformer
     # primary the depressed secondary channel need not be the named (double-current) line (vector group, Dyn11 here)
     assert not [d for d in res.events if d.kind in ("dip", "interruption")], [d.summary for d in res.events]
+    # the timeline follows the event: single-phased from the onset, though no channel went dead (consistency, no
+    # external source); an open transformer primary leaves three live lines at the motor (2:1:1), not single phasing
+    tl = res.timeline
+    after = tl[tl["end_s"] > e.start_s + CYCLE_S]
+    want = "three-phase" if name == "transformer_primary_open" else "single-phased"
+    assert list(after["state"]) == [want], tl
+    assert float(after["start_s"].iloc[0]) <= e.start_s + CYCLE_S
 
 
 @pytest.mark.parametrize("name", ["healthy_run", "dip_one_phase", "unbalanced_supply", "dip_three_phase", "dol_start", "jam"])

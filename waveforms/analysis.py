@@ -147,6 +147,14 @@ def motor_states(inp: DetectionInput, events: list[Event]) -> pd.DataFrame:
             end = math.inf if e.end_s is None else e.end_s
             stalled |= (inp.t_start_s >= e.start_s - 0.5 * inp.cycle_s) & (inp.t_start_s < end)
     single = inp.dead_line.any(axis=1)
+    for e in events:
+        # an open line found from the change at its onset leaves no dead channel (other equipment keeps current on
+        # it): the event's span is the motor's single-phased stretch; an open transformer primary leaves three live
+        # lines (2:1:1), not single phasing at the motor
+        if e.kind == "open_phase" and e.figures.get("detection") == "change at onset" \
+                and e.figures.get("location") != "transformer_primary":
+            end = math.inf if e.end_s is None else e.end_s
+            single |= (inp.t_start_s >= e.start_s - 0.5 * inp.cycle_s) & (inp.t_start_s < end)
     if np.isfinite(inp.i_max).any():
         off = ~inp.energised
     else:
