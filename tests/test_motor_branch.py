@@ -80,3 +80,13 @@ def test_without_the_inference_the_feeder_current_would_have_been_judged():
     assert logged > 1.2 * motor
     # the thermal model's largest line current is the motor's inferred one, not the logged feeder current
     assert feeder.thermal.summary["max_current_pu"] < 0.85 * logged / PLATE.fla_a
+
+
+def test_the_report_says_the_plotted_currents_are_the_feeders(tmp_path):
+    # the current plot shows the logged currents; on a feeder the report says they are not the motor's alone
+    from waveforms.report import write_report
+
+    write_report(_run("second_motor", "feeder"), tmp_path / "feeder", html=True)
+    write_report(_run("second_motor", "motor"), tmp_path / "own", html=True)
+    assert "The logger sees a feeder" in (tmp_path / "feeder" / "report.html").read_text()
+    assert "The logger sees a feeder" not in (tmp_path / "own" / "report.html").read_text()

@@ -84,6 +84,9 @@ def render(res: AnalysisResult, doc: dict[str, Any], figures: dict[str, str | No
         "rate": f"{cap.sample_rate_hz:g} samples/s", "channels": ", ".join(c.label for c in cap.channels),
         "plate_name": None if res.nameplate is None else (res.nameplate.name or None),
         "has_fla": res.nameplate is not None,
+        # the logger sees a feeder (waveforms.motor.branch): the plotted currents are not the motor's alone
+        "feeder_note": next((n for n in doc["notes"] if n.startswith("thermal: on the motor's branch current")
+                             or n.startswith("thermal: not assessed for the motor")), None),
         "verdict": doc["verdict"], "fig": figures, "events": events, "thermal": thermal,
         "supply": None if doc.get("supply_voltage") is None else {
             "source": doc["supply_voltage"]["declared"]["source"], "basis": doc["supply_voltage"]["declared"]["basis"],
