@@ -135,3 +135,27 @@ def test_the_feeds_see_what_the_walk_over_the_grid_gave():
     ok = ~np.isnan(ref)
     np.testing.assert_allclose(m.decimated[ok], ref[ok], rtol=1e-9, atol=1e-9)
 
+
+
+def test_the_thermal_model_cools_over_the_gap_s_whole_duration():
+    """The gap's one row is one step of the gap's length, cooling at standstill (no external source for the rule).
+
+    The first-order model's free response over ``D`` seconds at zero input is
+    ``theta exp(-D / tau)`` (IEC 60255-149:2013, clause 5), with the standstill time constant
+    ``cooling_ratio x tau`` (the module's assumption for a de-energised motor); the walk over
+    the gap's NaN cycles reached the same value in one step per cycle.
+    """
+    from waveforms.motor.thermal import ThermalParams, assess_thermal, cooled_state
+
+    n1, gap, n2 = int(10 * FS), int(600 * FS), int(5 * FS)
+    cap, _, _ = _gapped(n1, gap, n2)
+    cyc = measure(cap).cycles
+    p = ThermalParams(motor_tau_s=300.0, hot_start=True)
+    r = assess_thermal(cyc, fla_a=12.0, params=p, gap_spans_s=[(n1 / FS, (n1 + gap) / FS)])
+    k = int(np.flatnonzero((cyc.t_end_s - cyc.t_start_s).to_numpy() > 100.0)[0])  # the gap's row
+    theta = r.track["theta_motor_pct"].to_numpy() / 100.0
+    want = cooled_state(theta[k - 1], float(cyc.t_end_s[k] - cyc.t_start_s[k]), 300.0 * p.standstill_cooling_ratio)
+    assert theta[k] == pytest.approx(want, rel=1e-9)
+    assert theta[k] < 0.6 * theta[k - 1]  # 600 s at 3 x 300 s: exp(-2/3) = 0.51 of the state before
+    assert r.summary["deenergised_s"] >= 600.0
+    assert any("time-stamp gap" in n for n in r.summary["notes"])

@@ -845,7 +845,10 @@ def _stage_thermal(state: RunState, params: dict[str, Any]) -> None:
 
     (tparams,) = get_stage("thermal").build(params)
     state.settings["thermal"] = tparams
-    state.thermal, notes = assess_motor_thermal(state.cycles, state.nameplate, tparams, state.states)
+    from .segments import gap_spans_s
+
+    state.thermal, notes = assess_motor_thermal(state.cycles, state.nameplate, tparams, state.states,
+                                                gap_spans_s=gap_spans_s(state.capture))
     if state.thermal is not None and state.hookup is not None and state.hookup.relabelled:
         # per-line figures named as labelled in the file, as the events are (waveforms.hookup.stage.as_labelled)
         lines = state.thermal.summary["lines"]
