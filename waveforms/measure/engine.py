@@ -951,12 +951,17 @@ def iter_measure(capture: Capture, chunk_samples: int = DEFAULT_CHUNK_SAMPLES,
 
 
 def _decimated_block(decimator: Any, ch: Chunk | _GapItem) -> np.ndarray:
-    """The decimator's outputs of a block; those of a gap are NaN without reading (a filter over NaN gives NaN)."""
+    """The decimator's outputs of a block; those of a gap are NaN without reading (a filter over NaN gives NaN).
+
+    The speed track needs the decimated current on the capture's whole grid, so the gap's NaN are
+    still held once in the assembled array (``n_samples / q`` values; see docs/importing.md).
+    """
     if not isinstance(ch, _GapItem):
         return decimator.block(ch.start_index, ch.data, ch.lead, ch.trail)
     q = decimator.q
     j0, j1 = -(-ch.start // q), -(-ch.stop // q)
-    return np.full((2 if decimator.use_sv else len(decimator.rows), max(0, j1 - j0)), np.nan)
+    # a read-only view of one NaN (no memory); `Decimator.assemble` fills its stretch without a temporary
+    return np.broadcast_to(np.nan, (2 if decimator.use_sv else len(decimator.rows), max(0, j1 - j0)))
 
 
 class _Table:
