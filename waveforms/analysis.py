@@ -719,7 +719,7 @@ def orient_rotation(
 
 def assess_motor_thermal(
     cycles: pd.DataFrame | None, nameplate: Nameplate | None, params: ThermalParams | None = None,
-    states: pd.DataFrame | None = None,
+    states: pd.DataFrame | None = None, gap_spans_s: list[tuple[float, float]] | None = None,
 ) -> tuple[ThermalResult | None, list[str]]:
     """Thermal stress from the per-cycle line currents and the nameplate, with its notes.
 
@@ -741,7 +741,7 @@ def assess_motor_thermal(
         cycles, fla_a=float(nameplate.fla_a), service_factor=float(nameplate.service_factor),
         locked_rotor_a=locked_rotor_a(nameplate), connection=nameplate.connection, params=tparams,
         standstill=still, locked_rotor_range_a=nameplate.locked_rotor_current_range_a(),
-        rated_voltage_v=float(nameplate.rated_voltage_v),
+        rated_voltage_v=float(nameplate.rated_voltage_v), gap_spans_s=gap_spans_s,
     )
     notes = [f"thermal: {n}" for n in thermal.summary["notes"]]
     if tparams.motor_tau_s == ThermalParams().motor_tau_s:

@@ -877,8 +877,11 @@ def _stage_thermal(state: RunState, params: dict[str, Any]) -> None:
 
     (tparams,) = get_stage("thermal").build(params)
     state.settings["thermal"] = tparams
+    from .segments import gap_spans_s
+
     cycles, notes = _motor_cycles(state)
-    state.thermal, tnotes = assess_motor_thermal(cycles, state.nameplate, tparams, state.states)
+    state.thermal, tnotes = assess_motor_thermal(cycles, state.nameplate, tparams, state.states,
+                                                 gap_spans_s=gap_spans_s(state.capture))
     notes = notes + tnotes
     if state.thermal is not None and state.hookup is not None and state.hookup.relabelled:
         # per-line figures named as labelled in the file, as the events are (waveforms.hookup.stage.as_labelled)

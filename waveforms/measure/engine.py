@@ -730,27 +730,36 @@ def iter_pass(capture: Capture, chunk_samples: int, lay: Layout, st: Settings, *
     The same 49 cycles as one block gives (`measure`), whatever the block size.
     """
     overlap = st.overlap_samples if overlap_samples is None else overlap_samples
-    chunks = capture.iter_chunks(chunk_samples, overlap)
+    chunks = _segment_chunks(capture, chunk_samples, overlap)
+    if feed is not None:
+        feed = _gap_feeder(feed, len(capture.channels), chunk_samples)
 
-    def first(ch: Chunk) -> tuple[BlockCycles | None, Any]:
+    def first(ch: Chunk | _GapItem) -> tuple[BlockCycles | _GapItem | None, Any]:
+        if isinstance(ch, _GapItem):
+            return ch, (extra(ch) if extra is not None else None)
         part = block_cycles(ch.data, ch.start_index, ch.lead, ch.trail, lay, st)
         return part, (extra(ch) if extra is not None else None)
 
-    def second(ch: Chunk, part: BlockCycles | None, offset: int) -> tuple[Columns, Columns, Columns]:
+    def second(ch: Chunk | _GapItem, part: BlockCycles | _GapItem | None, offset: int) -> tuple[Columns, Columns, Columns]:
+        if isinstance(part, _GapItem):
+            return gap_marker(part, offset, len(lay.labels), lay, st), {}, {}
         if part is None:
             return _empty_block()
         cyc, half = numbered(part, offset)
         return cyc, half, block_harmonics(ch.data, ch.start_index, part, offset, lay, st) if harmonics else {}
+
+    def n_owned(part: BlockCycles | _GapItem | None) -> int:
+        return 0 if part is None else 1 if isinstance(part, _GapItem) else part.n_cycles
 
     offset = 0
     with _blas_one_thread():
         if threads <= 1:
             for ch in chunks:
                 if feed is not None:
-                    feed(ch.owned)
+                    feed(ch)
                 part, ex = first(ch)
                 out = second(ch, part, offset)
-                offset += 0 if part is None else part.n_cycles
+                offset += n_owned(part)
                 yield (*out, ex)
             return
         import collections
@@ -769,7 +778,7 @@ def iter_pass(capture: Capture, chunk_samples: int, lay: Layout, st: Settings, *
                     ch, f1 = q1.popleft()
                     part, ex = f1.result()
                     q2.append((pool.submit(second, ch, part, offset), ex))
-                    offset += 0 if part is None else part.n_cycles
+                    offset += n_owned(part)
                 while len(q2) > limit:
                     f2, ex = q2.popleft()
                     yield (*f2.result(), ex)
@@ -777,13 +786,99 @@ def iter_pass(capture: Capture, chunk_samples: int, lay: Layout, st: Settings, *
             for ch in chunks:
                 q1.append((ch, pool.submit(first, ch)))
                 if feed is not None:
-                    fed.append(feeder.submit(feed, ch.owned))
+                    fed.append(feeder.submit(feed, ch))
                     while len(fed) > threads + 1:  # bounded memory: wait for the survey to catch up
                         fed.popleft().result()
                 yield from advance(threads)
             yield from advance(0)
             while fed:
                 fed.popleft().result()
+
+
+@dataclasses.dataclass(frozen=True)
+class _GapItem:
+    """Samples ``[start, stop)`` of a splitting time-stamp gap (`waveforms.segments.split_gaps`): nothing is read there."""
+
+    start: int
+    stop: int
+
+
+def recorded_segments(capture: Capture) -> list[tuple[int, int]]:
+    """``(start, stop)`` sample ranges of the recorded stretches between the splitting gaps (one range without gaps)."""
+    from ..segments import split_gaps
+
+    n = capture.n_samples
+    out, pos = [], 0
+    for g in sorted(split_gaps(capture), key=lambda g: g.start_index):
+        a, b = max(pos, int(g.start_index)), min(n, int(g.stop_index))
+        if a >= b:
+            continue
+        out.append((pos, a))
+        pos = b
+    out.append((pos, n))
+    return [(a, b) for a, b in out if b > a] if len(out) > 1 else out
+
+
+def _segment_chunks(capture: Capture, chunk_samples: int, overlap: int) -> Iterator[Chunk | _GapItem]:
+    """`Capture.iter_chunks` over the recorded stretches, a `_GapItem` for each splitting gap between them.
+
+    Without a gap this is ``capture.iter_chunks(chunk_samples, overlap)`` exactly.  A block next to a gap
+    still reads its overlap into the gap (NaN, at most ``overlap`` samples), so its rows are those the
+    walk over the whole grid gave; the blocks inside the gap are never read, and own no cycle.
+    """
+    segs = recorded_segments(capture)
+    n = capture.n_samples
+    prev_stop = 0
+    for a, b in segs:
+        if a > prev_stop:
+            yield _GapItem(prev_stop, a)
+        pos = a
+        while pos < b:
+            own_stop = min(pos + chunk_samples, b)
+            lo, hi = max(0, pos - overlap), min(n, own_stop + overlap)
+            yield Chunk(start_index=lo, data=capture.read(lo, hi), lead=pos - lo, trail=hi - own_stop)
+            pos = own_stop
+        prev_stop = b
+    if prev_stop < n:
+        yield _GapItem(prev_stop, n)
+
+
+def _gap_feeder(feed: Feed, n_channels: int, chunk_samples: int) -> Callable[[Any], None]:
+    """``feed`` of a block's owned samples; a gap is fed as NaN in pieces of one reused buffer (memory bounded)."""
+    buf: list[np.ndarray] = []
+
+    def run(item: Any) -> None:
+        if not isinstance(item, _GapItem):
+            feed(item.owned)
+            return
+        if not buf:
+            buf.append(np.full((n_channels, max(1, min(chunk_samples, item.stop - item.start))), np.nan))
+        pos = item.start
+        while pos < item.stop:
+            m = min(buf[0].shape[1], item.stop - pos)
+            feed(buf[0][:, :m])
+            pos += m
+
+    return run
+
+
+def gap_marker(gap: _GapItem, cycle: int, n_channels: int, lay: Layout, st: Settings) -> Columns:
+    """One cycle-table row standing for a whole gap: every value NaN, untracked, ``t_start_s``/``t_end_s`` the gap's ends.
+
+    The row is what the walk over the gap's NaN samples gave for each of its cycles (made the same way,
+    from a few NaN cycles), so every consumer sees the kind of row it saw there, once instead of once
+    per cycle; the timeline marks it ``"no data"`` (`waveforms.segments.mark_no_data`).
+    """
+    m = max(8, int(math.ceil(4 * st.fs_hz / st.f_nom_hz)))
+    part = block_cycles(np.full((n_channels, m), np.nan), gap.start, 0, 0, lay, st)
+    if part is None:  # pragma: no cover - NaN cycles are always laid out at the nominal period
+        return {}
+    cyc, _ = numbered(part, cycle)
+    out = {k: np.asarray(v)[:1].copy() for k, v in cyc.items()}
+    out["t_start_s"] = np.array([gap.start / st.fs_hz])
+    out["t_end_s"] = np.array([gap.stop / st.fs_hz])
+    out["t_s"] = np.array([0.5 * (gap.start + gap.stop) / st.fs_hz])
+    return out
 
 
 def iter_blocks(capture: Capture, chunk_samples: int = DEFAULT_CHUNK_SAMPLES,
@@ -853,6 +948,20 @@ def iter_measure(capture: Capture, chunk_samples: int = DEFAULT_CHUNK_SAMPLES,
     """
     for cyc, half, harm in iter_blocks(capture, chunk_samples, nominal_frequency_hz, overlap_cycles, prepared):
         yield to_frame(cyc), to_frame(half), to_frame(harm)
+
+
+def _decimated_block(decimator: Any, ch: Chunk | _GapItem) -> np.ndarray:
+    """The decimator's outputs of a block; those of a gap are NaN without reading (a filter over NaN gives NaN).
+
+    The speed track needs the decimated current on the capture's whole grid, so the gap's NaN are
+    still held once in the assembled array (``n_samples / q`` values; see docs/importing.md).
+    """
+    if not isinstance(ch, _GapItem):
+        return decimator.block(ch.start_index, ch.data, ch.lead, ch.trail)
+    q = decimator.q
+    j0, j1 = -(-ch.start // q), -(-ch.stop // q)
+    # a read-only view of one NaN (no memory); `Decimator.assemble` fills its stretch without a temporary
+    return np.broadcast_to(np.nan, (2 if decimator.use_sv else len(decimator.rows), max(0, j1 - j0)))
 
 
 class _Table:
@@ -959,13 +1068,14 @@ def measure(capture: Capture, chunk_samples: int = DEFAULT_CHUNK_SAMPLES,
     overlap = st.overlap_samples
     if decimator is not None and decimator.overlap_needed > overlap:
         overlap = decimator.overlap_needed  # wider than the engine needs: its rows do not change
-    n_cyc = int(capture.duration_s * st.f_nom_hz * 1.05) + 64  # the supply frequency stays within a few % of nominal
+    segs = recorded_segments(capture)  # the gaps own one row each, not their cycles
+    recorded_s = sum(b - a for a, b in segs) / capture.sample_rate_hz
+    n_cyc = int(recorded_s * st.f_nom_hz * 1.05) + 64 + len(segs)  # the supply frequency stays within a few % of nominal
     tables = (_Table(n_cyc), _Table(2 * n_cyc), _Table(n_cyc // st.harmonic_cycles + 16))
     dec_parts = []
     for *blocks, ex in iter_pass(capture, chunk_samples, lay, st, threads=threads, feed=feed, overlap_samples=overlap,
                                  harmonics=harmonics,
-                                 extra=None if decimator is None else
-                                 (lambda ch: decimator.block(ch.start_index, ch.data, ch.lead, ch.trail))):
+                                 extra=None if decimator is None else (lambda ch: _decimated_block(decimator, ch))):
         for t, b in zip(tables, blocks, strict=True):
             t.add(b)
         dec_parts.append(ex)

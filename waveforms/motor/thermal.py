@@ -231,12 +231,14 @@ def first_order_state(
 
 
 def first_order_state_varying(
-    u: np.ndarray, dt_s: float, tau_s: np.ndarray, theta0: float = 0.0
+    u: np.ndarray, dt_s: float | np.ndarray, tau_s: np.ndarray, theta0: float = 0.0
 ) -> np.ndarray:
     """`first_order_state` with a time constant per step (``tau_s`` an array of ``u``'s length) [s].
 
     Solved exactly, stretch by stretch of constant ``tau_s`` (one `scipy.signal.lfilter`
-    call per stretch; the stretches are the motor's state changes, few).
+    call per stretch; the stretches are the motor's state changes, few).  ``dt_s`` may be an
+    array too (a step length per step: a time-stamp gap is one long step, `capture_thermal`);
+    the stretches then are those of constant ``tau_s`` and ``dt_s``.
 
     References
     ----------
@@ -246,12 +248,16 @@ def first_order_state_varying(
     tau = np.broadcast_to(np.asarray(tau_s, dtype=float), u.shape)
     if u.size == 0:
         return u.copy()
-    change = np.flatnonzero(np.r_[True, tau[1:] != tau[:-1]])
+    step = np.broadcast_to(np.asarray(dt_s, dtype=float), u.shape)
+    diff = tau[1:] != tau[:-1]
+    if np.ndim(dt_s):
+        diff = diff | (step[1:] != step[:-1])
+    change = np.flatnonzero(np.r_[True, diff])
     ends = np.r_[change[1:], u.size]
     out = np.empty_like(u)
     th = float(theta0)
     for a, b in zip(change, ends, strict=True):
-        out[a:b] = first_order_state(u[a:b], dt_s, float(tau[a]), th)
+        out[a:b] = first_order_state(u[a:b], float(step[a]), float(tau[a]), th)
         th = float(out[b - 1])
     return out
 
@@ -273,16 +279,20 @@ def time_to_level_s(u: float, theta: float, tau_s: float, level: float) -> float
 
 
 def crossing_time_s(
-    t_end_s: np.ndarray, u: np.ndarray, theta: np.ndarray, dt_s: float, tau_s: float, level: float, theta0: float = 0.0
+    t_end_s: np.ndarray, u: np.ndarray, theta: np.ndarray, dt_s: float | np.ndarray, tau_s: float, level: float,
+    theta0: float = 0.0
 ) -> float | None:
     """First instant the state reaches ``level``, solved exactly inside its step.
 
-    Returns seconds (on the ``t_end_s`` axis) or None when never reached.
+    Returns seconds (on the ``t_end_s`` axis) or None when never reached.  ``dt_s``: the step
+    length, or one per step.
     """
     hit = np.flatnonzero(theta >= level)
     if hit.size == 0:
         return None
     n = int(hit[0])
+    if np.ndim(dt_s):
+        dt_s = float(np.asarray(dt_s, dtype=float)[n])
     prev = theta0 if n == 0 else float(theta[n - 1])
     if prev >= level:
         return float(t_end_s[n] - dt_s) if n > 0 else float(t_end_s[0] - dt_s)
@@ -401,7 +411,7 @@ def free_response_decay(off: np.ndarray, dt_s: float, tau_s: float, cooling_rati
        ``theta0 exp(-t / tau)``).
     """
     off = np.asarray(off, bool)
-    if not (dt_s > 0 and tau_s > 0 and cooling_ratio > 0):
+    if not (np.all(np.asarray(dt_s) > 0) and tau_s > 0 and cooling_ratio > 0):
         raise InvalidParameterError(f"{dt_s=}, {tau_s=} and {cooling_ratio=} must be positive")
     rate = np.where(off, 1.0 / (tau_s * cooling_ratio), 1.0 / tau_s)
     return np.exp(-np.cumsum(rate * dt_s))
@@ -466,8 +476,9 @@ def _edge_heating(u: np.ndarray, t_s: np.ndarray, first: bool, stop: np.ndarray 
 
 
 def _models(
-    u_motor: np.ndarray, u_relay: np.ndarray, off: np.ndarray, t_end: np.ndarray, dt: float, *, motor_tau_s: float,
-    cooling_ratio: float, sf: float, theta0_motor: float, theta0_relay: float, relay_taus: dict[str, float],
+    u_motor: np.ndarray, u_relay: np.ndarray, off: np.ndarray, t_end: np.ndarray, dt: float | np.ndarray, *,
+    motor_tau_s: float, cooling_ratio: float, sf: float, theta0_motor: float, theta0_relay: float,
+    relay_taus: dict[str, float],
 ) -> dict:
     """Run the motor model and the relay models over the capture and project them past its end."""
     tau_m = np.where(off, motor_tau_s * cooling_ratio, motor_tau_s)
@@ -478,7 +489,8 @@ def _models(
     out["motor_100pct_s"] = float(t_end[hit[0]]) if hit.size else None
     level = RELAY_PICKUP_PU**2
     for cls, tau_c in relay_taus.items():
-        th = first_order_state(u_relay, dt, tau_c, theta0_relay)
+        th = (first_order_state_varying(u_relay, dt, np.full(u_relay.shape, tau_c), theta0_relay) if np.ndim(dt)
+              else first_order_state(u_relay, dt, tau_c, theta0_relay))
         out["relays"][cls] = {"theta": th, "trip_s": crossing_time_s(t_end, u_relay, th, dt, tau_c, level, theta0_relay)}
     return out
 
@@ -510,6 +522,7 @@ def assess_thermal(
     standstill: np.ndarray | None = None,
     locked_rotor_range_a: tuple[float, float] | None = None,
     rated_voltage_v: float | None = None,
+    gap_spans_s: list[tuple[float, float]] | None = None,
 ) -> ThermalResult:
     """Thermal stress from the per-cycle table: heating current, capacity used, relay trips.
 
@@ -538,6 +551,11 @@ def assess_thermal(
         weight goes from K to 1 as the positive-sequence impedance V1/I1 falls
         from `RUNNING_Z1_PU` to the locked-rotor impedance FLA / I_LR (a
         decelerating rotor, before a stall is detected).
+    gap_spans_s : list of (float, float), optional
+        The time-stamp gaps that split the analysis (`waveforms.segments.gap_spans_s`) [s].  A
+        row lying wholly inside one (the engine's one row for the gap,
+        `waveforms.measure.engine.gap_marker`) is one step of its own length, the motor taken as
+        de-energised and cooling there.
 
     Returns
     -------
@@ -560,10 +578,25 @@ def assess_thermal(
     t_end = cycles["t_end_s"].to_numpy(float) if "t_end_s" in cycles else t_s
     dur = np.diff(cycles[["t_start_s", "t_end_s"]].to_numpy(float), axis=1)[:, 0] if "t_start_s" in cycles else np.diff(t_end, prepend=t_end[0])
     dt = float(np.nanmedian(dur)) if dur.size and np.isfinite(np.nanmedian(dur)) and np.nanmedian(dur) > 0 else 0.02
+    # a time-stamp gap is one row of the cycle table spanning the gap (waveforms.measure.engine.gap_marker): one step of
+    # its own length, cooling there as de-energised (nothing was recorded; assumed stopped, our choice, no source)
+    long_step = np.zeros(len(cycles), bool)
+    if gap_spans_s and "t_start_s" in cycles:
+        t0 = cycles["t_start_s"].to_numpy(float)
+        for g0, g1 in gap_spans_s:
+            long_step |= (t0 >= g0 - 1e-9) & (t_end <= g1 + 1e-9)
+        long_step &= dur > dt
+    if long_step.any():
+        dt = np.where(long_step, dur, dt)
     i_rms = cycles[lines].to_numpy(float)
     i_max = np.nanmax(np.where(np.isfinite(i_rms), i_rms, -np.inf), axis=1)
     i_max = np.where(np.isfinite(i_max), i_max, np.nan)
     off = ~(np.nan_to_num(i_max, nan=0.0) >= DEENERGISED_PU * fla_a)  # no motor current: stopped, cooling
+    off |= long_step
+    if long_step.any():
+        notes.append(f"{int(long_step.sum())} time-stamp gap(s) ({float(np.sum(dur[long_step])):.6g} s): nothing recorded there, "
+                     "the motor taken as de-energised and cooling at standstill over the gap's whole duration (our "
+                     "assumption, no source: a motor that ran through the gap would be warmer)")
     still = np.zeros(len(cycles), bool) if standstill is None else np.asarray(standstill, bool).copy()
     if still.shape != (len(cycles),):
         raise InvalidParameterError(f"standstill has shape {still.shape}, expected ({len(cycles)},) (one value per cycle)")

@@ -469,7 +469,10 @@ class Decimator:
         pos = 0
         for b in blocks:
             n = int(b.shape[1])
-            out[:, pos : pos + n] = (b[0] + 1j * b[1]) if self.use_sv else b
+            if n > 1 and b.strides[-1] == 0:  # one value broadcast (the engine's NaN for a time-stamp gap): no temporary
+                out[:, pos : pos + n] = complex(b[0, 0], b[1, 0]) if self.use_sv else b[:, :1]
+            else:
+                out[:, pos : pos + n] = (b[0] + 1j * b[1]) if self.use_sv else b
             pos += n
         return out
 
