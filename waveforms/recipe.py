@@ -493,6 +493,7 @@ def run_recipe(
     nameplate_source: str = "",
     origin: str = "",
     threads: int = 1,
+    pending_mask: Any = None,
 ) -> RunState:
     """Run a recipe's chain on one capture.
 
@@ -515,6 +516,10 @@ def run_recipe(
     threads : int
         Threads for independent work inside the stages (measurement blocks,
         speed windows); the results are the same for any value.
+    pending_mask : BrokenScan, optional
+        When ``capture`` was opened unmasked and wrapped by
+        `waveforms.io.masking.defer_masking`: its scan, carried by the measure
+        stage's pass (one pass over the samples).
 
     Returns
     -------
@@ -554,6 +559,7 @@ def run_recipe(
         state.nameplate_source = nameplate_source or "given"
     state.out_dir = None if out_dir is None else Path(out_dir)
     state.origin = origin
+    state.pending_mask = pending_mask
     state.threads = max(1, int(threads))
     state.steps = rec.steps
     for name, params in rec.steps:

@@ -137,15 +137,22 @@ def command(capture: str, motor: str | None, out_dir: str, recipe_name: str, no_
     from ..io.csv_stream import open_capture
     from ..io.trend import is_trend_log
 
+    scan = None
     if fmt is None and is_trend_log(capture):  # an RMS trend log: run_recipe switches to the trend recipe (docs/trends.md)
         if options.nominal_voltage_v is not None and "import" in rec.stage_names:
             rec = _set(rec, "import", {"nominal_voltage_v": options.nominal_voltage_v}, "--nominal-voltage")
         cap = capture
+    elif "measure" in rec.stage_names:
+        # a large CSV is streamed, not held in memory; the broken-sample scan rides on the measure stage's pass
+        # (one pass over the samples; the "no usable sample" refusal stays here, at import)
+        from ..io.masking import defer_masking
+
+        cap, scan = defer_masking(open_capture(capture, fmt, options, mask=False), str(capture))
     else:
         cap = open_capture(capture, fmt, options)  # a large CSV is streamed, not held in memory
     plate = load_nameplate(motor) if motor else None
     state = run_recipe(rec, cap, nameplate=plate, out_dir=out, nameplate_source=motor or "",
-                       threads=threads or default_threads())
+                       threads=threads or default_threads(), pending_mask=scan)
     click.echo(terminal_text(state.verdict, keep_newlines=True))
     click.echo("")
     for p in state.outputs.values():
