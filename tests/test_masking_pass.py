@@ -46,7 +46,30 @@ def _file(tmp_path: Path, x: np.ndarray, name: str = "broken.h5") -> Path:
     return write_native(cap, tmp_path / name)
 
 
+def _count_reads(monkeypatch) -> list[tuple[int, int, tuple[int, ...]]]:
+    """Every read through the native HDF5 source, as (start, stop, channels)."""
+    reads: list[tuple[int, int, tuple[int, ...]]] = []
+    plain = hdf5_native.HDF5Source.read
+
+    def counted(self, start, stop, channel_indices):
+        reads.append((int(start), int(stop), tuple(channel_indices)))
+        return plain(self, start, stop, channel_indices)
+
+    monkeypatch.setattr(hdf5_native.HDF5Source, "read", counted)
+    return reads
+
+
+def _coverage(reads: list[tuple[int, int, tuple[int, ...]]], n: int, channel: int = 1) -> np.ndarray:
+    """How many times each sample of ``channel`` was read."""
+    cov = np.zeros(n + 1, dtype=np.int64)
+    for a, b, ch in reads:
+        if channel in ch:
+            cov[a] += 1
+            cov[b] -= 1
+    return np.cumsum(cov)[:-1]
+
 @pytest.mark.parametrize("chunk", [997, 4096, 1 << 18])
+
 def test_scan_fed_block_by_block_equals_the_separate_pass(tmp_path, chunk):
     raw = read_capture(_file(tmp_path, _broken(_samples())), mask=False)
     eager = mask_broken(raw, "broken.h5")
@@ -102,27 +125,15 @@ def test_refusal_stays_at_import_and_reads_only_to_the_first_usable_sample(tmp_p
 
 def test_analyze_reads_the_file_once_and_lists_the_broken_stretches(tmp_path, monkeypatch):
     path = _file(tmp_path, _broken(_samples(60.0)))  # the broken samples all in the first of five blocks
-    reads: list[tuple[int, int, tuple[int, ...]]] = []
-    plain = hdf5_native.HDF5Source.read
-
-    def counted(self, start, stop, channel_indices):
-        reads.append((int(start), int(stop), tuple(channel_indices)))
-        return plain(self, start, stop, channel_indices)
-
-    monkeypatch.setattr(hdf5_native.HDF5Source, "read", counted)
+    reads = _count_reads(monkeypatch)
     rec = default_recipe().without("report", "hookup").with_params("measure", {"chunk_samples": 1 << 16})
     state = run_recipe(rec, path)
-    cov = np.zeros(int(60.0 * FS) + 1, dtype=np.int64)
-    for a, b, ch in reads:
-        if 1 in ch:
-            cov[a] += 1
-            cov[b] -= 1
-    cov = np.cumsum(cov)[:-1]
+    cov = _coverage(reads, int(60.0 * FS))
     # one pass (block overlaps, the engine's short survey blocks and the raw re-read of the one block
     # holding broken samples aside); a separate masking pass would make it 2
     assert np.median(cov) == 1 and cov.min() >= 1
     assert np.mean(cov[1 << 16:] > 1) < 0.2  # past the broken block: overlaps and survey blocks only
-    monkeypatch.setattr(hdf5_native.HDF5Source, "read", plain)
+    monkeypatch.undo()
     eager = read_capture(path)
     assert state.capture.gaps == eager.gaps
     assert eager.provenance.notes[-1] in state.capture.provenance.notes
@@ -137,23 +148,11 @@ def test_the_analyze_command_reads_the_file_once(tmp_path, monkeypatch):
     from waveforms.cli import cli
 
     path = _file(tmp_path, _broken(_samples(240.0)))  # long against the default block (2^18)
-    reads: list[tuple[int, int, tuple[int, ...]]] = []
-    plain = hdf5_native.HDF5Source.read
-
-    def counted(self, start, stop, channel_indices):
-        reads.append((int(start), int(stop), tuple(channel_indices)))
-        return plain(self, start, stop, channel_indices)
-
-    monkeypatch.setattr(hdf5_native.HDF5Source, "read", counted)
+    reads = _count_reads(monkeypatch)
     out = tmp_path / "out"
     r = CliRunner().invoke(cli, ["analyze", str(path), "--out", str(out), "--no-html"])
     assert r.exit_code == 0, r.output
-    cov = np.zeros(int(240.0 * FS) + 1, dtype=np.int64)
-    for a, b, ch in reads:
-        if 1 in ch:
-            cov[a] += 1
-            cov[b] -= 1
-    cov = np.cumsum(cov)[:-1]
+    cov = _coverage(reads, int(240.0 * FS))
     # one pass (the raw re-read of the one block holding broken samples aside); a masking pass at import makes it 2
     assert np.median(cov) == 1 and cov.min() >= 1
     import json
