@@ -2,6 +2,7 @@
 
 Each case is checked twice: the library raises the package's own error (``match=`` on the
 message) and ``motor-waveforms inspect`` exits non-zero with that one line and no traceback.
+Behaviour checks of our own error handling: no external source.
 """
 
 from __future__ import annotations

@@ -1,4 +1,4 @@
-"""Registry-wide checks: every sniffer on every fixture, format detection, no sniffer raises."""
+"""Registry-wide checks: every sniffer on every fixture, format detection, no sniffer raises (no external source)."""
 
 from __future__ import annotations
 

@@ -1,4 +1,4 @@
-"""The speed spectrum figure: bands shaded, components marked (structure checks, no image comparison)."""
+"""The speed spectrum figure: bands shaded, components marked (structure checks, no image comparison; no external source)."""
 
 from __future__ import annotations
 

@@ -75,6 +75,7 @@ import numpy as np
 import pandas as pd
 
 from ..measure.sequence import A as _A
+from ..measure.sequence import sequence_components
 from .context import LINES, DetectionInput, runs
 from .pointonwave import refine_onset_s
 
@@ -108,7 +109,9 @@ UPSTREAM_MIN_S = 0.5
 def _sequence(x: np.ndarray, op: complex) -> tuple[complex, complex, complex]:
     """Zero, positive and negative sequence of three phasors (Fortescue [1]); ``op`` = a (A-B-C) or a^2 (A-C-B)."""
     xa, xb, xc = complex(x[0]), complex(x[1]), complex(x[2])
-    return (xa + xb + xc) / 3, (xa + op * xb + op * op * xc) / 3, (xa + op * op * xb + op * xc) / 3
+    # an A-C-B rotation is the standard matrix with lines B and C swapped
+    z, p, n = sequence_components(xa, xb, xc) if op == _A else sequence_components(xa, xc, xb)
+    return complex(z), complex(p), complex(n)
 
 
 def step_candidates(inp: DetectionInput) -> list[tuple[int, int]]:
