@@ -74,18 +74,23 @@ SITES = {
 }
 
 
-@functools.lru_cache(maxsize=None)
-def _simulated(name: str, opened: bool):
-    """(capture, truth) of one site, with or without the open line (cached for the session)."""
+def simulate_site(name: str, opened: bool, open_s: float = 1.0, duration_s: float = 2.0):
+    """(capture, truth) of one site of `SITES`, its line opening at ``open_s`` (or staying closed)."""
     site, supply, line = SITES[name]
     site = dict(site)
     switches: dict = {}
     if opened and line:
-        switches = {"ops": [{"line": line, "time_s": 1.0, "action": "open"}]}
+        switches = {"ops": [{"line": line, "time_s": open_s, "action": "open"}]}
     if opened and "transformer" in site:
-        site["transformer"] = dict(site["transformer"], ops=[{"line": "A", "time_s": 1.0, "action": "open"}])
-    d = scenario_dict(site, duration_s=2.0, supply=supply, switches=switches, rate_hz=5000.0, initial={"state": "steady"})
+        site["transformer"] = dict(site["transformer"], ops=[{"line": "A", "time_s": open_s, "action": "open"}])
+    d = scenario_dict(site, duration_s=duration_s, supply=supply, switches=switches, rate_hz=5000.0, initial={"state": "steady"})
     return simulate(scenario_from_dict(d, "site-test.toml", SAMPLES))
+
+
+@functools.lru_cache(maxsize=None)
+def _simulated(name: str, opened: bool):
+    """(capture, truth) of one site, with or without the open line (cached for the session)."""
+    return simulate_site(name, opened)
 
 
 @functools.lru_cache(maxsize=None)

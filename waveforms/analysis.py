@@ -244,6 +244,10 @@ def verdict_text(
         lost = (f"A primary line of the supply transformer (line {line} carries the double current)"
                 if f.get("location") == "transformer_primary" else f"Line {line}")
         parts.append(f"{lost} {when}, {where}: {what}{tail}.")
+        if f.get("detection") == "steady currents at the start" and f.get("alternative"):
+            # no dead line and no onset: the call rests on the currents' split alone (waveforms.detect.open_phase_steady)
+            parts.append(f"This rests on the steady currents alone (no dead line, no onset in the capture): {f['alternative']}; "
+                         "check the open point on site.")
     if "direction" in timeline:
         told = [o for o in ops if o.figures.get("rotation") == "reverse"]
         for r in timeline[timeline["direction"] == "reverse"].itertuples(index=False):

@@ -419,6 +419,7 @@ def detect_open_phase(inp: DetectionInput, prior: dict) -> Findings:
                 figures=figs,
             ))
     out += _change_events(inp, prior, [(e.start_s, e.end_s) for e in out])
+    out += _change_events(inp, prior, [(e.start_s, e.end_s) for e in out], steady=True)
     return Findings(tuple(out), inp.reference_notes())
 
 
@@ -426,12 +427,14 @@ _WHERE = {"upstream": "upstream of the logger", "downstream": "downstream of the
           "transformer_primary": "on the primary of the transformer feeding the motor (upstream of the logger)"}
 
 
-def _change_events(inp: DetectionInput, prior: dict, taken: list[tuple[float, float | None]]) -> list[Event]:
-    """Open phases with no dead line, found from the change at onset (`waveforms.detect.open_phase_change`)."""
+def _change_events(inp: DetectionInput, prior: dict, taken: list[tuple[float, float | None]], steady: bool = False) -> list[Event]:
+    """Open phases with no dead line: from the change at onset (`waveforms.detect.open_phase_change`) or, with
+    ``steady``, already present where a stretch begins (`waveforms.detect.open_phase_steady`)."""
     from .open_phase_change import change_open_phases
+    from .open_phase_steady import steady_open_phases
 
     out = []
-    for line, start_s, end_s, figs in change_open_phases(inp, taken):
+    for line, start_s, end_s, figs in (steady_open_phases if steady else change_open_phases)(inp, taken):
         j = LINES.index(line)
         a = int(np.searchsorted(inp.t_end_s, start_s)) + 2
         b = inp.n if end_s is None else max(a + 1, int(np.searchsorted(inp.t_start_s, end_s)))
@@ -450,10 +453,14 @@ def _change_events(inp: DetectionInput, prior: dict, taken: list[tuple[float, fl
         ended_by = figs.get("ended_by")
         tail = (", still open at the end of the capture" if end_s is None else
                 f", returned at {end_s:.4f} s" if ended_by == "phase returned" else f", motor de-energised at {end_s:.3f} s")
-        what = (f"line {line} open (opened at {start_s:.4f} s{tail}), open point {where}" if figs["location"] != "transformer_primary"
-                else f"a primary line of the supply transformer open (at {start_s:.4f} s{tail}): line {line} carries the double "
-                     "current of the 2:1:1 split")
+        when = ("present from the capture start" if figs.get("present_at_capture_start") else "present at energisation"
+                if figs.get("present_at_energisation") else f"opened at {start_s:.4f} s")
+        what = (f"line {line} open ({when}{tail}), open point {where}" if figs["location"] != "transformer_primary"
+                else f"a primary line of the supply transformer open ({when if steady else f'at {start_s:.4f} s'}{tail}): "
+                     f"line {line} carries the double current of the 2:1:1 split")
+        how = ("found from the steady currents (no dead line, no onset in the capture)"
+               + ("; or a large line-to-line load" if "alternative" in figs else "")) if steady else \
+            "found from the change at the onset (no dead line)"
         out.append(Event(kind="open_phase", phase=line, start_s=start_s, end_s=end_s, detector="open_phase",
-                         summary=f"{what}; found from the change at the onset (no dead line); motor {figs['motor_state']}",
-                         figures=figs))
+                         summary=f"{what}; {how}; motor {figs['motor_state']}", figures=figs))
     return out

@@ -351,6 +351,21 @@ def assess_change(inp: DetectionInput, onset_s: float, ph: dict) -> dict | None:
     # imposed from above: an open line upstream (the logger sees what lies beyond it) or on a transformer primary
     if figs["v2_v1_pct_after"] < UPSTREAM_V2_PCT:
         return None
+    return imposed_from_above(figs, i_post, v_post)
+
+
+def imposed_from_above(figs: dict, i_post: np.ndarray, v_post: np.ndarray) -> dict | None:
+    """The open-line calls for an unbalance imposed from above the logger: a transformer primary or an upstream line.
+
+    ``figs`` must hold ``v2_v1_pct_after`` [%]; ``i_post`` and ``v_post`` are
+    the current and line-to-neutral voltage phasors [A, V] with the line open.
+    ``figs["detection"]`` says what is judged (the change at an onset, or the
+    steady currents at the start of a stretch) and words the reasons.
+    Returns ``figs`` updated with ``location``, ``line`` and the reasons, or
+    None when neither pattern fits (a supply disturbance, left to the dip and
+    unbalance detectors).
+    """
+    what = "the change was" if figs.get("detection") == "change at onset" else "the unbalance is"
     mags = np.abs(i_post)
     p = np.array([(complex(v_post[k]) * complex(i_post[k]).conjugate()).real for k in range(3)])
     p_tot = float(p.sum())
@@ -360,8 +375,8 @@ def assess_change(inp: DetectionInput, onset_s: float, ph: dict) -> dict | None:
         line, k, m = LINES[j], LINES[(j + 1) % 3], LINES[(j + 2) % 3]
         figs.update({"location": "transformer_primary", "line": line, "current_split": ratios,
                      "location_reason": (
-                         f"no line went dead, the change was imposed from above the logger (V2/V1 rose to "
-                         f"{figs['v2_v1_pct_after']:.1f} %), and the currents split "
+                         f"no line went dead, {what} imposed from above the logger (V2/V1 "
+                         f"{figs['v2_v1_pct_after']:.1f} % with the line open), and the currents split "
                          f"{':'.join(f'{x:.1f}' for x in ratios)} with lines {k} and {m} in phase "
                          f"({apart:.0f} deg apart) and line {line} carrying their sum: a line open on the primary of a "
                          "delta-wye or wye-delta transformer feeding the motor (the 2:1:1 split; which primary line "
@@ -373,9 +388,9 @@ def assess_change(inp: DetectionInput, onset_s: float, ph: dict) -> dict | None:
             figs.update({"location": "upstream", "line": line, "open_line_current_a": float(mags[j]),
                          "open_line_power_share": float(p[j] / p_tot),
                          "location_reason": (
-                             f"the change was imposed on the motor from above the logger (dV2/dI2 is the motor's own "
-                             f"negative-sequence impedance, V2/V1 rose to {figs['v2_v1_pct_after']:.1f} %), and line {line} "
-                             f"now carries {mags[j]:.1f} A with {100 * p[j] / p_tot:.1f} % of the real power: only the "
+                             f"{what} imposed on the motor from above the logger (V2/I2 is the motor's own "
+                             f"negative-sequence impedance, V2/V1 {figs['v2_v1_pct_after']:.1f} % with the line open), and line {line} "
+                             f"carries {mags[j]:.1f} A with {100 * p[j] / p_tot:.1f} % of the real power: only the "
                              "reactive current of the equipment between the open point and the motor (e.g. a capacitor bank "
                              "at its terminals) circulates through it")})
             return figs

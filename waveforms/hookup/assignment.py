@@ -67,6 +67,23 @@ def _describe(p: tuple[int, ...], s: tuple[int, ...], names: list[str]) -> tuple
     return "; ".join(parts), chans
 
 
+def _open_line_fit(v_line: dict[str, np.ndarray], i_rec: list[np.ndarray]) -> dict | None:
+    """The open line that the recorded currents fit in most windows, or None (`waveforms.detect.open_phase_steady`)."""
+    from ..detect.open_phase_steady import assess_steady
+
+    calls = []
+    for w in range(i_rec[0].size):
+        got = assess_steady(np.array([x[w] for x in i_rec]), np.array([v_line[c][w] for c in LINES]))
+        if got is not None:
+            calls.append((got["line"], got["location"]))
+    if not calls:
+        return None
+    best = max(set(calls), key=calls.count)
+    if 2 * calls.count(best) < i_rec[0].size:
+        return None
+    return {"line": best[0], "location": best[1], "windows": calls.count(best)}
+
+
 def search(work: dict[str, Terms], names: list[str], v_line: dict[str, np.ndarray], i_rec: list[np.ndarray]
            ) -> tuple[dict[str, Terms] | None, Finding | None, dict]:
     """The best assignment, as new working terms (None: keep), its finding, and the evidence.
@@ -102,6 +119,12 @@ def search(work: dict[str, Terms], names: list[str], v_line: dict[str, np.ndarra
     base_spread = float(base_lags.max() - base_lags.min())
     regen = base_spread <= LAG_SPREAD_DEG and bool(np.all(base_lags > LAG_RANGE_DEG[1] + LAG_MARGIN_DEG))
     if not fits:
+        open_line = _open_line_fit(v_line, i_rec)
+        if open_line is not None:
+            # the angles are those of an open line that other equipment keeps live (no dead channel): a finding for the
+            # open-phase detector (waveforms.detect.open_phase_steady), not a hook-up error
+            ev["currents_fit_open_line"] = open_line
+            return None, None, ev
         return None, Finding("current_assignment", "current-to-voltage angles not as a motoring motor draws: "
                              "no assignment of the clamps to the lines fits", tuple(names), ev, "low",
                              "none: ambiguous, analysed as recorded", False, short="clamps do not fit a motoring motor"), ev
